@@ -1,0 +1,7 @@
+"""carbfleet's computing package: air state, fuel, metering law, jetting plan and reports.
+
+Imports run one way: ``cli -> report -> plan -> (config, history) -> physics -> constants``,
+where the physics modules are :mod:`tuning.air`, :mod:`tuning.fuel` and :mod:`tuning.carb`.
+"""
+
+__version__ = "0.1.0"

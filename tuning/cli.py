@@ -1,0 +1,94 @@
+"""The ``carbfleet`` command: parses arguments, calls one function per verb, sets the exit code.
+
+Exit codes: 0 success, 1 build failure, 2 user error (bad file, value or name).
+"""
+
+from __future__ import annotations
+
+import argparse
+import sys
+
+from tuning.errors import CarbfleetError
+
+EXIT_OK, EXIT_BUILD, EXIT_USER = 0, 1, 2
+
+
+# --- air -------------------------------------------------------------------------------
+def add_air_parser(sub) -> None:
+    p = sub.add_parser("air", help="air state for one condition")
+    p.set_defaults(func=cmd_air)
+
+
+def cmd_air(args) -> int:
+    raise NotImplementedError("carbfleet air")
+
+
+# --- check / schema ------------------------------------------------------------------------
+def add_check_parsers(sub) -> None:
+    p = sub.add_parser("check", help="validate a fleet file and optionally an event file")
+    p.set_defaults(func=cmd_check)
+    p = sub.add_parser("schema", help="print the JSON Schema of the fleet and event files")
+    p.set_defaults(func=cmd_schema)
+
+
+def cmd_check(args) -> int:
+    raise NotImplementedError("carbfleet check")
+
+
+def cmd_schema(args) -> int:
+    raise NotImplementedError("carbfleet schema")
+
+
+# --- plan ------------------------------------------------------------------------------
+def add_plan_parser(sub) -> None:
+    p = sub.add_parser("plan", help="compute the jetting of every bike for every session")
+    p.set_defaults(func=cmd_plan)
+
+
+def cmd_plan(args) -> int:
+    raise NotImplementedError("carbfleet plan")
+
+
+# --- build -----------------------------------------------------------------------------
+def add_build_parser(sub) -> None:
+    p = sub.add_parser("build", help="build setup sheets and the fleet report")
+    p.set_defaults(func=cmd_build)
+
+
+def cmd_build(args) -> int:
+    raise NotImplementedError("carbfleet build")
+
+
+# --- main ------------------------------------------------------------------------------
+def make_parser() -> argparse.ArgumentParser:
+    parser = argparse.ArgumentParser(
+        prog="carbfleet",
+        description="Re-jet a fleet of carbureted off-road motorcycles for an event's "
+        "elevation and weather. Estimates only: confirm by a plug reading before hard riding.",
+    )
+    parser.add_argument("--debug", action="store_true", help="show tracebacks")
+    sub = parser.add_subparsers(dest="command", required=True, metavar="COMMAND")
+    add_air_parser(sub)
+    add_check_parsers(sub)
+    add_plan_parser(sub)
+    add_build_parser(sub)
+    return parser
+
+
+def main(argv: list[str] | None = None) -> int:
+    parser = make_parser()
+    args = parser.parse_args(argv)
+    try:
+        return int(args.func(args) or EXIT_OK)
+    except CarbfleetError as exc:
+        if args.debug:
+            raise
+        print(f"carbfleet {args.command}: {exc}" if "\n" not in str(exc) else str(exc), file=sys.stderr)
+        return exc.exit_code
+    except KeyboardInterrupt:
+        print(f"carbfleet {args.command}: interrupted", file=sys.stderr)
+        return 130
+
+
+if __name__ == "__main__":  # pragma: no cover
+    sys.exit(main())

@@ -1,0 +1,1 @@
+"""Reading fleet, event and weather files: pint at this edge only, SI floats out."""
