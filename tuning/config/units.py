@@ -1,0 +1,100 @@
+"""Values with units at the edge: "1340 m", "4400 ft", "62 degF", "29.92 inHg", "40 %".
+
+pint is used here and nowhere else. Everything returned is a float in SI (m, K, Pa, kg/m³,
+m³, rad) or a plain fraction (40 % -> 0.40).
+"""
+
+from __future__ import annotations
+
+import functools
+import math
+import re
+
+import pint
+
+__all__ = ["UnitProblem", "parse_quantity", "registry", "SI_UNITS"]
+
+#: The SI unit each dimension is converted to, by the default-unit's dimensionality.
+SI_UNITS = {
+    "[length]": "m",
+    "[temperature]": "K",
+    "[mass] / [length] / [time] ** 2": "Pa",
+    "[mass] / [length] ** 3": "kg/m**3",
+    "[length] ** 3": "m**3",
+    "": "dimensionless",
+}
+
+_NUMBER_UNIT = re.compile(r"^\s*([-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?)\s*(.*?)\s*$")
+
+
+class UnitProblem(ValueError):
+    """A value that cannot be read as a quantity of the expected kind (message: one line)."""
+
+
+@functools.lru_cache(maxsize=1)
+def registry() -> pint.UnitRegistry:
+    """The one unit registry of the project (built once; about 0.2 s)."""
+    ureg = pint.UnitRegistry(autoconvert_offset_to_baseunit=True, cache_folder=None)
+    return ureg
+
+
+def _dimension_name(dim) -> str:
+    names = {
+        "[length]": "a length",
+        "[temperature]": "a temperature",
+        "[mass] / [length] / [time] ** 2": "a pressure",
+        "[mass] / [length] ** 3": "a density",
+        "[length] ** 3": "a volume",
+        "dimensionless": "a plain number or percentage",
+    }
+    return names.get(str(dim), f"a quantity of dimension {dim}")
+
+
+def parse_quantity(value, default_unit: str, to_unit: str | None = None) -> float:
+    """Read ``value`` (a number, or a string of number and unit) and return it in SI.
+
+    Parameters
+    ----------
+    value : float or int or str
+        ``17.5`` (taken in ``default_unit``), or ``"62 degF"``, ``"1018 hPa"``, ``"40 %"``.
+    default_unit : str
+        The unit of a bare number, as pint spells it (``"m"``, ``"degC"``, ``"hPa"``,
+        ``"percent"``). It also fixes the expected dimension.
+    to_unit : str, optional
+        The unit to return in; the SI unit of the dimension by default. Ratios (percent)
+        come back as fractions.
+
+    Raises
+    ------
+    UnitProblem
+        Unknown unit, wrong dimension, not a number, or not finite.
+    """
+    ureg = registry()
+    default = ureg.Quantity(1.0, default_unit)
+    if to_unit is None:
+        to_unit = "dimensionless" if default.dimensionless else str(default.to_base_units().units)
+        to_unit = SI_UNITS.get(str(default.dimensionality), to_unit)
+    if isinstance(value, bool) or value is None:
+        raise UnitProblem(f"expected a number with an optional unit (default {default_unit}), got {value!r}")
+    if isinstance(value, (int, float)):
+        magnitude, unit = float(value), default_unit
+    elif isinstance(value, str):
+        match = _NUMBER_UNIT.match(value)
+        if not match:
+            raise UnitProblem(f"expected a number and a unit such as '12 {default_unit}', got {value!r}")
+        magnitude, unit = float(match.group(1)), match.group(2) or default_unit
+        unit = {"%": "percent"}.get(unit, unit)
+    else:
+        raise UnitProblem(f"expected a number with an optional unit (default {default_unit}), got {value!r}")
+    if not math.isfinite(magnitude):
+        raise UnitProblem(f"expected a finite number, got {value!r}")
+    try:
+        quantity = ureg.Quantity(magnitude, unit)
+    except (pint.errors.UndefinedUnitError, pint.errors.DefinitionSyntaxError, AttributeError, TypeError, ValueError):
+        raise UnitProblem(f"unknown unit {unit!r} in {value!r}") from None
+    if quantity.dimensionality != default.dimensionality:
+        raise UnitProblem(
+            f"{value!r} is not {_dimension_name(default.dimensionality)} "
+            f"(it is {_dimension_name(quantity.dimensionality)}); give it in {default_unit} or a unit of the same kind"
+        )
+    return float(quantity.to(to_unit).magnitude)
