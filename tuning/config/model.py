@@ -156,6 +156,7 @@ class Fleet:
     stock: Mapping[tuple[str, float], int]  # (family, size) -> count on the shelf
     density_exponent: float = 0.5
     source: Path | None = None
+    reference_afr: float = 12.0  # [1] air-fuel mass ratio the proven settings are assumed to give
 
 
 @dataclass(frozen=True)

@@ -1,0 +1,579 @@
+"""The fleet file: reference conditions, fuels, jet families, needles, models, bikes, stock.
+
+Every field is documented in its spec below (the same text goes into the JSON Schema, see
+``carbfleet schema fleet``). Bare numbers take the unit named in each description.
+
+Defaults where the file is silent (each one is flagged on the resolved objects so the setup
+sheet can say so):
+
+* a needle without geometry gets :data:`DEFAULT_NEEDLE` (``Needle.assumed = True``); a needle
+  with part of its geometry gets the rest from the same defaults, also ``assumed = True``;
+* a mixture screw without ``usable_range`` gets 1..3 turns out (``range_assumed = True``);
+* ``density_exponent`` 0.5 (the metering law), ``reference_afr`` 12.0;
+* a two-stroke model without ``premix`` takes the fleet-wide ``premix``; without either it is
+  taken as oil-injected (no oil in the fuel). Four-strokes may not have a premix.
+* a bike's own ``reference`` may leave out ``fuel``: the fleet reference's fuel is used.
+"""
+
+from __future__ import annotations
+
+import math
+
+from tuning.config import model
+from tuning.config.source import display_name, load_yaml
+from tuning.config.spec import (
+    INVALID,
+    Boolean,
+    Choice,
+    Context,
+    Custom,
+    Either,
+    Field,
+    Integer,
+    Mapping,
+    Number,
+    Obj,
+    Quantity,
+    Sequence,
+    Text,
+    did_you_mean,
+    known_list,
+)
+from tuning.errors import ConfigError
+
+__all__ = ["load_fleet", "fleet_spec", "DEFAULT_NEEDLE", "DEFAULT_SCREW_RANGE"]
+
+#: Needle geometry used where the fleet file gives none [m, rad]. A generic needle of the
+#: usual order of magnitude (from memory, no maker's part): sheets say it was assumed.
+DEFAULT_NEEDLE = {
+    "straight_diameter": 2.70e-3,
+    "taper_start": 12.0e-3,
+    "taper_angle": math.radians(1.0),
+    "grooves": 5,
+    "groove_pitch": 1.0e-3,
+}
+#: Usable mixture-screw range where the file gives none [turns out] (common practice: 1..3).
+DEFAULT_SCREW_RANGE = (1.0, 3.0)
+
+# Fuel properties for blends (from memory, checked against Heywood 1988, Appendix D).
+_GASOLINE_AFR, _GASOLINE_DENSITY = 14.7, 745.0  # [1] trade figure; [kg/m³] at 15 °C, typical
+_ETHANOL_DENSITY, _METHANOL_DENSITY = 789.0, 792.0  # [kg/m³] at 20 °C
+_O2_AIR_MASS = 31.998 + 3.773 * 28.014  # [kg air per kmol O2]; N2/O2 = 3.773 in dry air
+_ETHANOL_AFR = 3.0 * _O2_AIR_MASS / 46.069  # C2H5OH + 3 O2 -> 2 CO2 + 3 H2O; ≈ 8.95
+_METHANOL_AFR = 1.5 * _O2_AIR_MASS / 32.042  # CH3OH + 1.5 O2 -> CO2 + 2 H2O; ≈ 6.43
+
+#: Accepted ranges, in the unit named (also used for the weather table and METAR).
+ELEVATION_RANGE = (-500.0, 5000.0)  # [m]
+TEMPERATURE_RANGE = (-40.0, 55.0)  # [degC]
+DEW_POINT_RANGE = (-60.0, 55.0)  # [degC]
+PRESSURE_RANGE = (300.0, 1100.0)  # [hPa], for every pressure kind
+HUMIDITY_RANGE = (0.0, 100.0)  # [%]
+
+PRESSURE_KEYS = {"station_pressure": "station", "qnh": "qnh", "sea_level_pressure": "sea_level"}
+
+
+# --- specs -------------------------------------------------------------------------------
+def pressure_field(what: str) -> Field:
+    return Field(Quantity("hPa", f"{what}.", *PRESSURE_RANGE))
+
+
+def conditions_spec(fuel_required: bool, what: str) -> Obj:
+    return Obj(
+        {
+            "elevation": Field(Quantity("m", "Elevation above mean sea level.", *ELEVATION_RANGE), True),
+            "air_temperature": Field(Quantity("degC", "Air temperature (shade, about 2 m above ground).", *TEMPERATURE_RANGE), True),
+            "station_pressure": pressure_field("Absolute air pressure at the site (not reduced to sea level)"),
+            "qnh": pressure_field("QNH / altimeter setting, as airfields and METAR give it"),
+            "sea_level_pressure": pressure_field("Pressure reduced to mean sea level, as weather maps give it"),
+            "relative_humidity": Field(Quantity("percent", "Relative humidity over water.", *HUMIDITY_RANGE, unit_label="%")),
+            "dew_point": Field(Quantity("degC", "Dew point.", *DEW_POINT_RANGE)),
+            "fuel": Field(Text("Name of a fuel under `fuels`" + ("." if fuel_required else "; the fleet reference's fuel when left out.")), fuel_required),
+        },
+        description=what
+        + " Give exactly one of station_pressure / qnh / sea_level_pressure and one of relative_humidity / dew_point.",
+        one_of=(tuple(PRESSURE_KEYS), ("relative_humidity", "dew_point")),
+    )
+
+
+def _read_premix(value) -> float:
+    """40, 40.0 or "40:1" -> 40.0 (fuel volume per oil volume)."""
+    if isinstance(value, bool) or value is None:
+        raise ValueError(f"expected a fuel:oil ratio such as 40 or '40:1', got {value!r}")
+    if isinstance(value, str):
+        text = value.replace(" ", "")
+        parts = text.split(":")
+        try:
+            if len(parts) == 2 and float(parts[1]) == 1.0:
+                value = float(parts[0])
+            else:
+                value = float(text)
+        except ValueError:
+            raise ValueError(f"expected a fuel:oil ratio such as 40 or '40:1', got {value!r}") from None
+    ratio = float(value)
+    if not 10.0 <= ratio <= 200.0:
+        raise ValueError(f"premix {ratio:g}:1 is outside the accepted range 10:1..200:1")
+    return ratio
+
+
+PREMIX = Custom(
+    _read_premix,
+    {"anyOf": [{"type": "number", "minimum": 10, "maximum": 200}, {"type": "string", "pattern": r"^\s*\d+(\.\d+)?\s*(:\s*1\s*)?$"}]},
+    "Two-stroke premix, fuel:oil by volume: 40 or \"40:1\".",
+)
+DENSITY_EXPONENT = Number("Exponent on the air-density ratio; 0.5 is the metering law, workshop rules correct harder.", 0.0, 1.5, exclusive_minimum=True)
+JET_SIZE = Number("Jet number as stamped (diameter-coded: orifice in 0.01 mm; flow-coded: proportional to flow).", 0.0, exclusive_minimum=True)
+SCREW_TURNS = Number("Turns out from lightly seated.", 0.0, 10.0)
+
+
+def jet_spec(full: bool, what: str) -> Obj:
+    return Obj(
+        {"family": Field(Text("Name of a family under `jet_families`."), full), "size": Field(JET_SIZE, full)},
+        description=what,
+    )
+
+
+def settings_spec(full: bool) -> Obj:
+    what = "Proven settings of the model." if full else "This bike's deviations from its model's settings (give only what differs)."
+    return Obj(
+        {
+            "main_jet": Field(jet_spec(full, "Main jet (3/4 to full throttle)."), full),
+            "pilot_jet": Field(jet_spec(full, "Pilot (slow) jet (idle to about 1/4 throttle)."), full),
+            "needle": Field(
+                Obj(
+                    {
+                        "name": Field(Text("Name of a needle under `needles`."), full),
+                        "clip": Field(Integer("Clip groove, 1 = top groove (needle lowest, leanest).", 1, 9), full),
+                    },
+                    description="Jet needle and clip position.",
+                )
+            ),
+            "mixture_screw": Field(
+                Obj(
+                    {
+                        "kind": Field(Choice(("air", "fuel"), "air: turning out leans the idle mixture; fuel: turning out richens it."), full),
+                        "turns": Field(SCREW_TURNS, full),
+                        "usable_range": Field(Sequence(SCREW_TURNS, "[min, max] turns out; default [1, 3].", 2, 2)),
+                    },
+                    description="Idle mixture screw.",
+                ),
+                full,
+            ),
+            "float_level": Field(Quantity("mm", "Float level as the service manual measures it.", 0, 60)),
+        },
+        description=what,
+    )
+
+
+FUEL = Obj(
+    {
+        "ethanol": Field(Quantity("percent", "Ethanol content by volume.", 0, 100, unit_label="%")),
+        "methanol": Field(Quantity("percent", "Methanol content by volume.", 0, 100, unit_label="%")),
+        "stoichiometric_afr": Field(Number("Stoichiometric air-fuel mass ratio; computed from the blend when left out.", 5.0, 20.0)),
+        "density": Field(Quantity("kg/L", "Density at about 15 degC; computed from the blend when left out.", 0.6, 1.0)),
+    },
+    description="A pump fuel: gasoline with ethanol/methanol by volume (0 % when left out), or explicit properties.",
+    allow_null=True,
+)
+
+JET_FAMILY = Obj(
+    {
+        "coding": Field(Choice(("diameter", "flow"), "diameter: number = orifice diameter in 0.01 mm; flow: number proportional to flow."), True),
+        "sizes": Field(
+            Either(
+                sequence=Sequence(JET_SIZE, "Every size available, e.g. [140, 142, 145].", 1),
+                mapping=Obj(
+                    {
+                        "from": Field(JET_SIZE, True),
+                        "to": Field(JET_SIZE, True),
+                        "step": Field(Number("Step between sizes.", 0.0, exclusive_minimum=True), True),
+                    },
+                    description="Sizes from..to (both included) in equal steps.",
+                ),
+                description="Available sizes: a list, or {from, to, step}.",
+                expected="a list of sizes or a mapping {from, to, step}",
+            ),
+            True,
+        ),
+    },
+    description="A family of interchangeable jets.",
+)
+
+NEEDLE = Obj(
+    {
+        "straight_diameter": Field(Quantity("mm", "Diameter of the straight (upper) part.", 0.5, 10.0)),
+        "taper_start": Field(Quantity("mm", "Slide lift at which the taper reaches the needle jet, clip in groove 1.", 0, 100)),
+        "taper_angle": Field(Quantity("deg", "Included angle of the taper.", 0, 10)),
+        "grooves": Field(Integer("Number of clip grooves.", 1, 9)),
+        "groove_pitch": Field(Quantity("mm", "Distance between clip grooves.", 0.1, 5.0)),
+    },
+    description="Jet needle geometry; anything left out takes a documented generic default and the sheet says 'assumed'.",
+    allow_null=True,
+)
+
+CARBURETOR = Obj(
+    {
+        "slide": Field(Choice(("round", "flat"), "Slide kind."), True),
+        "bore": Field(Quantity("mm", "Venturi/slide bore.", 10, 60), True),
+        "needle_jet": Field(Quantity("mm", "Bore of the needle jet (unknown when left out).", 1, 6)),
+        "accelerator_pump": Field(Boolean("Has an accelerator pump (default false).")),
+    },
+    description="The model's carburetor.",
+)
+
+MODEL = Obj(
+    {
+        "strokes": Field(Choice((2, 4), "2 or 4."), True),
+        "displacement": Field(Quantity("cc", "Displacement.", 10, 2000), True),
+        "premix": Field(PREMIX),
+        "density_exponent": Field(DENSITY_EXPONENT),
+        "carburetor": Field(CARBURETOR, True),
+        "settings": Field(settings_spec(True), True),
+    },
+    description="A bike model.",
+)
+
+BIKE = Obj(
+    {
+        "id": Field(Text("Fleet number, unique."), True),
+        "model": Field(Text("Name of a model under `models`."), True),
+        "settings": Field(settings_spec(False)),
+        "reference": Field(conditions_spec(False, "This bike's own reference conditions (replaces the fleet's).")),
+        "premix": Field(PREMIX),
+        "density_exponent": Field(DENSITY_EXPONENT),
+        "notes": Field(Text("Free text shown on the sheet.")),
+    },
+    description="One bike.",
+)
+
+STOCK_ITEM = Obj(
+    {
+        "family": Field(Text("Name of a jet family."), True),
+        "size": Field(JET_SIZE, True),
+        "count": Field(Integer("Jets of this size on the shelf.", 0, 100000), True),
+    },
+    description="Jets on the shelf.",
+)
+
+
+def fleet_spec() -> Obj:
+    """The spec of the whole fleet file."""
+    return Obj(
+        {
+            "fleet": Field(Text("Name of the fleet."), True),
+            "reference": Field(conditions_spec(True, "Conditions under which the recorded settings were proven."), True),
+            "density_exponent": Field(DENSITY_EXPONENT),
+            "reference_afr": Field(Number("Air-fuel mass ratio the proven settings are assumed to give (default 12.0).", 8.0, 20.0)),
+            "premix": Field(PREMIX),
+            "fuels": Field(Mapping(FUEL, "Fuels by name.", 1), True),
+            "jet_families": Field(Mapping(JET_FAMILY, "Jet families by name.", 1), True),
+            "needles": Field(Mapping(NEEDLE, "Jet needles by name.")),
+            "models": Field(Mapping(MODEL, "Bike models by name.", 1), True),
+            "bikes": Field(Sequence(BIKE, "The bikes.", 1), True),
+            "stock": Field(Sequence(STOCK_ITEM, "Jets on the shelf (a size not listed counts as 0).")),
+        },
+        description="A carbfleet fleet file.",
+    )
+
+
+# --- resolution --------------------------------------------------------------------------
+def make_conditions(raw: dict, default_fuel: str | None) -> model.Conditions:
+    (pressure_key,) = [k for k in PRESSURE_KEYS if k in raw]
+    return model.Conditions(
+        elevation=raw["elevation"],
+        air_temperature=raw["air_temperature"],
+        pressure=raw[pressure_key],
+        pressure_kind=PRESSURE_KEYS[pressure_key],
+        relative_humidity=raw.get("relative_humidity"),
+        dew_point=raw.get("dew_point"),
+        fuel=raw.get("fuel", default_fuel),
+    )
+
+
+def conditions_complete(raw) -> bool:
+    return (
+        isinstance(raw, dict)
+        and {"elevation", "air_temperature"} <= raw.keys()
+        and sum(k in raw for k in PRESSURE_KEYS) == 1
+        and sum(k in raw for k in ("relative_humidity", "dew_point")) == 1
+    )
+
+
+def check_conditions(raw, path: str, fuels: dict, ctx: Context) -> None:
+    if not isinstance(raw, dict):
+        return
+    if "dew_point" in raw and "air_temperature" in raw and raw["dew_point"] > raw["air_temperature"] + 1e-9:
+        ctx.at_path(f"{path}.dew_point", "dew point above the air temperature; check the values and their units")
+    fuel = raw.get("fuel")
+    if fuel is not None and fuel not in fuels:
+        ctx.at_path(f"{path}.fuel", f"unknown fuel '{fuel}'{did_you_mean(fuel, fuels)}; {known_list(fuels)}")
+
+
+def make_fuel(name: str, raw: dict, path: str, ctx: Context) -> model.Fuel | None:
+    ethanol, methanol = raw.get("ethanol", 0.0), raw.get("methanol", 0.0)
+    if ethanol + methanol > 1.0 + 1e-9:
+        ctx.at_path(path, "ethanol and methanol together exceed 100 %")
+        return None
+    gasoline = 1.0 - ethanol - methanol
+    masses = (gasoline * _GASOLINE_DENSITY, ethanol * _ETHANOL_DENSITY, methanol * _METHANOL_DENSITY)
+    density = sum(masses)  # [kg/m³] per m³ of blend (volumes taken as additive)
+    afr = sum(m * a for m, a in zip(masses, (_GASOLINE_AFR, _ETHANOL_AFR, _METHANOL_AFR))) / density
+    return model.Fuel(
+        name=name,
+        stoichiometric_afr=raw.get("stoichiometric_afr", afr),
+        density=raw.get("density", density),
+        ethanol_volume_fraction=ethanol,
+        methanol_volume_fraction=methanol,
+    )
+
+
+def make_family(name: str, raw: dict, path: str, ctx: Context) -> model.JetFamily | None:
+    sizes = raw.get("sizes")
+    if sizes is None:
+        return None
+    if isinstance(sizes, dict):
+        if not {"from", "to", "step"} <= sizes.keys():
+            return None
+        start, stop, step = sizes["from"], sizes["to"], sizes["step"]
+        count = (stop - start) / step
+        if stop <= start:
+            ctx.at_path(f"{path}.sizes.to", f"'to' ({stop:g}) must be above 'from' ({start:g})")
+            return None
+        if count > 2000:
+            ctx.at_path(f"{path}.sizes.step", f"{count:.0f} sizes is too many; check step")
+            return None
+        if abs(count - round(count)) > 1e-6:
+            ctx.at_path(f"{path}.sizes.step", f"from {start:g} to {stop:g} is not a whole number of steps of {step:g}")
+            return None
+        values = [round(start + i * step, 6) for i in range(round(count) + 1)]
+    else:
+        values = [s for s in sizes if s is not INVALID]
+        for i, s in enumerate(sizes):
+            if s is not INVALID and sizes.index(s) != i:
+                ctx.at_path(f"{path}.sizes[{i}]", f"size {s:g} is listed twice")
+    return model.JetFamily(name=name, coding=raw.get("coding", "diameter"), sizes=tuple(sorted(set(values))))
+
+
+def make_needle(name: str, raw: dict) -> model.Needle:
+    values = {k: raw.get(k, default) for k, default in DEFAULT_NEEDLE.items()}
+    return model.Needle(name=name, assumed=not set(DEFAULT_NEEDLE) <= raw.keys(), **values)
+
+
+def size_problem(size: float, family: model.JetFamily) -> str | None:
+    if any(abs(size - s) <= 1e-6 * max(1.0, abs(s)) for s in family.sizes):
+        return None
+    below = [s for s in family.sizes if s < size]
+    above = [s for s in family.sizes if s > size]
+    near = ", ".join(f"{s:g}" for s in (below[-1:] + above[:1]))
+    return f"size {size:g} is not in family '{family.name}' (nearest: {near})"
+
+
+def check_jet(raw, path, families, ctx) -> None:
+    """Family known and size available; ``raw`` holds whatever of family/size is resolved."""
+    family_name, size = raw.get("family"), raw.get("size")
+    if family_name is None:
+        return
+    family = families.get(family_name)
+    if family is None:
+        ctx.at_path(f"{path}.family", f"unknown jet family '{family_name}'{did_you_mean(family_name, families)}; {known_list(families)}")
+        return
+    if size is not None:
+        problem = size_problem(size, family)
+        if problem:
+            ctx.at_path(f"{path}.size", problem)
+
+
+def merge_settings(base: dict, override: dict) -> dict:
+    merged = dict(base)
+    for key, value in override.items():
+        if isinstance(value, dict) and isinstance(base.get(key), dict):
+            merged[key] = {**base[key], **value}
+        else:
+            merged[key] = value
+    return merged
+
+
+def check_settings(settings: dict, given: dict, path: str, families, needles, ctx: Context) -> None:
+    """Check the resolved ``settings``; report only parts present in ``given`` (the file's own keys)."""
+    for jet in ("main_jet", "pilot_jet"):
+        if jet in given and isinstance(settings.get(jet), dict):
+            check_jet(settings[jet], f"{path}.{jet}", families, ctx)
+    if "needle" in given and isinstance(settings.get("needle"), dict):
+        needle = settings["needle"]
+        name, clip = needle.get("name"), needle.get("clip")
+        if name is None and clip is not None:
+            ctx.at_path(f"{path}.needle", "a clip is given but no needle name (the model has none)")
+        elif name is not None and name not in needles:
+            ctx.at_path(f"{path}.needle.name", f"unknown needle '{name}'{did_you_mean(name, needles)}; {known_list(needles)}")
+        elif name is not None and clip is not None and clip > needles[name].grooves:
+            ctx.at_path(
+                f"{path}.needle.clip",
+                f"clip {clip} is outside needle '{name}' which has grooves 1..{needles[name].grooves}",
+            )
+    screw = settings.get("mixture_screw")
+    if "mixture_screw" in given and isinstance(screw, dict):
+        usable = screw.get("usable_range")
+        if isinstance(usable, list) and INVALID not in usable and usable[0] >= usable[1]:
+            ctx.at_path(f"{path}.mixture_screw.usable_range", f"expected [min, max] with min below max, got {usable}")
+
+
+def make_settings(raw: dict, needles) -> model.Settings:
+    screw = raw["mixture_screw"]
+    usable = screw.get("usable_range")
+    needle = raw.get("needle") or {}
+    return model.Settings(
+        main_jet=raw["main_jet"]["size"],
+        main_jet_family=raw["main_jet"]["family"],
+        pilot_jet=raw["pilot_jet"]["size"],
+        pilot_jet_family=raw["pilot_jet"]["family"],
+        needle=needle.get("name"),
+        clip=needle.get("clip"),
+        mixture_screw=model.MixtureScrew(
+            kind=screw["kind"],
+            turns=screw["turns"],
+            usable_range=tuple(usable) if usable else DEFAULT_SCREW_RANGE,
+            range_assumed=not usable,
+        ),
+        float_level=raw.get("float_level"),
+    )
+
+
+def load_fleet(path) -> model.Fleet:
+    """Read, check and resolve a fleet file.
+
+    Parameters
+    ----------
+    path : str or os.PathLike
+        The fleet YAML file.
+
+    Returns
+    -------
+    tuning.config.model.Fleet
+        Every number in SI; every bike resolved against its model and the fleet.
+
+    Raises
+    ------
+    tuning.errors.ConfigError
+        With every problem of the file, each ``file:line: field: problem``.
+    """
+    ctx = Context(display_name(path))
+    root = load_yaml(path)
+    ctx.lines[""] = root.start_mark.line + 1
+    raw = fleet_spec().check(root, "", ctx)
+    if raw is INVALID:
+        raise ConfigError(ctx.problems)
+    fuels = {n: f for n, r in raw.get("fuels", {}).items() if (f := make_fuel(n, r, f"fuels.{n}", ctx))}
+    families = {n: f for n, r in raw.get("jet_families", {}).items() if (f := make_family(n, r, f"jet_families.{n}", ctx))}
+    needles = {n: make_needle(n, r) for n, r in raw.get("needles", {}).items()}
+    reference_raw = raw.get("reference", {})
+    check_conditions(reference_raw, "reference", fuels, ctx)
+
+    models_raw = raw.get("models", {})
+    for name, m in models_raw.items():
+        path_m = f"models.{name}"
+        settings = m.get("settings", {})
+        check_settings(settings, settings, f"{path_m}.settings", families, needles, ctx)
+        if m.get("strokes") == 4 and "premix" in m:
+            ctx.at_path(f"{path_m}.premix", "a four-stroke takes no premix; remove it")
+
+    bikes_raw = raw.get("bikes", [])
+    seen_ids: dict[str, int] = {}
+    for i, b in enumerate(bikes_raw):
+        path_b = f"bikes[{i}]"
+        if b is INVALID:
+            continue
+        bike_id = b.get("id")
+        if bike_id is not None:
+            if bike_id in seen_ids:
+                ctx.at_path(f"{path_b}.id", f"duplicate bike id '{bike_id}' (first used by bikes[{seen_ids[bike_id]}])")
+            else:
+                seen_ids[bike_id] = i
+        model_name = b.get("model")
+        if model_name is not None and model_name not in models_raw:
+            ctx.at_path(f"{path_b}.model", f"unknown model '{model_name}'{did_you_mean(model_name, models_raw)}; {known_list(models_raw)}")
+            continue
+        base = models_raw.get(model_name, {}).get("settings", {})
+        override = b.get("settings", {})
+        check_settings(merge_settings(base, override), override, f"{path_b}.settings", families, needles, ctx)
+        check_conditions(b.get("reference"), f"{path_b}.reference", fuels, ctx)
+        if "premix" in b and models_raw.get(model_name, {}).get("strokes") == 4:
+            ctx.at_path(f"{path_b}.premix", "this bike's model is a four-stroke, which takes no premix; remove it")
+
+    stock: dict[tuple[str, float], int] = {}
+    for i, item in enumerate(raw.get("stock", [])):
+        if item is INVALID or not {"family", "size", "count"} <= item.keys():
+            continue
+        before = len(ctx.problems)
+        check_jet(item, f"stock[{i}]", families, ctx)
+        if len(ctx.problems) > before:
+            continue
+        key = (item["family"], item["size"])
+        if key in stock:
+            ctx.at_path(f"stock[{i}]", f"{item['family']} size {item['size']:g} is listed twice; give one count")
+        stock[key] = item["count"]
+
+    if ctx.problems:
+        raise ConfigError(ctx.problems)
+    return _build(raw, fuels, families, needles, stock, path)
+
+
+def _build(raw, fuels, families, needles, stock, path) -> model.Fleet:
+    """Assemble the typed objects (only called on a file without problems)."""
+    reference = make_conditions(raw["reference"], None)
+    fleet_exponent = raw.get("density_exponent", 0.5)
+    fleet_premix = raw.get("premix")
+    models = {}
+    for name, m in raw["models"].items():
+        carb = m["carburetor"]
+        premix = m.get("premix", fleet_premix if m["strokes"] == 2 else None)
+        models[name] = model.Model(
+            name=name,
+            strokes=m["strokes"],
+            displacement=m["displacement"],
+            carburetor=model.Carburetor(
+                slide=carb["slide"],
+                bore=carb["bore"],
+                needle_jet=carb.get("needle_jet"),
+                accelerator_pump=carb.get("accelerator_pump", False),
+            ),
+            premix_ratio=premix,
+            settings=make_settings(m["settings"], needles),
+            density_exponent=m.get("density_exponent"),
+        )
+    bikes = []
+    for b in raw["bikes"]:
+        m = models[b["model"]]
+        merged = merge_settings(raw["models"][b["model"]]["settings"], b.get("settings", {}))
+        own = "reference" in b
+        exponent = b.get("density_exponent", m.density_exponent if m.density_exponent is not None else fleet_exponent)
+        bikes.append(
+            model.Bike(
+                id=b["id"],
+                model=b["model"],
+                settings=make_settings(merged, needles),
+                reference=make_conditions(b["reference"], reference.fuel) if own else reference,
+                premix_ratio=b.get("premix", m.premix_ratio),
+                density_exponent=exponent,
+                notes=b.get("notes", ""),
+                own_reference=own,
+            )
+        )
+    extra = {"reference_afr": raw["reference_afr"]} if "reference_afr" in raw else {}
+    return model.Fleet(
+        name=raw["fleet"],
+        reference=reference,
+        fuels=fuels,
+        jet_families=families,
+        needles=needles,
+        models=models,
+        bikes=tuple(bikes),
+        stock=stock,
+        density_exponent=fleet_exponent,
+        source=_as_path(path),
+        **extra,
+    )
+
+
+def _as_path(path):
+    from pathlib import Path
+
+    return Path(path)
