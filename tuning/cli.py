@@ -25,18 +25,59 @@ def cmd_air(args) -> int:
 
 # --- check / schema ------------------------------------------------------------------------
 def add_check_parsers(sub) -> None:
-    p = sub.add_parser("check", help="validate a fleet file and optionally an event file")
+    p = sub.add_parser(
+        "check",
+        help="validate a fleet file and optionally an event file",
+        description="Check a fleet file (and an event file with its weather) and print a short summary. "
+        "Exit 0 when valid; 2 with every problem as file:line: field: problem. "
+        "Bare numbers take each field's default unit (see `carbfleet schema`).",
+    )
+    p.add_argument("fleet", metavar="FLEET", help="fleet YAML file")
+    p.add_argument("event", metavar="EVENT", nargs="?", help="event YAML file (its weather CSV path is relative to it)")
     p.set_defaults(func=cmd_check)
-    p = sub.add_parser("schema", help="print the JSON Schema of the fleet and event files")
+    p = sub.add_parser(
+        "schema",
+        help="print the JSON Schema of the fleet and event files",
+        description="Print the JSON Schema (draft 2020-12) for editors and other tools: both files as one "
+        'object {"fleet": ..., "event": ...}, or only the one named.',
+    )
+    p.add_argument("which", nargs="?", choices=("fleet", "event"), help="print only this schema")
     p.set_defaults(func=cmd_schema)
 
 
 def cmd_check(args) -> int:
-    raise NotImplementedError("carbfleet check")
+    from tuning.config import load_event, load_fleet, summarize
+    from tuning.errors import ConfigError
+
+    problems, fleet, event = [], None, None
+    try:
+        fleet = load_fleet(args.fleet)
+    except ConfigError as exc:
+        problems += exc.problems
+    if args.event is not None:
+        try:
+            event = load_event(args.event, fleet)
+        except ConfigError as exc:
+            problems += exc.problems
+    if problems:
+        raise ConfigError(problems)
+    print(summarize(fleet, event))
+    return EXIT_OK
 
 
 def cmd_schema(args) -> int:
-    raise NotImplementedError("carbfleet schema")
+    import json
+
+    from tuning.config import event_schema, fleet_schema
+
+    if args.which == "fleet":
+        schema = fleet_schema()
+    elif args.which == "event":
+        schema = event_schema()
+    else:
+        schema = {"fleet": fleet_schema(), "event": event_schema()}
+    print(json.dumps(schema, indent=2, ensure_ascii=False))
+    return EXIT_OK
 
 
 # --- plan ------------------------------------------------------------------------------
