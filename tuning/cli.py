@@ -82,12 +82,46 @@ def cmd_schema(args) -> int:
 
 # --- plan ------------------------------------------------------------------------------
 def add_plan_parser(sub) -> None:
-    p = sub.add_parser("plan", help="compute the jetting of every bike for every session")
+    p = sub.add_parser(
+        "plan",
+        help="compute the jetting of every bike for every session",
+        description="Plan main jet, pilot jet, needle clip and mixture screw for every bike and session "
+        "of an event, across the session's hourly weather. Writes recommendations.json, "
+        "recommendations.csv (units in the column names: degC, hPa, m, mm, turns) and pick-list.csv. "
+        "Estimates only: confirm by a plug reading before hard riding.",
+    )
+    p.add_argument("fleet", metavar="FLEET", help="fleet file (YAML)")
+    p.add_argument("event", metavar="EVENT", help="event file (YAML) naming its weather table")
+    p.add_argument("--out", metavar="DIR", required=True, help="output folder (created when missing)")
     p.set_defaults(func=cmd_plan)
 
 
 def cmd_plan(args) -> int:
-    raise NotImplementedError("carbfleet plan")
+    from tuning.config import load_event, load_fleet
+    from tuning.plan import make_plan, write_plan_files
+
+    fleet = load_fleet(args.fleet)
+    event = load_event(args.event, fleet)
+    plan = make_plan(fleet, event)
+    paths = write_plan_files(plan, args.out)
+    entries = plan["entries"]
+    changed = sum(
+        1 for e in entries if any(e["settings"][k]["steps"] for k in ("main_jet", "pilot_jet", "clip"))
+        or e["settings"]["mixture_screw"]["change_turns"]
+    )
+    short = sum(p["short"] or 0 for p in plan["pick_list"])
+    print(f"{plan['fleet']} at {plan['event']} ({plan['site']['name']}, {plan['site']['elevation_m']:g} m): "
+          f"{len({e['bike'] for e in entries})} bikes x {len(plan['sessions'])} sessions, "
+          f"{changed} with changes, {plan['warnings_count']} warnings, {short} jets short")
+    for e in entries:
+        m, pj = e["settings"]["main_jet"], e["settings"]["pilot_jet"]
+        print(f"  {e['bike']:<10} {e['session']:<14} main {m['current']}->{m['recommended']}  "
+              f"pilot {pj['current']}->{pj['recommended']}  clip {e['settings']['clip']['current']}->"
+              f"{e['settings']['clip']['recommended']}  factor {e['summary']['area_factor_mean']}"
+              + (f"  [{', '.join(sorted({w['code'] for w in e['warnings']}))}]" if e["warnings"] else ""))
+    for path in paths:
+        print(f"wrote {path}")
+    return EXIT_OK
 
 
 # --- build -----------------------------------------------------------------------------

@@ -49,7 +49,7 @@ import io
 import json
 import os
 import tempfile
-import warnings
+import warnings as pywarnings
 from datetime import datetime, timezone
 from pathlib import Path
 from zoneinfo import ZoneInfo
@@ -1081,8 +1081,8 @@ def make_plan(fleet, event) -> dict:
         first = np.searchsorted(wt, all_times.min(), side="right") - 1
         last = np.searchsorted(wt, all_times.max(), side="left")
         idx = np.arange(max(first, 0), min(last, len(wt) - 1) + 1)
-        with warnings.catch_warnings():  # the same air as the session hours: warned there already
-            warnings.simplefilter("ignore", air.OutOfRangeWarning)
+        with pywarnings.catch_warnings():  # the same air as the session hours: warned there already
+            pywarnings.simplefilter("ignore", air.OutOfRangeWarning)
             w_air = _air_at(event.weather, event.site.elevation, wt[idx], where_event)
         w_factor = carb.area_factor(
             w_air.dry_air_density, ref_dry[fleet_ref_id], w_air.moist_air_density, ref_moist[fleet_ref_id],
@@ -1157,8 +1157,8 @@ def _rejet_temperatures(fleet, main, main_coding, event_air, hour_index, valid, 
         )
 
     def solve(target):
-        with warnings.catch_warnings():  # hypothetical temperatures: J1349 range notes are noise here
-            warnings.simplefilter("ignore", air.OutOfRangeWarning)
+        with pywarnings.catch_warnings():  # hypothetical temperatures: J1349 range notes are noise here
+            pywarnings.simplefilter("ignore", air.OutOfRangeWarning)
             return _bisect(target)
 
     def _bisect(target):
