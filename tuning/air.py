@@ -96,10 +96,11 @@ def _warn_outside(value, low, high, what, unit, scale=1.0, offset=0.0, stackleve
     outside = (value < low) | (value > high)
     if np.any(outside):
         count = int(np.count_nonzero(outside))
-        lo_v, hi_v = np.nanmin(value[outside]), np.nanmax(value[outside])
+        lo_v, hi_v = (np.nanmin(value[outside]) - offset) / scale, (np.nanmax(value[outside]) - offset) / scale
+        given = f"{lo_v:.4g} {unit} is" if count == 1 else f"{count} values from {lo_v:.4g} to {hi_v:.4g} {unit} are"
         warnings.warn(
-            f"{what}: {count} value(s) outside {(low - offset) / scale:g}..{(high - offset) / scale:g} {unit} "
-            f"(from {(lo_v - offset) / scale:g} to {(hi_v - offset) / scale:g} {unit}); computed all the same",
+            f"{what}: {given} outside the range {(low - offset) / scale:g} to {(high - offset) / scale:g} {unit}; "
+            "computed all the same (an extrapolation)",
             OutOfRangeWarning,
             stacklevel=stacklevel,
         )
