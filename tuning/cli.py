@@ -14,13 +14,132 @@ EXIT_OK, EXIT_BUILD, EXIT_USER = 0, 1, 2
 
 
 # --- air -------------------------------------------------------------------------------
+_AIR_PRESSURE_OPTIONS = {"qnh": "--qnh", "station": "--station-pressure", "sea_level": "--sea-level-pressure"}
+_AIR_HUMIDITY_OPTIONS = {"relative_humidity": "--relative-humidity", "dew_point": "--dew-point"}
+
+
 def add_air_parser(sub) -> None:
-    p = sub.add_parser("air", help="air state for one condition")
+    p = sub.add_parser(
+        "air",
+        help="air state for one condition",
+        description="Air state at a site: station pressure, humidity, moist and dry-air density, "
+        "pressure and density altitude, SAE J1349 power correction, carburetor icing risk. "
+        "Values may carry a unit in quotes ('4400 ft', '75 degF', '29.92 inHg', '40 %%'); bare numbers "
+        "are m, degC, hPa and %%. Give exactly one pressure and one humidity.",
+    )
+    p.add_argument("--elevation", metavar="VALUE", help="site elevation above mean sea level (bare number: m)")
+    p.add_argument("--temperature", metavar="VALUE", help="air temperature (bare number: degC)")
+    p.add_argument("--qnh", metavar="VALUE", help="altimeter setting QNH (bare number: hPa)")
+    p.add_argument("--station-pressure", metavar="VALUE", help="pressure at the site itself (bare number: hPa)")
+    p.add_argument("--sea-level-pressure", metavar="VALUE",
+                   help="pressure reduced to mean sea level, as forecasts give it (bare number: hPa)")
+    p.add_argument("--relative-humidity", metavar="VALUE", help="relative humidity over water (bare number: %%)")
+    p.add_argument("--dew-point", metavar="VALUE", help="dew point (bare number: degC)")
+    p.add_argument("--json", action="store_true", help="print one JSON object instead of a table")
     p.set_defaults(func=cmd_air)
 
 
+def _air_option(args, dest, default_unit, low=None, high=None, shown_unit=None):
+    """Read one ``carbfleet air`` option in SI; ``None`` if absent; UserError if bad."""
+    from tuning.config.units import UnitProblem, parse_quantity
+    from tuning.errors import UserError
+
+    text = getattr(args, dest)
+    if text is None:
+        return None
+    option = "--" + dest.replace("_", "-")
+    try:
+        value = parse_quantity(text.strip(), default_unit)
+        shown = parse_quantity(text.strip(), default_unit, shown_unit or default_unit)
+    except UnitProblem as problem:
+        raise UserError(f"{option}: {problem}") from None
+    if low is not None and not low <= shown <= high:
+        raise UserError(f"{option}: expected {low:g} to {high:g} {shown_unit or default_unit}, got {text!r}; check the value and its unit")
+    return value
+
+
 def cmd_air(args) -> int:
-    raise NotImplementedError("carbfleet air")
+    import json
+    import warnings
+
+    from tuning import air
+    from tuning.constants import ISA_SEA_LEVEL_DENSITY_PRINTED, ZERO_CELSIUS
+    from tuning.errors import UserError
+
+    def exactly_one(options, what):
+        given = [kind for kind, dest in options.items() if getattr(args, dest[2:].replace("-", "_")) is not None]
+        if len(given) != 1:
+            got = " and ".join(options[k] for k in given) if given else "none"
+            raise UserError(f"give exactly one {what}: {' or '.join(options.values())} (got {got})")
+        return given[0]
+
+    pressure_kind = exactly_one(_AIR_PRESSURE_OPTIONS, "pressure")
+    humidity_kind = exactly_one(_AIR_HUMIDITY_OPTIONS, "humidity")
+    elevation = _air_option(args, "elevation", "m", -500.0, 9000.0)
+    if elevation is None and pressure_kind != "station":
+        raise UserError(f"--elevation is needed with {_AIR_PRESSURE_OPTIONS[pressure_kind]} (e.g. --elevation '1340 m')")
+    temperature = _air_option(args, "temperature", "degC", -60.0, 60.0)
+    if temperature is None:
+        raise UserError("--temperature is needed (e.g. --temperature '24 degC')")
+    dest = _AIR_PRESSURE_OPTIONS[pressure_kind][2:].replace("-", "_")
+    pressure = _air_option(args, dest, "hPa", 300.0, 1100.0)
+    humidity = {"relative_humidity": _air_option(args, "relative_humidity", "percent", 0.0, 100.0),
+                "dew_point": _air_option(args, "dew_point", "degC", -90.0, 60.0)}
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        try:
+            station = air.station_pressure(pressure, pressure_kind, elevation or 0.0, temperature)
+            state = air.air_state(temperature, station, **{humidity_kind: humidity[humidity_kind]})
+        except ValueError as exc:
+            raise UserError(f"{exc}; check --temperature, --dew-point and the pressure") from None
+    dew_point = float(state.dew_point)
+    result = {
+        "pressure_kind": pressure_kind,
+        "elevation_m": None if elevation is None else round(elevation, 1),
+        "air_temperature_C": round(temperature - ZERO_CELSIUS, 2),
+        "station_pressure_hPa": round(float(state.station_pressure) / 100.0, 2),
+        "vapour_pressure_hPa": round(float(state.vapour_pressure) / 100.0, 3),
+        "dew_point_C": round(dew_point - ZERO_CELSIUS, 2) if dew_point > 0 else None,
+        "relative_humidity_pct": round(float(state.relative_humidity) * 100.0, 2),
+        "moist_air_density_kg_m3": round(float(state.moist_air_density), 5),
+        "dry_air_density_kg_m3": round(float(state.dry_air_density), 5),
+        "density_ratio_isa": round(float(state.moist_air_density) / ISA_SEA_LEVEL_DENSITY_PRINTED, 5),
+        "pressure_altitude_m": round(float(state.pressure_altitude), 1),
+        "density_altitude_m": round(float(state.density_altitude), 1),
+        "sae_j1349_cf": round(float(state.sae_j1349_cf), 4),
+        "icing_risk_band": int(state.icing_risk),
+        "icing_risk": air.ICING_RISK_NAMES[int(state.icing_risk)],
+        "warnings": [str(w.message) for w in caught if issubclass(w.category, air.OutOfRangeWarning)],
+    }
+    if args.json:
+        print(json.dumps(result, indent=2))
+        return EXIT_OK
+    print(_air_table(result))
+    return EXIT_OK
+
+
+def _air_table(result: dict) -> str:
+    """Plain-text table of the ``carbfleet air`` result (formatting only)."""
+    rows = [
+        ("pressure given as", result["pressure_kind"].replace("_", " "), ""),
+        ("station pressure", f"{result['station_pressure_hPa']:.1f}", "hPa"),
+        ("air temperature", f"{result['air_temperature_C']:.1f}", "°C"),
+        ("dew point", "n/a" if result["dew_point_C"] is None else f"{result['dew_point_C']:.1f}", "°C"),
+        ("relative humidity", f"{result['relative_humidity_pct']:.0f}", "%"),
+        ("vapour pressure", f"{result['vapour_pressure_hPa']:.2f}", "hPa"),
+        ("moist-air density", f"{result['moist_air_density_kg_m3']:.4f}", "kg/m³"),
+        ("dry-air density (oxygen-carrying part)", f"{result['dry_air_density_kg_m3']:.4f}", "kg/m³"),
+        ("density against ISA sea level (1.225)", f"{result['density_ratio_isa'] * 100:.1f}", "%"),
+        ("pressure altitude", f"{result['pressure_altitude_m']:.0f}", "m"),
+        ("density altitude", f"{result['density_altitude_m']:.0f}", "m"),
+        ("SAE J1349 correction factor", f"{result['sae_j1349_cf']:.3f}", ""),
+        ("carburetor icing risk", result["icing_risk"], ""),
+    ]
+    width = max(len(label) for label, _, _ in rows)
+    lines = [f"{label:<{width}}  {value:>8} {unit}".rstrip() for label, value, unit in rows]
+    lines += [f"note: {message}" for message in result["warnings"]]
+    lines.append("Estimates only: confirm jetting by a plug reading before hard riding.")
+    return "\n".join(lines)
 
 
 # --- check / schema ------------------------------------------------------------------------
