@@ -139,10 +139,9 @@ def load_event(path, fleet: model.Fleet | None = None) -> model.Event:
         names.setdefault(s["name"], i)
         times = {}
         for key in ("start", "end"):
-            if zone is False:
-                continue
             try:
-                times[key] = parse_local_time(s[key], zone)
+                # with an unknown zone (already reported) the order checks still run, in UTC
+                times[key] = parse_local_time(s[key], zoneinfo.ZoneInfo("UTC") if zone is False else zone)
             except ValueError as exc:
                 ctx.at_path(f"sessions[{i}].{key}", str(exc))
         if len(times) != 2:
@@ -169,16 +168,16 @@ def load_event(path, fleet: model.Fleet | None = None) -> model.Event:
             weather, weather_problems = read_weather_csv(csv_path, zone or None)
         except ConfigError as exc:  # missing or unreadable table
             weather_problems = exc.problems
-    elif isinstance(source, dict) and "metar" in source:
+    elif isinstance(source, dict) and "metar" in source and zone is not False:
         if sessions:
             weather = read_metar(source["metar"], min(s.start for _, s in sessions), ctx, "weather.metar")
         elif not ctx.problems:
             ctx.at_path("weather.metar", "METAR reports carry no month; it is taken from the sessions, which are missing")
 
-    if weather is not None:
+    if weather is not None and zone is not False:
         _check_coverage(weather, sessions, ctx)
 
-    problems = ctx.problems + weather_problems
+    problems = sorted(ctx.problems, key=_line_key) + sorted(weather_problems, key=_line_key)
     if problems:
         raise ConfigError(problems)
     return model.Event(
@@ -189,6 +188,10 @@ def load_event(path, fleet: model.Fleet | None = None) -> model.Event:
         fuel=fuel,
         source=Path(path),
     )
+
+
+def _line_key(problem) -> int:
+    return problem.line or 0
 
 
 def _utc64(t: datetime) -> np.datetime64:

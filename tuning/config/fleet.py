@@ -512,7 +512,7 @@ def load_fleet(path) -> model.Fleet:
         stock[key] = item["count"]
 
     if ctx.problems:
-        raise ConfigError(ctx.problems)
+        raise ConfigError(sorted(ctx.problems, key=lambda p: p.line or 0))
     return _build(raw, fuels, families, needles, stock, path)
 
 

@@ -83,7 +83,7 @@ def join(path: str, key: str | int) -> str:
 
 def did_you_mean(word: str, known) -> str:
     close = difflib.get_close_matches(str(word), [str(k) for k in known], n=1, cutoff=0.6)
-    return f"; did you mean '{close[0]}'?" if close else ""
+    return f" (did you mean '{close[0]}'?)" if close else ""
 
 
 def known_list(known, limit: int = 8) -> str:

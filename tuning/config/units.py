@@ -46,6 +46,9 @@ def _dimension_name(dim) -> str:
         "[mass] / [length] ** 3": "a density",
         "[length] ** 3": "a volume",
         "dimensionless": "a plain number or percentage",
+        "[mass]": "a mass",
+        "[time]": "a time",
+        "[length] ** 2": "an area",
     }
     return names.get(str(dim), f"a quantity of dimension {dim}")
 
