@@ -30,6 +30,7 @@ from __future__ import annotations
 import csv
 import io
 import re
+import warnings
 import zoneinfo
 from datetime import datetime, timedelta, timezone
 
@@ -228,7 +229,9 @@ def read_metar(reports: list[str], near: datetime, ctx: Context, path: str) -> m
             elif month == 13:
                 year, month = year + 1, 1
             try:
-                report = Metar.Metar(text.strip(), month=month, year=year, strict=False)
+                with warnings.catch_warnings():  # groups it cannot read (outside what we use) only warn
+                    warnings.simplefilter("ignore", RuntimeWarning)
+                    report = Metar.Metar(text.strip(), month=month, year=year, strict=False)
             except Exception as exc:  # the metar package raises ParserError and plain errors
                 error = error or str(exc).strip().splitlines()[0]
                 continue
