@@ -1,0 +1,80 @@
+"""Altair charts of the plan, and their static SVG (vl-convert) for print. No physics here."""
+
+from __future__ import annotations
+
+import datetime as dt
+
+import altair as alt
+import vl_convert
+
+# Black-and-white readable: current and recommended differ by dash, not only by colour.
+_SETTING_DASH = alt.Scale(domain=["current", "recommended"], range=[[6, 3], [1, 0]])
+_GREYS = ["#111111", "#555555", "#888888", "#333333", "#777777", "#222222"]
+
+
+def mixture_chart(entries: list[dict], width: int = 400, height: int = 105) -> alt.LayerChart:
+    """Air–fuel ratio against throttle opening, current and recommended settings, per session.
+
+    Draws the plan's ``mixture_curve`` of each entry (one bike, every session) over the target band
+    ``target_band_afr`` and the bike's reference mixture ``reference_afr``.
+    """
+    rows = []
+    for e in entries:
+        curve = e["mixture_curve"]
+        for setting, key in (("current", "current_afr"), ("recommended", "recommended_afr")):
+            for throttle, afr in zip(curve["throttle"], curve[key]):
+                rows.append({"throttle": throttle, "afr": afr, "setting": setting, "session": e["session"]})
+    curve0 = entries[0]["mixture_curve"]
+    lo, hi = curve0["target_band_afr"]
+    values = [r["afr"] for r in rows] + [lo, hi]
+    domain = [min(values) - 0.3, max(values) + 0.3]
+    x = alt.X("throttle:Q", title="throttle opening", axis=alt.Axis(format="%", tickCount=5),
+              scale=alt.Scale(domain=[0, 1], nice=False))
+    y = alt.Y("afr:Q", title="air–fuel ratio (higher = leaner)", scale=alt.Scale(domain=domain, nice=False, zero=False))
+    band = alt.Chart(alt.Data(values=[{"lo": lo, "hi": hi}])).mark_rect(color="#dddddd").encode(
+        y=alt.Y("lo:Q", scale=alt.Scale(domain=domain, nice=False, zero=False)), y2="hi:Q")
+    reference = alt.Chart(alt.Data(values=[{"afr": curve0["reference_afr"]}])).mark_rule(
+        color="#000000", strokeWidth=0.8, strokeDash=[2, 2]).encode(y="afr:Q")
+    lines = alt.Chart(alt.Data(values=rows)).mark_line(strokeWidth=1.6).encode(
+        x=x, y=y,
+        strokeDash=alt.StrokeDash("setting:N", scale=_SETTING_DASH, title="setting"),
+        color=alt.Color("session:N", scale=alt.Scale(range=_GREYS), title="session",
+                        sort=[e["session"] for e in entries]),
+        detail="session:N",
+    )
+    return alt.layer(band, reference, lines).properties(
+        width=width, height=height,
+        title=alt.TitleParams("Mixture across throttle: grey band = target, dotted = reference",
+                              fontSize=10, anchor="start"),
+    ).configure_axis(labelFontSize=9, titleFontSize=9).configure_legend(
+        labelFontSize=9, titleFontSize=9).configure_view(strokeWidth=0.5)
+
+
+def weather_chart(plan: dict, width: int = 560, height: int = 110) -> alt.VConcatChart:
+    """Density altitude and required jet-area factor over time, with the sessions shaded."""
+    def stamp(iso: str) -> str:  # Vega-Lite reads naive local time: keep the site's clock
+        return dt.datetime.fromisoformat(iso).replace(tzinfo=None).isoformat()
+
+    rows = [{"time": stamp(w["time"]), "density_altitude_m": w["density_altitude_m"],
+             "area_factor": w["area_factor"]} for w in plan["weather"]]
+    windows = [{"start": stamp(s["start"]), "end": stamp(s["end"]), "session": s["name"]} for s in plan["sessions"]]
+    x = alt.X("time:T", title="site local time", axis=alt.Axis(format="%a %H:%M", labelFontSize=9))
+
+    def panel(field: str, title: str) -> alt.LayerChart:
+        shade = alt.Chart(alt.Data(values=windows)).mark_rect(color="#e4e4e4").encode(x="start:T", x2="end:T")
+        line = alt.Chart(alt.Data(values=rows)).mark_line(color="#000000", point=alt.OverlayMarkDef(
+            color="#000000", size=14)).encode(x=x, y=alt.Y(f"{field}:Q", title=title, scale=alt.Scale(zero=False)))
+        return alt.layer(shade, line).properties(width=width, height=height)
+
+    return alt.vconcat(
+        panel("density_altitude_m", "density altitude [m]"),
+        panel("area_factor", "required jet-area factor"),
+    ).properties(title=alt.TitleParams("Weather across the sessions (shaded)", fontSize=10, anchor="start")
+                 ).configure_axis(labelFontSize=9, titleFontSize=9).configure_view(strokeWidth=0.5)
+
+
+def to_svg(chart: alt.TopLevelMixin) -> str:
+    """Static SVG of an Altair chart via vl-convert (no browser, no network)."""
+    svg = vl_convert.vegalite_to_svg(chart.to_dict(validate=False))
+    # Drop the XML prolog if any, so the SVG can sit inline in HTML.
+    return svg[svg.find("<svg"):] if "<svg" in svg else svg

@@ -1,0 +1,277 @@
+"""``carbfleet build``: plan -> papermill-run notebooks -> HTML, PDF, print pack, in one folder.
+
+The build runs one papermill execution of ``notebooks/fleet-report.ipynb`` and one of
+``notebooks/setup-sheets.ipynb`` per worker, each rendering a contiguous shard of the bikes
+in-kernel (one kernel start per shard, not per bike). Everything is written to a temporary folder
+beside the output and moved into place at the end, so a failed or interrupted build leaves the
+previous output as it was. Two builds of the same inputs give byte-identical files.
+"""
+
+from __future__ import annotations
+
+import copy
+import itertools
+import json
+import os
+import shutil
+import subprocess
+import tempfile
+import threading
+import time
+from concurrent.futures import ThreadPoolExecutor
+from dataclasses import dataclass
+from pathlib import Path
+
+import nbformat
+from jupyter_client.manager import AsyncKernelManager
+
+from tuning.errors import BuildError, CarbfleetError, UserError
+from tuning.report import render, tables
+from tuning.report.names import safe_file_names
+
+NOTEBOOKS = render.PROJECT_ROOT / "notebooks"
+NB_TEMPLATE = Path(__file__).resolve().parent / "nbconvert_template" / "carbfleet.html.j2"
+_kernel_numbers = itertools.count(1)
+
+
+class IpcKernelManager(AsyncKernelManager):
+    """A kernel manager on IPC sockets (no TCP: no "running over TCP without encryption" warning)."""
+
+    def __init__(self, **kwargs):
+        kwargs.setdefault("transport", "ipc")
+        super().__init__(**kwargs)
+        self.ip = os.path.join(tempfile.gettempdir(), f"carbfleet-kernel-{os.getpid()}-{next(_kernel_numbers)}")
+
+    async def _async_launch_kernel(self, kernel_cmd, **kw):
+        # The kernel's own console chatter (shutdown notices) is not the user's business; errors
+        # reach the build through the executed notebook.
+        kw["stdout"] = kw["stderr"] = subprocess.DEVNULL
+        return await super()._async_launch_kernel(kernel_cmd, **kw)
+
+
+@dataclass(frozen=True)
+class BuildResult:
+    """What a build wrote: the folder, the number of sheets and warnings, the wall time [s]."""
+
+    out_dir: Path
+    sheets: int
+    warnings: int
+    seconds: float
+    font_subsetter: str
+
+    def summary_line(self) -> str:
+        return (f"built {self.sheets} setup sheets, fleet summary and print pack in {self.out_dir} "
+                f"({self.warnings} warnings, {self.seconds:.1f} s)")
+
+
+def font_subsetter() -> str:
+    """Which font subsetter WeasyPrint uses here: ``harfbuzz`` (fast) or ``fonttools`` (about 2x slower)."""
+    try:
+        from weasyprint.text.ffi import harfbuzz_subset
+    except ImportError:  # pragma: no cover - other WeasyPrint layouts
+        return "unknown"
+    return "harfbuzz" if harfbuzz_subset else "fonttools"
+
+
+def shards(items: list[str], n: int) -> list[list[str]]:
+    """Split ``items`` into at most ``n`` contiguous, nearly equal, non-empty chunks (order kept)."""
+    n = max(1, min(n, len(items)))
+    size, extra = divmod(len(items), n)
+    out, start = [], 0
+    for i in range(n):
+        end = start + size + (1 if i < extra else 0)
+        out.append(items[start:end])
+        start = end
+    return [chunk for chunk in out if chunk]
+
+
+def _write_plan_files(plan: dict, out_dir: Path) -> None:
+    try:
+        from tuning.plan import write_plan_files
+    except ImportError:  # tuning.plan not merged yet: JSON only, in the contract's format
+        (out_dir / "recommendations.json").write_text(
+            json.dumps(plan, sort_keys=False, indent=1, ensure_ascii=False) + "\n", encoding="utf-8")
+        return
+    write_plan_files(plan, out_dir)
+
+
+def _execute(notebook: str, output: Path, parameters: dict, cwd: Path) -> None:
+    """Run one notebook with papermill (Python API, IPC kernel, no timing records)."""
+    import papermill
+    from papermill.exceptions import PapermillExecutionError
+
+    try:
+        papermill.execute_notebook(
+            str(NOTEBOOKS / notebook), str(output), parameters=parameters, kernel_name="python3",
+            cwd=str(cwd), progress_bar=False, log_output=False, request_save_on_cell_execute=False,
+            kernel_manager_class=IpcKernelManager, record_timing=False)
+    except PapermillExecutionError as exc:
+        raise BuildError(f"{output.name}: {exc.ename}: {exc.evalue}") from None
+
+
+def _clean_notebook(path: Path) -> nbformat.NotebookNode:
+    """Remove what differs between two runs: papermill timings and paths, random cell ids, counts."""
+    nb = nbformat.read(str(path), as_version=4)
+    nb.metadata.pop("papermill", None)
+    count = 0
+    for i, cell in enumerate(nb.cells):
+        cell.id = f"{path.stem}-{i}"
+        cell.metadata.pop("papermill", None)
+        cell.metadata.pop("execution", None)
+        if cell.cell_type == "code":
+            count += 1
+            cell.execution_count = count
+            for output in cell.get("outputs", []):
+                if "execution_count" in output:
+                    output["execution_count"] = count
+    nbformat.write(nb, str(path))
+    return nb
+
+
+class _Exporter:
+    """One nbconvert HTMLExporter with our template, reused for every notebook."""
+
+    def __init__(self):
+        from nbconvert import HTMLExporter
+
+        self.exporter = HTMLExporter(template_file=str(NB_TEMPLATE),
+                                     extra_template_basedirs=[str(NB_TEMPLATE.parent)])
+        self.exporter.exclude_input = True
+        self.css = render.page_css("a4", "carbfleet notebook")
+
+    def export(self, nb: nbformat.NotebookNode, name: str) -> str:
+        body, _ = self.exporter.from_notebook_node(
+            copy.deepcopy(nb), resources={"metadata": {"name": name}, "carbfleet_css": self.css})
+        return body
+
+
+def _merge_pdfs(paths: list[Path], target: Path, stamp: str, title: str) -> int:
+    """Concatenate PDFs into ``target`` with fixed metadata and id (deterministic); return pages."""
+    from pypdf import PdfWriter
+    from pypdf.generic import ArrayObject, ByteStringObject
+
+    writer = PdfWriter()
+    for path in paths:
+        writer.append(str(path))
+    date = "D:" + stamp[:19].replace("-", "").replace("T", "").replace(":", "")
+    writer.add_metadata({"/Title": title, "/Producer": "carbfleet (pypdf)", "/CreationDate": date,
+                         "/ModDate": date})
+    import hashlib
+
+    digest = hashlib.md5(b"".join(p.read_bytes() for p in paths)).digest()
+    writer._ID = ArrayObject([ByteStringObject(digest), ByteStringObject(digest)])
+    with open(target, "wb") as handle:
+        writer.write(handle)
+    return len(writer.pages)
+
+
+def build(fleet_path: str | Path, event_path: str | Path, out_dir: str | Path, paper: str = "a4",
+          quiet: bool = False, workers: int = 2) -> BuildResult:
+    """Plan ``fleet_path`` x ``event_path`` and build the whole output folder ``out_dir``.
+
+    Raises :class:`tuning.errors.UserError` for bad input files (exit 2) and
+    :class:`tuning.errors.BuildError` naming the failed bike or step (exit 1).
+    """
+    plan = render.load_plan(str(fleet_path), str(event_path))
+    return build_from_plan(plan, out_dir, paper=paper, quiet=quiet, workers=workers,
+                           fleet_path=str(fleet_path), event_path=str(event_path))
+
+
+def build_from_plan(plan: dict, out_dir: str | Path, paper: str = "a4", quiet: bool = False,
+                    workers: int = 2, fleet_path: str = "", event_path: str = "") -> BuildResult:
+    """Build the output folder from a plan document (format ``carbfleet-plan/1``)."""
+    started = time.perf_counter()
+    render.page_css(paper, "")  # checks the paper name before any work
+    if workers < 1:
+        raise UserError(f"--workers: expected a whole number of at least 1, got {workers}")
+    out = Path(out_dir).resolve()
+    if out.exists() and not out.is_dir():
+        raise UserError(f"--out: {out} is a file; give a folder")
+    out.parent.mkdir(parents=True, exist_ok=True)
+    tmp = Path(tempfile.mkdtemp(prefix=f".{out.name}.building-", dir=out.parent))
+    try:
+        bikes = list(tables.entries_by_bike(plan))
+        names = safe_file_names(bikes)
+        _write_plan_files(plan, tmp)
+        (tmp / "_plan.json").write_text(json.dumps(plan, ensure_ascii=False), encoding="utf-8")
+        (tmp / "notebooks").mkdir()
+        (tmp / "sheets").mkdir()
+        common = {"fleet_path": fleet_path, "event_path": event_path, "plan_path": "_plan.json",
+                  "out_dir": ".", "paper": paper}
+        parts = shards(bikes, workers)
+        sheet_notebooks = [f"setup-sheets-{i}.ipynb" for i in range(1, len(parts) + 1)]
+        html_names = [n.replace(".ipynb", ".html") for n in ["fleet-report.ipynb", *sheet_notebooks]]
+        jobs = [("fleet-report.ipynb", "fleet-report.ipynb", {**common, "notebooks": html_names})]
+        jobs += [("setup-sheets.ipynb", name, {**common, "bikes": part}) for name, part in zip(sheet_notebooks, parts)]
+        _run_jobs(jobs, tmp, bikes, names, quiet)
+        exporter = _Exporter()
+        for _src, name, _params in jobs:
+            nb = _clean_notebook(tmp / "notebooks" / name)
+            (tmp / "notebooks" / name.replace(".ipynb", ".html")).write_text(
+                exporter.export(nb, name.replace(".ipynb", "")), encoding="utf-8")
+        (tmp / "_plan.json").unlink()
+        missing = [b for b in bikes if not (tmp / "sheets" / f"{names[b]}.pdf").exists()]
+        if missing:
+            raise BuildError(f"setup sheet of bike {missing[0]!r} was not written")
+        _merge_pdfs([tmp / "fleet-summary.pdf", *(tmp / "sheets" / f"{names[b]}.pdf" for b in bikes)],
+                    tmp / "print-pack.pdf", plan["sessions"][0]["start"] if plan["sessions"] else "2000-01-01",
+                    f"Print pack · {plan['event']}")
+        _replace(tmp, out)
+    except BaseException as exc:
+        shutil.rmtree(tmp, ignore_errors=True)
+        if isinstance(exc, CarbfleetError) or not isinstance(exc, Exception):
+            raise
+        raise BuildError(f"build failed: {type(exc).__name__}: {exc}") from exc
+    return BuildResult(out, len(bikes), int(plan.get("warnings_count", 0)),
+                       time.perf_counter() - started, font_subsetter())
+
+
+def _run_jobs(jobs, tmp: Path, bikes: list[str], names: dict[str, str], quiet: bool) -> None:
+    errors: list[BaseException] = []
+    done = threading.Event()
+
+    def run(job):
+        src, name, params = job
+        try:
+            _execute(src, tmp / "notebooks" / name, params, tmp)
+        except BaseException as exc:  # reported after all threads stop
+            errors.append(exc)
+
+    with ThreadPoolExecutor(max_workers=len(jobs)) as pool:
+        futures = [pool.submit(run, job) for job in jobs]
+        if quiet:
+            for f in futures:
+                f.result()
+        else:
+            from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, TimeElapsedColumn
+
+            with Progress(TextColumn("setup sheets"), BarColumn(), MofNCompleteColumn(), TimeElapsedColumn(),
+                          transient=True) as progress:
+                task = progress.add_task("sheets", total=len(bikes))
+                while not all(f.done() for f in futures):
+                    progress.update(task, completed=sum(1 for b in bikes if (tmp / "sheets" / f"{names[b]}.pdf").exists()))
+                    time.sleep(0.2)
+                progress.update(task, completed=sum(1 for b in bikes if (tmp / "sheets" / f"{names[b]}.pdf").exists()))
+    done.set()
+    if errors:
+        first = next((e for e in errors if isinstance(e, CarbfleetError)), errors[0])
+        if isinstance(first, CarbfleetError):
+            raise first
+        raise BuildError(f"notebook run failed: {type(first).__name__}: {first}")
+
+
+def _replace(tmp: Path, out: Path) -> None:
+    """Move the finished folder into place; the old output is removed only after the swap."""
+    old = None
+    if out.exists():
+        old = out.parent / f".{out.name}.old-{os.getpid()}"
+        shutil.rmtree(old, ignore_errors=True)
+        os.replace(out, old)
+    try:
+        os.replace(tmp, out)
+    except BaseException:
+        if old is not None:
+            os.replace(old, out)
+        raise
+    if old is not None:
+        shutil.rmtree(old, ignore_errors=True)

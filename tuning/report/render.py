@@ -1,0 +1,233 @@
+"""Render the plan to HTML (Jinja, autoescaped) and PDF (WeasyPrint): setup sheets, summary, index.
+
+Runs inside the notebook kernels (``notebooks/*.ipynb`` call :func:`render_setup_sheets` and
+:func:`render_fleet_report`) and can be called directly. Formats the plan; computes no physics.
+"""
+
+from __future__ import annotations
+
+import html as html_lib
+import json
+import logging
+import os
+from dataclasses import dataclass, field
+from functools import lru_cache
+from pathlib import Path
+
+import jinja2
+
+from tuning.errors import BuildError, UserError
+from tuning.report import charts, tables
+from tuning.report.names import safe_file_names
+
+PAPER_SIZES = {"a4": "A4 portrait", "letter": "letter portrait"}
+PROJECT_ROOT = Path(__file__).resolve().parents[2]
+TEMPLATES = Path(__file__).resolve().parent / "templates"
+
+# WeasyPrint logs a warning per document when HarfBuzz's subset library is missing; say it once.
+logging.getLogger("fontTools").setLevel(logging.ERROR)
+
+
+class _QuietSubsetWarning(logging.Filter):
+    def filter(self, record: logging.LogRecord) -> bool:
+        return "HarfBuzz-Subset" not in record.getMessage()
+
+
+logging.getLogger("weasyprint").addFilter(_QuietSubsetWarning())
+
+
+@lru_cache(maxsize=1)
+def environment() -> jinja2.Environment:
+    """The Jinja environment: autoescaping for every ``.html.j2`` template (bike ids are escaped)."""
+    return jinja2.Environment(
+        loader=jinja2.FileSystemLoader(str(TEMPLATES)),
+        autoescape=jinja2.select_autoescape(enabled_extensions=("html", "html.j2", "j2"), default_for_string=True),
+        undefined=jinja2.StrictUndefined, trim_blocks=False, keep_trailing_newline=True,
+    )
+
+
+def _css_string(text: str) -> str:
+    """Quote ``text`` as a CSS string body (for the page footer)."""
+    return "".join(c if c.isalnum() or c in " .,:;·()-_/'" else f"\\{ord(c):x} " for c in text)
+
+
+def page_css(paper: str, footer_left: str) -> str:
+    """The stylesheet with the page size for ``paper`` (``a4`` or ``letter``)."""
+    if paper not in PAPER_SIZES:
+        raise UserError(f"paper: expected one of {', '.join(PAPER_SIZES)}, got {paper!r}; use --paper a4 or --paper letter")
+    return environment().get_template("report.css").render(
+        page_size=PAPER_SIZES[paper], footer_left=_css_string(footer_left))
+
+
+def _resolve(path: str | Path) -> Path:
+    p = Path(path)
+    if not p.is_absolute() and not p.exists() and (PROJECT_ROOT / p).exists():
+        return PROJECT_ROOT / p
+    return p
+
+
+def load_plan(fleet_path: str = "", event_path: str = "", plan_path: str = "") -> dict:
+    """Return the plan document: read ``plan_path`` (JSON) if given, else compute it from the files.
+
+    Relative paths that do not exist from the working folder are tried from the project root, so a
+    notebook runs from any folder.
+    """
+    if plan_path:
+        path = _resolve(plan_path)
+        try:
+            plan = json.loads(path.read_text(encoding="utf-8"))
+        except FileNotFoundError:
+            raise UserError(f"{plan_path}: plan file not found; give the recommendations.json of a plan") from None
+    else:
+        from tuning.config import load_event, load_fleet  # imported late: written alongside
+        from tuning.plan import make_plan
+
+        fleet = load_fleet(_resolve(fleet_path))
+        event = load_event(_resolve(event_path), fleet)
+        plan = make_plan(fleet, event)
+    if plan.get("format") != "carbfleet-plan/1":
+        raise UserError(f"plan: expected format 'carbfleet-plan/1', got {plan.get('format')!r}")
+    return plan
+
+
+def _stamp(plan: dict) -> str:
+    """The date written into PDF metadata: the first session's start (not the clock)."""
+    return plan["sessions"][0]["start"] if plan.get("sessions") else "2000-01-01T00:00:00+00:00"
+
+
+def _reference_text(ref: dict) -> str:
+    n = tables.number
+    return (f"{n(ref['elevation_m'], 0, 'm')} elevation, {n(ref['air_temperature_C'], 0, '°C')}, "
+            f"{n(ref['station_pressure_hPa'], 0, 'hPa')} station pressure, {n(ref['relative_humidity_pct'], 0, '%')} humidity, "
+            f"density altitude {n(ref['density_altitude_m'], 0, 'm')}, fuel {ref['fuel']}")
+
+
+def _common(plan: dict, paper: str, title: str) -> dict:
+    from tuning.report import CAUTIONS
+
+    return {
+        "plan": plan, "css": page_css(paper, f"carbfleet · {title}"), "stamp": _stamp(plan),
+        "cautions": CAUTIONS, "ref_text": _reference_text(plan["reference"]),
+        "site_elevation": tables.number(plan["site"]["elevation_m"], 0, "m"),
+    }
+
+
+def sheet_html(plan: dict, entries: list[dict], paper: str = "a4") -> str:
+    """The setup sheet of one bike (its plan entries, session order) as a self-contained HTML page."""
+    rows = tables.sheet_rows(entries)
+    context = _common(plan, paper, f"{plan['event']} · sheet {entries[0]['bike']}")
+    context.update(s=rows, chart_svg=charts.to_svg(charts.mixture_chart(entries)),
+                   ref_text=_reference_text(entries[0]["reference"]))
+    return environment().get_template("sheet.html.j2").render(**context)
+
+
+def summary_html(plan: dict, paper: str = "a4", links: bool = True) -> str:
+    """The fleet summary as a self-contained HTML page."""
+    context = _common(plan, paper, f"{plan['event']} · fleet summary")
+    names = safe_file_names([e["bike"] for e in plan["entries"]])
+    context.update(r=tables.summary_rows(plan, names), chart_svg=charts.to_svg(charts.weather_chart(plan)),
+                   links=links)
+    return environment().get_template("summary.html.j2").render(**context)
+
+
+def index_html(plan: dict, notebooks: list[str]) -> str:
+    """The folder's front page: links to the summary, the print pack, every sheet and the data."""
+    context = _common(plan, "a4", plan["event"])
+    names = safe_file_names([e["bike"] for e in plan["entries"]])
+    context.update(r=tables.summary_rows(plan, names), notebooks=notebooks)
+    return environment().get_template("index.html.j2").render(**context)
+
+
+def pin_font_timestamps(plan: dict) -> None:
+    """Make embedded font subsets reproducible: fontTools stamps them with the clock unless
+    ``SOURCE_DATE_EPOCH`` is set; use the event's first session start instead."""
+    import datetime as dt
+
+    os.environ["SOURCE_DATE_EPOCH"] = str(int(dt.datetime.fromisoformat(_stamp(plan)).timestamp()))
+
+
+def write_pdf(html: str, path: Path, base_url: Path) -> Path:
+    """Write ``html`` to ``path`` as PDF with WeasyPrint (no network: every resource is inline)."""
+    import weasyprint
+
+    weasyprint.HTML(string=html, base_url=str(base_url), url_fetcher=_no_fetch).write_pdf(str(path))
+    return path
+
+
+def _no_fetch(url: str, *args, **kwargs):
+    raise ValueError(f"carbfleet reports load nothing from outside the page: {url}")
+
+
+@dataclass
+class SheetBatch:
+    """The sheets one notebook rendered; shows as a table in the notebook."""
+
+    out_dir: Path
+    rows: list[tuple[str, str, int]] = field(default_factory=list)  # bike, file stem, warnings
+
+    def _repr_html_(self) -> str:
+        body = "".join(
+            f"<tr><td>{html_lib.escape(b)}</td><td>sheets/{html_lib.escape(f)}.html, .pdf</td><td>{w}</td></tr>"
+            for b, f, w in self.rows)
+        return (f"<p>{len(self.rows)} setup sheets written.</p><table><thead><tr><th>Bike</th>"
+                f"<th>Files</th><th>Warnings</th></tr></thead><tbody>{body}</tbody></table>")
+
+
+def render_setup_sheets(plan: dict, out_dir: str | Path, bikes=(), paper: str = "a4") -> SheetBatch:
+    """Write ``sheets/<bike>.html`` and ``.pdf`` for ``bikes`` (all when empty) under ``out_dir``.
+
+    Raises :class:`tuning.errors.BuildError` naming the bike whose sheet failed.
+    """
+    out = Path(out_dir)
+    (out / "sheets").mkdir(parents=True, exist_ok=True)
+    grouped = tables.entries_by_bike(plan)
+    names = safe_file_names(list(grouped))
+    wanted = list(bikes) if bikes else list(grouped)
+    unknown = [b for b in wanted if b not in grouped]
+    if unknown:
+        raise UserError(f"bikes: {unknown[0]!r} is not in the plan; give bike ids from the fleet file")
+    batch = SheetBatch(out)
+    pin_font_timestamps(plan)
+    for bike in wanted:
+        try:
+            html = sheet_html(plan, grouped[bike], paper)
+            stem = names[bike]
+            (out / "sheets" / f"{stem}.html").write_text(html, encoding="utf-8")
+            write_pdf(html, out / "sheets" / f"{stem}.pdf", out / "sheets")
+        except UserError:
+            raise
+        except Exception as exc:
+            raise BuildError(f"setup sheet of bike {bike!r} failed: {type(exc).__name__}: {exc}") from exc
+        batch.rows.append((bike, stem, sum(len(e["warnings"]) for e in grouped[bike])))
+    return batch
+
+
+@dataclass
+class FleetReport:
+    """The fleet summary a notebook rendered; shows the summary itself in the notebook."""
+
+    body_html: str
+    files: list[Path]
+
+    def _repr_html_(self) -> str:
+        return self.body_html
+
+
+def render_fleet_report(plan: dict, out_dir: str | Path, paper: str = "a4", notebooks=()) -> FleetReport:
+    """Write ``fleet-summary.html``, ``fleet-summary.pdf`` and ``index.html`` under ``out_dir``."""
+    out = Path(out_dir)
+    out.mkdir(parents=True, exist_ok=True)
+    pin_font_timestamps(plan)
+    try:
+        html = summary_html(plan, paper)
+        (out / "fleet-summary.html").write_text(html, encoding="utf-8")
+        # In print the links would point into the temporary build folder: leave them out.
+        write_pdf(summary_html(plan, paper, links=False), out / "fleet-summary.pdf", out)
+        (out / "index.html").write_text(index_html(plan, list(notebooks)), encoding="utf-8")
+    except UserError:
+        raise
+    except Exception as exc:
+        raise BuildError(f"fleet summary failed: {type(exc).__name__}: {exc}") from exc
+    body = html[html.index("<body"):]
+    body = body[body.index(">") + 1: body.rindex("</body>")]
+    return FleetReport(body, [out / "fleet-summary.html", out / "fleet-summary.pdf", out / "index.html"])

@@ -1,0 +1,229 @@
+"""Turn the plan document into rows for the sheet and summary templates: formatting only."""
+
+from __future__ import annotations
+
+import datetime as dt
+from collections import OrderedDict
+
+CIRCUITS = (
+    ("main_jet", "Main jet"),
+    ("pilot_jet", "Pilot jet"),
+    ("clip", "Needle clip"),
+    ("mixture_screw", "Mixture screw"),
+)
+_DAYS = ("Mon", "Tue", "Wed", "Thu", "Fri", "Sat", "Sun")
+_MONTHS = ("Jan", "Feb", "Mar", "Apr", "May", "Jun", "Jul", "Aug", "Sep", "Oct", "Nov", "Dec")
+_QUARTERS = {0: "", 1: "¼", 2: "½", 3: "¾"}
+
+
+def number(value, digits: int = 0, unit: str = "", signed: bool = False) -> str:
+    """Format a number for print with ``digits`` decimals; ``None`` shows as an en dash."""
+    if value is None:
+        return "–"
+    text = f"{value:+.{digits}f}" if signed else f"{value:.{digits}f}"
+    text = text.replace("-", "−")
+    return f"{text} {unit}".rstrip() if unit else text
+
+
+def turns(value) -> str:
+    """Format mixture-screw turns in quarters where exact (1.5 -> "1½"), else with 2 decimals."""
+    if value is None:
+        return "–"
+    quarters = round(abs(value) * 4)
+    if abs(abs(value) * 4 - quarters) < 1e-6:
+        whole, part = divmod(quarters, 4)
+        text = (str(whole) if whole or not part else "") + _QUARTERS[part]
+        return ("−" if value < 0 else "") + text
+    return number(value, 2)
+
+
+def clock(iso: str) -> str:
+    """``2026-06-13T08:00:00+01:00`` -> ``08:00`` (site local time, as the plan gives it)."""
+    return dt.datetime.fromisoformat(iso).strftime("%H:%M")
+
+
+def day(iso: str) -> str:
+    """``2026-06-13T08:00:00+01:00`` -> ``Sat 13 Jun 2026`` (no locale dependence)."""
+    t = dt.datetime.fromisoformat(iso)
+    return f"{_DAYS[t.weekday()]} {t.day} {_MONTHS[t.month - 1]} {t.year}"
+
+
+def window(start: str, end: str) -> str:
+    """A session window for print: ``Sat 13 Jun 2026 08:00–09:30``."""
+    a, b = dt.datetime.fromisoformat(start), dt.datetime.fromisoformat(end)
+    if a.date() == b.date():
+        return f"{day(start)[:-5]} {clock(start)}–{clock(end)}"
+    return f"{day(start)} {clock(start)} – {day(end)} {clock(end)}"
+
+
+def entries_by_bike(plan: dict) -> "OrderedDict[str, list[dict]]":
+    """Group the plan's entries by bike, keeping the fleet file's bike order and session order."""
+    grouped: OrderedDict[str, list[dict]] = OrderedDict()
+    for entry in plan["entries"]:
+        grouped.setdefault(entry["bike"], []).append(entry)
+    return grouped
+
+
+def _circuit_current(key: str, s: dict) -> str:
+    if key == "clip":
+        return f"groove {s['current']}"
+    if key == "mixture_screw":
+        return f"{turns(s['current_turns'])} turns out"
+    return f"{s['current']}"
+
+
+def _circuit_recommended(key: str, s: dict) -> str:
+    if key == "clip":
+        return f"groove {s['recommended']}"
+    if key == "mixture_screw":
+        return f"{turns(s['recommended_turns'])} turns out"
+    return f"{s['recommended']}"
+
+
+def _stock_text(key: str, s: dict) -> str:
+    if key not in ("main_jet", "pilot_jet"):
+        return ""
+    if s.get("steps", 0) == 0:
+        return "keep fitted jet"
+    if s.get("in_stock") is None:
+        return f"take {s['recommended']} (no stock list)"
+    if s["in_stock"]:
+        return f"take {s['recommended']} from stock"
+    if s.get("stock_choice") is not None:
+        return f"NOT IN STOCK; nearest on shelf {s['stock_choice']}"
+    return "NOT IN STOCK: order"
+
+
+def _changed(key: str, s: dict) -> bool:
+    if key == "mixture_screw":
+        return bool(s.get("change_turns"))
+    return bool(s.get("steps"))
+
+
+def sheet_rows(entries: list[dict]) -> dict:
+    """Everything one bike's setup sheet shows, formatted, from that bike's plan entries."""
+    first = entries[0]
+    sessions = []
+    for e in entries:
+        sm = e["summary"]
+        sessions.append({
+            "name": e["session"], "window": window(e["start"], e["end"]),
+            "air_temperature": f"{number(sm['air_temperature_C_min'], 0)} to {number(sm['air_temperature_C_max'], 0)} °C",
+            "station_pressure": number(sm["station_pressure_hPa_mean"], 0, "hPa"),
+            "relative_humidity": number(sm["relative_humidity_pct_mean"], 0, "%"),
+            "density_altitude": f"{number(sm['density_altitude_m_min'], 0)} to {number(sm['density_altitude_m_max'], 0)} m",
+            "area_factor": f"{number(sm['area_factor_min'], 3)} to {number(sm['area_factor_max'], 3)}",
+            "area_factor_mean": number(sm["area_factor_mean"], 3),
+            "power": number(e["power_vs_reference_pct"], 1, "%", signed=True),
+        })
+    circuits = []
+    for key, label in CIRCUITS:
+        s0 = first["settings"][key]
+        title, detail = label, ""
+        if key in ("main_jet", "pilot_jet"):
+            detail = f"family {s0['family']}"
+        elif key == "clip":
+            detail = f"needle {s0['needle']}, {s0['grooves']} grooves, 1 = top"
+        elif key == "mixture_screw":
+            title = f"{'Air' if s0['kind'] == 'air' else 'Fuel'} screw"
+            detail = f"usable {turns(s0['usable_range'][0])}–{turns(s0['usable_range'][1])} turns out"
+        cells = []
+        for e in entries:
+            s = e["settings"][key]
+            cells.append({
+                "recommended": _circuit_recommended(key, s), "change": s["change"],
+                "changed": _changed(key, s), "stock": _stock_text(key, s),
+                "short": key in ("main_jet", "pilot_jet") and s.get("steps", 0) != 0 and s.get("in_stock") is False,
+            })
+        circuits.append({"key": key, "label": title, "detail": detail, "current": _circuit_current(key, s0), "cells": cells})
+    float_levels = [e["settings"].get("float_level_mm") for e in entries]
+    rejet = []
+    for e in entries:
+        r = e["rejet_temperatures_C"]
+        parts = []
+        if r.get("below") is not None:
+            parts.append(f"below {number(r['below'], 0)} °C fit {r['below_jet'] if r.get('below_jet') is not None else 'the next larger size'}")
+        if r.get("above") is not None:
+            parts.append(f"above {number(r['above'], 0)} °C fit {r['above_jet'] if r.get('above_jet') is not None else 'the next smaller size'}")
+        rejet.append({"session": e["session"], "text": "; ".join(parts) if parts else "no change within the forecast"})
+    checks = list(dict.fromkeys(c for e in entries for c in e["checks"]))
+    warnings: OrderedDict[tuple[str, str], list[str]] = OrderedDict()
+    for e in entries:
+        for w in e["warnings"]:
+            warnings.setdefault((w["code"], w["message"]), []).append(e["session"])
+    all_sessions = [e["session"] for e in entries]
+    warning_rows = [{"code": code, "message": message,
+                     "sessions": "all sessions" if names == all_sessions else ", ".join(names)}
+                    for (code, message), names in warnings.items()]
+    return {
+        "bike": first["bike"], "model": first["model"], "notes": first.get("notes") or "",
+        "strokes": first["strokes"], "premix_ratio": first.get("premix_ratio"),
+        "density_exponent": first["density_exponent"], "reference": first["reference"],
+        "sessions": sessions, "circuits": circuits,
+        "float_level": number(float_levels[0], 1, "mm") if float_levels[0] is not None else "not given",
+        "rejet": rejet, "checks": checks, "warnings": warning_rows,
+    }
+
+
+def change_set(entries: list[dict]) -> tuple:
+    """The work a mechanic does on one bike: (session, circuit, current, recommended) for every change."""
+    work = []
+    for e in entries:
+        for key, _label in CIRCUITS:
+            s = e["settings"][key]
+            if _changed(key, s):
+                work.append((e["session"], key, _circuit_current(key, s), _circuit_recommended(key, s)))
+    return tuple(work)
+
+
+def change_words(entries: list[dict]) -> list[str]:
+    """One short line per session: ``Session A: main 155 → 150, clip groove 3 → 2`` (or no change)."""
+    short = {"main_jet": "main", "pilot_jet": "pilot", "clip": "clip", "mixture_screw": "screw"}
+    lines = []
+    for e in entries:
+        parts = []
+        for key, _label in CIRCUITS:
+            s = e["settings"][key]
+            if _changed(key, s):
+                parts.append(f"{short[key]} {_circuit_current(key, s)} → {_circuit_recommended(key, s)}")
+        lines.append(f"{e['session']}: {', '.join(parts) if parts else 'no change'}")
+    return lines
+
+
+def summary_rows(plan: dict, file_names: dict[str, str]) -> dict:
+    """Everything the fleet summary shows, formatted, from the plan document."""
+    by_bike = entries_by_bike(plan)
+    bikes = []
+    batches: OrderedDict[tuple, list[str]] = OrderedDict()
+    batch_words: dict[tuple, list[str]] = {}
+    for bike, entries in by_bike.items():
+        words = change_words(entries)
+        n_warn = sum(len(e["warnings"]) for e in entries)
+        bikes.append({"bike": bike, "model": entries[0]["model"], "changes": words,
+                      "warnings": n_warn, "file": file_names[bike]})
+        key = (entries[0]["model"],) + change_set(entries)
+        batches.setdefault(key, []).append(bike)
+        batch_words.setdefault(key, words)
+    batch_rows = [{"model": key[0], "changes": batch_words[key], "bikes": members,
+                   "count": len(members)} for key, members in batches.items()]
+    batch_rows.sort(key=lambda r: -r["count"])  # stable: first-seen order among equal sizes
+    warnings: OrderedDict[tuple[str, str], list[str]] = OrderedDict()
+    for e in plan["entries"]:
+        for w in e["warnings"]:
+            warnings.setdefault((w["code"], w["message"]), []).append(f"{e['bike']} ({e['session']})")
+    warning_rows = [{"code": c, "message": m, "where": where} for (c, m), where in warnings.items()]
+    weather = [{
+        "time": f"{day(w['time'])} {clock(w['time'])}",
+        "air_temperature": number(w["air_temperature_C"], 1),
+        "station_pressure": number(w["station_pressure_hPa"], 1),
+        "relative_humidity": number(w["relative_humidity_pct"], 0),
+        "dew_point": number(w["dew_point_C"], 1),
+        "density_altitude": number(w["density_altitude_m"], 0),
+        "area_factor": number(w["area_factor"], 3),
+        "sae_j1349_cf": number(w["sae_j1349_cf"], 3),
+        "icing_risk": w["icing_risk"],
+    } for w in plan["weather"]]
+    sessions = [{"name": s["name"], "window": window(s["start"], s["end"])} for s in plan["sessions"]]
+    return {"bikes": bikes, "batches": batch_rows, "warnings": warning_rows, "weather": weather,
+            "sessions": sessions, "pick_list": plan["pick_list"],
+            "shortages": sum(1 for r in plan["pick_list"] if r["short"] > 0)}
