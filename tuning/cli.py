@@ -48,13 +48,16 @@ def _air_option(args, dest, default_unit, low=None, high=None, shown_unit=None):
     if text is None:
         return None
     option = "--" + dest.replace("_", "-")
+    unit = {"percent": "%"}.get(default_unit, default_unit)
     try:
         value = parse_quantity(text.strip(), default_unit)
         shown = parse_quantity(text.strip(), default_unit, shown_unit or default_unit)
     except UnitProblem as problem:
-        raise UserError(f"{option}: {problem}") from None
+        example = {"elevation": "1340 m", "temperature": "24 degC", "relative_humidity": "40 %", "dew_point": "10 degC"}
+        hint = "" if "give it in" in str(problem) else f"; give a number and a unit, e.g. '{example.get(dest, '1016 hPa')}'"
+        raise UserError(f"{option}: {problem}{hint}") from None
     if low is not None and not low <= shown <= high:
-        raise UserError(f"{option}: expected {low:g} to {high:g} {shown_unit or default_unit}, got {text!r}; check the value and its unit")
+        raise UserError(f"{option}: expected {low:g} to {high:g} {unit}, got {text!r}; check the value and its unit")
     return value
 
 
@@ -85,6 +88,9 @@ def cmd_air(args) -> int:
     pressure = _air_option(args, dest, "hPa", 300.0, 1100.0)
     humidity = {"relative_humidity": _air_option(args, "relative_humidity", "percent", 0.0, 100.0),
                 "dew_point": _air_option(args, "dew_point", "degC", -90.0, 60.0)}
+    if humidity_kind == "dew_point" and humidity["dew_point"] > temperature + air.DEW_POINT_ROUNDING_TOLERANCE:
+        raise UserError(f"--dew-point: {args.dew_point!r} is above --temperature {args.temperature!r}; "
+                        "a dew point cannot exceed the air temperature, check both values")
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
         try:
