@@ -436,9 +436,10 @@ def saturation_vapour_pressure(air_temperature):
     Notes
     -----
     :math:`p_{sv} = 1\,\mathrm{Pa}\,\exp(A T^2 + B T + C + D/T)`, CIPM-2007 eq. A1.2
-    (after Davis 1992). Published for the CIPM range (15–27 °C); checked here against
-    psychrolib (ASHRAE, Hyland–Wexler over water, 0–50 °C) to 2e-4 relative and against
-    the WMO (Goff) over-water values below 0 °C. Warns outside -40..+50 °C.
+    (after Davis 1992). Published for the CIPM range (15–27 °C); tests/test_air.py checks
+    it against psychrolib (ASHRAE Handbook, Hyland–Wexler over water, 0–50 °C) to 3e-4
+    relative, and below 0 °C against MetPy's over-water formula (Ambaum 2020) to 3e-3.
+    Warns outside -40..+50 °C.
 
     References
     ----------
