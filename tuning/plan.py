@@ -44,7 +44,9 @@ Warning codes (stable)
 
 from __future__ import annotations
 
+import contextlib
 import csv
+import gc
 import io
 import json
 import os
@@ -123,6 +125,22 @@ def _num(value):
         return None
     value = float(value)
     return int(value) if value.is_integer() else round(value, 2)
+
+
+@contextlib.contextmanager
+def _gc_paused():
+    enabled = gc.isenabled()
+    gc.disable()
+    try:
+        yield
+    finally:
+        if enabled:
+            gc.enable()
+
+
+def _nums(values):
+    """:func:`_num` over an array, as a list."""
+    return [None if v != v else (int(v) if v.is_integer() else round(v, 2)) for v in np.asarray(values, float).tolist()]
 
 
 def _iso(seconds, zone):
@@ -207,11 +225,70 @@ def _power(coding):
 
 
 def _loss(required, delivered, valid):
-    """Sum over the last axis (hours) of the lean-weighted squared mixture deviation."""
+    """Sum over the last axis (hours) of the lean-weighted squared mixture deviation (direct)."""
     with np.errstate(invalid="ignore", divide="ignore"):
         deviation = required / delivered - 1.0
     weight = np.where(deviation > 0.0, LEAN_WEIGHT, RICH_WEIGHT)
     return np.where(valid, weight * deviation * deviation, 0.0).sum(axis=-1)
+
+
+class WindowLoss:
+    r"""The window loss of many candidate delivered factors, by a sorted search.
+
+    For each entry (row) the required factors :math:`f_h` of its valid hours are sorted
+    once, with prefix sums of :math:`f` and :math:`f^2`. For a delivered factor :math:`D`
+    the hours split into rich (:math:`f \le D`) and lean (:math:`f > D`) ones, and
+
+    .. math::
+
+        \sum_h (f_h/D - 1)^2 = S_2/D^2 - 2 S_1/D + n
+
+    over each part, weighted :data:`RICH_WEIGHT` and :data:`LEAN_WEIGHT`. Identical to
+    :func:`_loss` but costs O(log H) per candidate instead of O(H).
+
+    Parameters
+    ----------
+    required : numpy.ndarray, shape (R, H)
+        Required area factors [1] (positive where valid).
+    valid : numpy.ndarray of bool, shape (R, H)
+    """
+
+    _INVALID = 1.0e3  # stands in for padding hours; delivered factors must stay below it
+    _ROW = 4.0e3  # row offset in the flattened search keys
+
+    def __init__(self, required, valid):
+        required = np.asarray(required, float)
+        valid = np.asarray(valid, bool)
+        rows, hours = required.shape
+        f = np.sort(np.where(valid, required, self._INVALID), axis=1)
+        self.count = valid.sum(axis=1)
+        fz = np.where(f < self._INVALID, f, 0.0)
+        zero = np.zeros((rows, 1))
+        self.sum1 = np.concatenate([zero, np.cumsum(fz, axis=1)], axis=1)
+        self.sum2 = np.concatenate([zero, np.cumsum(fz * fz, axis=1)], axis=1)
+        self.offset = np.arange(rows) * self._ROW
+        self.keys = (f + self.offset[:, None]).ravel()
+        self.base = np.arange(rows) * hours
+        self.rows = rows
+
+    def __call__(self, delivered, rows=None):
+        """Loss [1] for ``delivered`` of shape (R, ...) (or (len(rows), ...) for a subset)."""
+        delivered = np.asarray(delivered, float)
+        idx = np.arange(self.rows) if rows is None else np.asarray(rows)
+        shape = delivered.shape
+        d = delivered.reshape(len(idx), -1)
+        if np.any(d >= self._INVALID) or np.any(d <= 0):
+            raise ValueError("delivered area factors must lie in (0, 1000)")
+        k = np.searchsorted(self.keys, d + self.offset[idx][:, None], side="right") - self.base[idx][:, None]
+        n = self.count[idx][:, None]
+        k = np.minimum(k, n)
+        r = idx[:, None]
+        s1_lo, s2_lo = self.sum1[r, k], self.sum2[r, k]
+        s1_hi, s2_hi = self.sum1[r, n] - s1_lo, self.sum2[r, n] - s2_lo
+        inv = 1.0 / d
+        rich = s2_lo * inv * inv - 2.0 * s1_lo * inv + k
+        lean = s2_hi * inv * inv - 2.0 * s1_hi * inv + (n - k)
+        return (RICH_WEIGHT * rich + LEAN_WEIGHT * lean).reshape(shape)
 
 
 def _argmin_richer(loss):
@@ -231,7 +308,7 @@ def _nearest_richer(sizes, value):
     return np.where(pick_upper, j, j - 1)
 
 
-def choose_sizes(current, required, valid, sizes, coding, allowed=None):
+def choose_sizes(current, required, valid, sizes, coding, allowed=None, window_loss=None, rows=None):
     """Choose a jet size per entry over a window of hours.
 
     Parameters
@@ -246,83 +323,58 @@ def choose_sizes(current, required, valid, sizes, coding, allowed=None):
     coding : {"diameter", "flow"}
     allowed : array_like of bool, shape (R, K), optional
         Sizes that may be chosen (stock); default all.
+    window_loss, rows : WindowLoss and its row indices, optional
+        A prepared :class:`WindowLoss` (built from the same required factors) to reuse.
 
     Returns
     -------
     dict
         ``index`` (R,) chosen index into ``sizes`` (-1 where nothing allowed), ``ideal``
-        (R, H) ideal numbers, ``hour_best`` (R, H) single-hour best indices,
-        ``out_of_family`` (R,) bool: the window's largest or smallest ideal lies more than
-        half a step outside the family.
+        (R, H) ideal numbers (NaN at padding), ``hour_spread`` (R,) how many family steps
+        the single-hour best size spans over the window, ``out_of_family`` (R,) bool: the
+        window's largest or smallest ideal lies more than half a step outside the family.
 
     Notes
     -----
-    Minimises :func:`_loss` over the sizes not leaner than the size nearest to the window's
-    largest ideal (see the module notes); exact ties to the richer size.
+    Minimises the window loss (lean ×4) over the sizes not leaner than the size nearest to
+    the window's largest ideal (the lean guard, module notes); exact ties to the richer
+    size. With ``allowed``, the guard applies among the allowed sizes where any passes it;
+    otherwise the least-loss allowed size is taken.
     """
     sizes = np.asarray(sizes, float)
     current = np.asarray(current, float)
     required = np.asarray(required, float)
     valid = np.asarray(valid, bool)
-    p = _power(coding)
-    rows, k = len(current), len(sizes)
+    n_rows, k = len(current), len(sizes)
+    if window_loss is None:
+        window_loss, rows = WindowLoss(required, valid), None
     ideal = carb.jet_number_for_area_factor(current[:, None], np.where(valid, required, 1.0), coding)
     ideal = np.where(valid, ideal, np.nan)
     ideal_max = np.nanmax(ideal, axis=1)
     ideal_min = np.nanmin(ideal, axis=1)
     floor_index = _nearest_richer(sizes, ideal_max)
-    # candidate window per row: from the floor upwards, wide enough for the loss optimum
-    lo_index = np.clip(_nearest_richer(sizes, ideal_min) - 1, 0, k - 1)
-    span = int(np.max(floor_index - lo_index, initial=0)) if rows else 0
-    width = min(k, span + 4)
-    start = np.clip(np.minimum(lo_index, floor_index), 0, k - width)
-    cand = start[:, None] + np.arange(width)[None, :]  # (R, C)
-    cand_sizes = sizes[cand]
-    delivered = carb.area_factor_between_jets(current[:, None], cand_sizes, coding)  # (R, C)
-    loss = _loss(required[:, None, :], delivered[:, :, None], valid[:, None, :])  # (R, C)
-    ok = cand >= floor_index[:, None]
+    delivered = carb.area_factor_between_jets(current[:, None], sizes[None, :], coding)  # (R, K)
+    loss = window_loss(delivered, rows)
+    guard = np.arange(k)[None, :] >= floor_index[:, None]
     if allowed is not None:
         allowed = np.asarray(allowed, bool)
-        allow_c = np.take_along_axis(allowed, cand, axis=1)
-        # the allowed sizes may lie outside the window: widen to the whole family then
-        loss_all = _loss(
-            required[:, None, :],
-            carb.area_factor_between_jets(current[:, None], sizes[None, :], coding)[:, :, None],
-            valid[:, None, :],
-        )
-        feasible = allowed & (np.arange(k)[None, :] >= floor_index[:, None])
+        feasible = allowed & guard
         use = np.where(feasible.any(axis=1)[:, None], feasible, allowed)
-        masked = np.where(use, loss_all, np.inf)
-        index = _argmin_richer(masked)
+        index = _argmin_richer(np.where(use, loss, np.inf))
         index = np.where(use.any(axis=1), index, -1)
-        del allow_c
     else:
-        masked = np.where(ok, loss, np.inf)
-        index = np.take_along_axis(cand, _argmin_richer(masked)[:, None], axis=1)[:, 0]
-    # single-hour best over the candidate window (for "window too wide")
-    hour_loss = np.where(
-        valid[:, None, :],
-        np.where(
-            (dev := required[:, None, :] / delivered[:, :, None] - 1.0) > 0, LEAN_WEIGHT, RICH_WEIGHT
-        )
-        * dev**2,
-        np.inf,
-    )  # (R, C, H)
-    hour_best = np.take_along_axis(cand, _argmin_richer(np.moveaxis(hour_loss, 1, -1)), axis=1)
+        index = _argmin_richer(np.where(guard, loss, np.inf))
+    # single-hour best at the window's extremes (the choice is monotone in the factor)
+    f_lo = np.nanmin(np.where(valid, required, np.nan), axis=1)
+    f_hi = np.nanmax(np.where(valid, required, np.nan), axis=1)
+    def single(f):
+        return _argmin_richer(_loss(f[:, None, None], delivered[:, :, None], True))
+
+    hour_spread = single(f_hi) - single(f_lo)
     half_up = (sizes[-1] - sizes[-2]) / 2.0 if k > 1 else 0.0
     half_down = (sizes[1] - sizes[0]) / 2.0 if k > 1 else 0.0
     out_of_family = (ideal_max > sizes[-1] + half_up) | (ideal_min < sizes[0] - half_down)
-    del p
-    return {"index": index, "ideal": ideal, "hour_best": hour_best, "out_of_family": out_of_family}
-
-
-def _steps(sizes, current, recommended):
-    """Signed family steps from ``current`` to ``recommended`` (current need not be a family size)."""
-    if recommended > current:
-        return int(np.count_nonzero((sizes > current) & (sizes <= recommended)))
-    if recommended < current:
-        return -int(np.count_nonzero((sizes < current) & (sizes >= recommended)))
-    return 0
+    return {"index": index, "ideal": ideal, "hour_spread": hour_spread, "out_of_family": out_of_family}
 
 
 def _jet_change_words(steps):
@@ -558,6 +610,7 @@ def make_plan(fleet, event) -> dict:
             "too_wide": np.zeros(n_rows, bool),
             "out_of_family": np.zeros(n_rows, bool),
             "index": np.zeros(n_rows, np.int64),
+            "steps": np.zeros(n_rows, np.int64),
         }
         family_names = np.array([getattr(s, family_attr) for s in settings], object)
         for name in sorted(set(family_names.tolist())):
@@ -565,7 +618,7 @@ def make_plan(fleet, event) -> dict:
             family = _family(fleet, name, f"{fleet.source or fleet.name}: bike {bikes[row_bike[rows[0]]].id}")
             sizes = np.asarray(family.sizes, float)
             cur = out["current"][rows]
-            res = choose_sizes(cur, required[rows], valid[rows], sizes, family.coding)
+            res = choose_sizes(cur, required[rows], valid[rows], sizes, family.coding, window_loss=wl, rows=rows)
             idx = res["index"]
             out["index"][rows] = idx
             out["recommended"][rows] = sizes[idx]
@@ -575,18 +628,22 @@ def make_plan(fleet, event) -> dict:
             )
             out["ideal_min"][rows] = np.nanmin(ideal, axis=1)
             out["ideal_max"][rows] = np.nanmax(ideal, axis=1)
-            hb = np.where(valid[rows], res["hour_best"], -1)
-            hb_min = np.where(valid[rows], res["hour_best"], 10**9).min(axis=1)
-            out["too_wide"][rows] = (hb.max(axis=1) - hb_min) > 1
+            out["too_wide"][rows] = res["hour_spread"] > 1
+            rec = sizes[idx]
+            up = np.searchsorted(sizes, rec, "right") - np.searchsorted(sizes, cur, "right")
+            down = np.searchsorted(sizes, rec, "left") - np.searchsorted(sizes, cur, "left")
+            out["steps"][rows] = np.where(rec > cur, up, np.where(rec < cur, down, 0))
             out["out_of_family"][rows] = res["out_of_family"]
             if has_stock:
                 shelf = np.array([fleet.stock.get((name, float(sz)), 0) > 0 for sz in sizes])
                 allowed = shelf[None, :] | (sizes[None, :] == cur[:, None])
-                st = choose_sizes(cur, required[rows], valid[rows], sizes, family.coding, allowed=allowed)
+                st = choose_sizes(cur, required[rows], valid[rows], sizes, family.coding, allowed=allowed,
+                                  window_loss=wl, rows=rows)
                 out["stock_choice"][rows] = np.where(st["index"] >= 0, sizes[np.maximum(st["index"], 0)], np.nan)
         out["family"] = family_names
         return out
 
+    wl = WindowLoss(req_fill, valid)
     main = plan_jets("main_jet_family", "main_jet")
     pilot = plan_jets("pilot_jet_family", "pilot_jet")
 
@@ -601,9 +658,7 @@ def make_plan(fleet, event) -> dict:
 
     def trim(pilot_delivered):
         screw_factor = (1.0 + effect) ** (screw_sign[:, None] * quarter[None, :])  # (R, Q)
-        loss = _loss(
-            required[:, None, :], (pilot_delivered[:, None] * screw_factor)[:, :, None], valid[:, None, :]
-        )
+        loss = wl(pilot_delivered[:, None] * screw_factor)
         richness = screw_sign[:, None] * quarter[None, :]  # larger = richer
         order = np.argsort(richness, axis=1, kind="stable")
         best = _argmin_richer(np.take_along_axis(loss, order, axis=1))
@@ -704,7 +759,7 @@ def make_plan(fleet, event) -> dict:
 
         groove_grid = np.broadcast_to(groove_numbers[None, :], (len(gr), g_max))
         delivered = needle_factor(MID_RANGE_OPENINGS, groove_grid)  # (R, G, T)
-        loss = _loss(required[gr][:, None, None, :], delivered[..., None], valid[gr][:, None, None, :]).sum(axis=-1)
+        loss = wl(delivered, gr).sum(axis=-1)
         loss = np.where(groove_numbers[None, :] <= grooves[gr][:, None], loss, np.inf)
         clip_new[gr] = groove_numbers[_argmin_richer(loss)]
         chosen = clip_new[gr][:, None]
@@ -715,7 +770,7 @@ def make_plan(fleet, event) -> dict:
         step = 1.0 + carb.ASSUMED_GROOVE_AREA_STEP
         moves = groove_numbers[None, :] - clip_now[as_rows][:, None]
         delivered = np.sqrt(main_delivered[as_rows])[:, None] * step ** (0.5 * moves)  # (R, G)
-        loss = _loss(required[as_rows][:, None, :], delivered[:, :, None], valid[as_rows][:, None, :])
+        loss = wl(delivered, as_rows)
         loss = np.where(groove_numbers[None, :] <= grooves[as_rows][:, None], loss, np.inf)
         clip_new[as_rows] = groove_numbers[_argmin_richer(loss)]
         chosen = np.sqrt(main_delivered[as_rows]) * step ** (0.5 * (clip_new[as_rows] - clip_now[as_rows]))
@@ -799,272 +854,303 @@ def make_plan(fleet, event) -> dict:
     throttle_list = THROTTLE.tolist()
     band = [round(reference_afr * TARGET_BAND[0], 2), round(reference_afr * TARGET_BAND[1], 2)]
 
-    entries = []
-    pick_needed: dict[tuple[str, float], int] = {}
-    picked_by_bike: dict[tuple[int, str, float], bool] = {}
-    warnings_count = 0
-    for r in range(n_rows):
-        b, s = int(row_bike[r]), int(row_session[r])
-        bike = bikes[b]
-        st = settings[r]
-        model = fleet.models[bike.model]
-        stats = session_stats[s]
-        n_h = int(valid[r].sum())
-        base = offsets[s]
-        req_row = req_r[r, :n_h].tolist()
-        hours_out = [dict(hour_base[base + i], area_factor=req_row[i]) for i in range(n_h)]
-        warnings = []
-
-        def jet_dict(plan, label):
-            fam = fleet.jet_families[plan["family"][r]]
-            sizes = np.asarray(fam.sizes, float)
-            cur, rec = float(plan["current"][r]), float(plan["recommended"][r])
-            steps = _steps(sizes, cur, rec)
-            direction, change = _jet_change_words(steps)
-            stock_choice = _num(plan["stock_choice"][r]) if has_stock else None
-            in_stock = (fleet.stock.get((fam.name, rec), 0) > 0) if has_stock else None
-            if has_stock and stock_choice != _num(rec):
-                warnings.append(
-                    {
-                        "code": "stock-shortage",
-                        "message": f"{label} {_num(rec)} ({fam.name}) is not on the shelf; the best size in stock is "
-                        f"{stock_choice if stock_choice is not None else 'none'}. Order it, or fit the stock size and "
-                        "check the plug reading.",
-                    }
-                )
-            if plan["out_of_family"][r]:
-                warnings.append(
-                    {
-                        "code": "ideal-outside-family",
-                        "message": f"The ideal {label} ({_num(plan['ideal_min'][r])}..{_num(plan['ideal_max'][r])}) lies "
-                        f"outside the {fam.name} sizes ({_num(sizes[0])}..{_num(sizes[-1])}); "
-                        f"{_num(rec)} is the nearest available — test and read the plug before riding hard.",
-                    }
-                )
-            if plan["too_wide"][r]:
-                warnings.append(
-                    {
-                        "code": "window-too-wide",
-                        "message": f"The best {label} changes by more than one size across {sessions[s].name}; "
-                        f"{_num(rec)} is chosen to stay safe (rich) across the window — consider re-jetting mid-session.",
-                    }
-                )
-            return {
-                "family": fam.name,
-                "coding": fam.coding,
-                "current": _num(cur),
-                "ideal": _r(plan["ideal_mean"][r], 1),
-                "ideal_range": [_r(plan["ideal_min"][r], 1), _r(plan["ideal_max"][r], 1)],
-                "recommended": _num(rec),
-                "in_stock": in_stock,
-                "stock_choice": stock_choice,
-                "steps": steps,
-                "direction": direction,
-                "change": change,
-            }
-
-        if f_min_raw[r] < FACTOR_RANGE[0] or f_max_raw[r] > FACTOR_RANGE[1]:
-            warnings.append(
-                {
-                    "code": "factor-out-of-range",
-                    "message": f"Required area factor {f_min[r]}..{f_max[r]} is outside the model's range "
-                    f"{FACTOR_RANGE[0]}..{FACTOR_RANGE[1]}: treat the settings as a starting point and make a test run "
-                    "with a plug reading first.",
-                }
-            )
-        main_out = jet_dict(main, "main jet")
-        pilot_out = jet_dict(pilot, "pilot jet")
-
-        # clip
-        if clip_mode[r] == 0:
-            clip_out = {
-                "needle": st.needle,
-                "current": st.clip,
-                "recommended": st.clip,
-                "steps": 0,
-                "direction": "no change",
-                "change": "no needle or clip on record: not planned",
-                "assumed_geometry": True,
-                "grooves": None,
-            }
-            warnings.append(
-                {"code": "no-needle", "message": "No needle or clip position on record: the clip is not planned; "
-                 "record the needle and clip in the fleet file."}
-            )
-        else:
-            c_now, c_new = int(clip_now[r]), int(clip_new[r])
-            d = c_new - c_now
-            if d == 0:
-                direction, change = "no change", "no change"
-            else:
-                n = abs(d)
-                word = "groove" if n == 1 else "grooves"
-                if d > 0:
-                    direction, change = "richer", f"clip {n} {word} lower (groove {c_now} → {c_new}, needle up): richer"
-                else:
-                    direction, change = "leaner", f"clip {n} {word} higher (groove {c_now} → {c_new}, needle down): leaner"
-            clip_out = {
-                "needle": st.needle,
-                "current": c_now,
-                "recommended": c_new,
-                "steps": d,
-                "direction": direction,
-                "change": change,
-                "assumed_geometry": bool(clip_mode[r] == 2),
-                "grooves": int(grooves[r]),
-            }
-            if clip_mode[r] == 2:
-                warnings.append(
-                    {
-                        "code": "assumed-needle-geometry",
-                        "message": "Needle geometry or needle-jet bore not on record: the clip is chosen with an assumed "
-                        f"effect of about {int(carb.ASSUMED_GROOVE_AREA_STEP * 100)} % annulus area per groove "
-                        "(from memory); confirm mid-throttle by feel and plug reading.",
-                    }
-                )
-
-        # screw
-        ms = st.mixture_screw
-        ch = float(screw_change[r])
-        if abs(ch) < 1e-9:
-            s_dir, s_change = "no change", "no change"
-        else:
-            out_in = "out" if ch > 0 else "in"
-            richer = (ch > 0) == (ms.kind == "fuel")
-            s_dir = "richer" if richer else "leaner"
-            s_change = f"{ms.kind} screw {_turns_words(ch)} {out_in}: {s_dir}"
-        screw_out_dict = {
-            "kind": ms.kind,
-            "current_turns": round(float(screw_now[r]), 2),
-            "recommended_turns": round(float(screw_new[r]), 2),
-            "change_turns": round(ch, 2),
-            "direction": s_dir,
-            "change": s_change,
-            "usable_range": [round(float(ms.usable_range[0]), 2), round(float(ms.usable_range[1]), 2)],
-            "range_assumed": bool(ms.range_assumed),
+    def jet_columns(plan):
+        steps = np.zeros(n_rows, np.int64)
+        names = plan["family"]
+        for name in set(names.tolist()):
+            rows = np.flatnonzero(names == name)
+            sizes = np.asarray(fleet.jet_families[name].sizes, float)
+            cur, rec = plan["current"][rows], plan["recommended"][rows]
+            up = np.searchsorted(sizes, rec, "right") - np.searchsorted(sizes, cur, "right")
+            down = np.searchsorted(sizes, rec, "left") - np.searchsorted(sizes, cur, "left")
+            steps[rows] = np.where(rec > cur, up, np.where(rec < cur, down, 0))
+        rec_list = plan["recommended"].tolist()
+        return {
+            "cur": _nums(plan["current"]),
+            "rec": _nums(plan["recommended"]),
+            "ideal": _r(plan["ideal_mean"], 1),
+            "imin": _r(plan["ideal_min"], 1),
+            "imax": _r(plan["ideal_max"], 1),
+            "stock": _nums(plan["stock_choice"]) if has_stock else [None] * n_rows,
+            "in_stock": [fleet.stock.get((f, v), 0) > 0 for f, v in zip(names.tolist(), rec_list)]
+            if has_stock
+            else [None] * n_rows,
+            "steps": steps.tolist(),
+            "coding": [fleet.jet_families[f].coding for f in names.tolist()],
         }
-        if pilot_bumped[r]:
-            warnings.append(
-                {
-                    "code": "screw-out-of-range",
-                    "message": f"The {ms.kind} screw would need {round(float(screw_wanted[r]), 2)} turns, outside its usable "
-                    f"range {ms.usable_range[0]:g}..{ms.usable_range[1]:g}: the pilot jet is changed one size instead.",
-                }
-            )
-        if screw_clamped[r]:
-            warnings.append(
-                {
-                    "code": "screw-out-of-range",
-                    "message": f"Even after the pilot jet, the {ms.kind} screw would leave its usable range: it is set to "
-                    f"{round(float(screw_new[r]), 2)} turns (the range limit); the idle mixture may be off — check idle.",
-                }
-            )
-        if ms.range_assumed:
-            warnings.append(
-                {
-                    "code": "assumed-screw-range",
-                    "message": f"The screw's usable range is the default {ms.usable_range[0]:g}..{ms.usable_range[1]:g} turns "
-                    "out (common practice); record the service manual's range.",
-                }
-            )
-        if stats["icing"] >= ICING_WARN_LEVEL:
-            warnings.append(
-                {
-                    "code": "icing-risk",
-                    "message": f"Carburetor icing risk (band {stats['icing']} of 3) in cool, humid air: watch for rough "
-                    "running or loss of power at part throttle.",
-                }
-            )
-        if stats["t_start"] < COLD_START_K:
-            pump = " Accelerator-pump model: check the pump squirt before the first start." if model.carburetor.accelerator_pump else ""
-            warnings.append(
-                {
-                    "code": "cold-start",
-                    "message": f"Cold start ({stats['t_start'] - 273.15:.1f} °C at the session start): use the choke and "
-                    f"warm the engine before riding.{pump}",
-                }
-            )
-        if stats["t_max"] > HOT_FUEL_K:
-            warnings.append(
-                {
-                    "code": "hot-fuel",
-                    "message": f"Hot session (air up to {stats['t_max'] - 273.15:.1f} °C): fuel above about 30 °C can "
-                    "percolate or vapour-lock (threshold from memory); keep fuel and bikes shaded.",
-                }
-            )
 
-        checks = []
-        if st.float_level is not None:
-            checks.append(f"Float level: check {st.float_level * 1000.0:.1f} mm (value from the settings).")
-        else:
-            checks.append("Float level: not on record; check it against the service manual.")
-        checks.append("Plug reading after the first run, before riding hard.")
-        if model.carburetor.accelerator_pump:
-            checks.append("Accelerator pump: check the squirt (timing and amount).")
-        if stats["t_min"] < CHOKE_K:
-            checks.append(f"Choke: cold morning ({stats['t_min'] - 273.15:.1f} °C minimum): choke for the first start.")
-        warnings_count += len(warnings)
+    main_cols = jet_columns(main)
+    pilot_cols = jet_columns(pilot)
+    # Building ~10^5..10^6 small dicts: pause the cyclic garbage collector meanwhile (they hold
+    # no cycles); its repeated passes otherwise cost about a third of the planning time.
+    with _gc_paused():
+        entries = []
+        pick_needed: dict[tuple[str, float], int] = {}
+        picked_by_bike: dict[tuple[int, str, float], bool] = {}
+        warnings_count = 0
+        for r in range(n_rows):
+            b, s = int(row_bike[r]), int(row_session[r])
+            bike = bikes[b]
+            st = settings[r]
+            model = fleet.models[bike.model]
+            stats = session_stats[s]
+            n_h = int(valid[r].sum())
+            base = offsets[s]
+            req_row = req_r[r, :n_h].tolist()
+            hours_out = []
+            for hour, factor in zip(hour_base[base : base + n_h], req_row):
+                hour = hour.copy()
+                hour["area_factor"] = factor
+                hours_out.append(hour)
+            warnings = []
 
-        for plan_, fam_attr in ((main, "main_jet_family"), (pilot, "pilot_jet_family")):
-            fam_name = plan_["family"][r]
-            rec = float(plan_["recommended"][r])
-            if rec != float(plan_["current"][r]) and not picked_by_bike.get((b, fam_name, rec)):
-                picked_by_bike[(b, fam_name, rec)] = True
-                pick_needed[(fam_name, rec)] = pick_needed.get((fam_name, rec), 0) + 1
+            def jet_dict(plan, cols, label):
+                fam_name = plan["family"][r]
+                rec, stock_choice = cols["rec"][r], cols["stock"][r]
+                if has_stock and stock_choice != rec:
+                    warnings.append(
+                        {
+                            "code": "stock-shortage",
+                            "message": f"{label} {rec} ({fam_name}) is not on the shelf; the best size in stock is "
+                            f"{stock_choice if stock_choice is not None else 'none'}. Order it, or fit the stock size and "
+                            "check the plug reading.",
+                        }
+                    )
+                if plan["out_of_family"][r]:
+                    sizes = fleet.jet_families[fam_name].sizes
+                    warnings.append(
+                        {
+                            "code": "ideal-outside-family",
+                            "message": f"The ideal {label} ({cols['imin'][r]}..{cols['imax'][r]}) lies outside the "
+                            f"{fam_name} sizes ({_num(sizes[0])}..{_num(sizes[-1])}); {rec} is the nearest available — "
+                            "test and read the plug before riding hard.",
+                        }
+                    )
+                if plan["too_wide"][r]:
+                    warnings.append(
+                        {
+                            "code": "window-too-wide",
+                            "message": f"The best {label} changes by more than one size across {sessions[s].name}; "
+                            f"{rec} is chosen to stay safe (rich) across the window — consider re-jetting mid-session.",
+                        }
+                    )
+                direction, change = _jet_change_words(cols["steps"][r])
+                return {
+                    "family": fam_name,
+                    "coding": cols["coding"][r],
+                    "current": cols["cur"][r],
+                    "ideal": cols["ideal"][r],
+                    "ideal_range": [cols["imin"][r], cols["imax"][r]],
+                    "recommended": rec,
+                    "in_stock": cols["in_stock"][r],
+                    "stock_choice": stock_choice,
+                    "steps": cols["steps"][r],
+                    "direction": direction,
+                    "change": change,
+                }
 
-        own_ref = ref_dicts[int(bike_ref[b])]
-        entries.append(
-            {
-                "bike": bike.id,
-                "model": bike.model,
-                "session": sessions[s].name,
-                "start": session_dicts[s]["start"],
-                "end": session_dicts[s]["end"],
-                "notes": bike.notes,
-                "strokes": int(model.strokes),
-                "premix_ratio": None if bike.premix_ratio is None else round(float(bike.premix_ratio), 2),
-                "density_exponent": round(float(bike.density_exponent), 4),
-                "reference": own_ref,
-                "hours": hours_out,
-                "summary": {
-                    "air_temperature_C_min": stats["air_temperature_C_min"],
-                    "air_temperature_C_max": stats["air_temperature_C_max"],
-                    "station_pressure_hPa_mean": stats["station_pressure_hPa_mean"],
-                    "relative_humidity_pct_mean": stats["relative_humidity_pct_mean"],
-                    "density_altitude_m_min": stats["density_altitude_m_min"],
-                    "density_altitude_m_max": stats["density_altitude_m_max"],
-                    "area_factor_min": f_min[r],
-                    "area_factor_mean": f_mean[r],
-                    "area_factor_max": f_max[r],
-                    "power_vs_reference_pct": power_r[r],
-                },
-                "settings": {
-                    "main_jet": main_out,
-                    "pilot_jet": pilot_out,
-                    "clip": clip_out,
-                    "mixture_screw": screw_out_dict,
-                    "float_level_mm": None if st.float_level is None else round(st.float_level * 1000.0, 2),
-                },
-                "mixture_curve": {
-                    "throttle": throttle_list,
-                    "current_afr": cur_afr_r[r],
-                    "recommended_afr": rec_afr_r[r],
-                    "reference_afr": round(reference_afr, 2),
-                    "target_band_afr": band,
-                    "time": hour_iso[base + int(worst_hour[r])],
-                    "basis": "leanest hour of the session (largest required area factor)",
-                },
-                "rejet_temperatures_C": {
-                    "below": rejet["below"][r],
-                    "below_jet": rejet["below_jet"][r],
-                    "above": rejet["above"][r],
-                    "above_jet": rejet["above_jet"][r],
-                },
-                "power_vs_reference_pct": power_r[r],
-                "checks": checks,
-                "warnings": warnings,
+            if f_min_raw[r] < FACTOR_RANGE[0] or f_max_raw[r] > FACTOR_RANGE[1]:
+                warnings.append(
+                    {
+                        "code": "factor-out-of-range",
+                        "message": f"Required area factor {f_min[r]}..{f_max[r]} is outside the model's range "
+                        f"{FACTOR_RANGE[0]}..{FACTOR_RANGE[1]}: treat the settings as a starting point and make a test run "
+                        "with a plug reading first.",
+                    }
+                )
+            main_out = jet_dict(main, main_cols, "main jet")
+            pilot_out = jet_dict(pilot, pilot_cols, "pilot jet")
+
+            # clip
+            if clip_mode[r] == 0:
+                clip_out = {
+                    "needle": st.needle,
+                    "current": st.clip,
+                    "recommended": st.clip,
+                    "steps": 0,
+                    "direction": "no change",
+                    "change": "no needle or clip on record: not planned",
+                    "assumed_geometry": True,
+                    "grooves": None,
+                }
+                warnings.append(
+                    {"code": "no-needle", "message": "No needle or clip position on record: the clip is not planned; "
+                     "record the needle and clip in the fleet file."}
+                )
+            else:
+                c_now, c_new = int(clip_now[r]), int(clip_new[r])
+                d = c_new - c_now
+                if d == 0:
+                    direction, change = "no change", "no change"
+                else:
+                    n = abs(d)
+                    word = "groove" if n == 1 else "grooves"
+                    if d > 0:
+                        direction, change = "richer", f"clip {n} {word} lower (groove {c_now} → {c_new}, needle up): richer"
+                    else:
+                        direction, change = "leaner", f"clip {n} {word} higher (groove {c_now} → {c_new}, needle down): leaner"
+                clip_out = {
+                    "needle": st.needle,
+                    "current": c_now,
+                    "recommended": c_new,
+                    "steps": d,
+                    "direction": direction,
+                    "change": change,
+                    "assumed_geometry": bool(clip_mode[r] == 2),
+                    "grooves": int(grooves[r]),
+                }
+                if clip_mode[r] == 2:
+                    warnings.append(
+                        {
+                            "code": "assumed-needle-geometry",
+                            "message": "Needle geometry or needle-jet bore not on record: the clip is chosen with an assumed "
+                            f"effect of about {int(carb.ASSUMED_GROOVE_AREA_STEP * 100)} % annulus area per groove "
+                            "(from memory); confirm mid-throttle by feel and plug reading.",
+                        }
+                    )
+
+            # screw
+            ms = st.mixture_screw
+            ch = float(screw_change[r])
+            if abs(ch) < 1e-9:
+                s_dir, s_change = "no change", "no change"
+            else:
+                out_in = "out" if ch > 0 else "in"
+                richer = (ch > 0) == (ms.kind == "fuel")
+                s_dir = "richer" if richer else "leaner"
+                s_change = f"{ms.kind} screw {_turns_words(ch)} {out_in}: {s_dir}"
+            screw_out_dict = {
+                "kind": ms.kind,
+                "current_turns": round(float(screw_now[r]), 2),
+                "recommended_turns": round(float(screw_new[r]), 2),
+                "change_turns": round(ch, 2),
+                "direction": s_dir,
+                "change": s_change,
+                "usable_range": [round(float(ms.usable_range[0]), 2), round(float(ms.usable_range[1]), 2)],
+                "range_assumed": bool(ms.range_assumed),
             }
-        )
+            if pilot_bumped[r]:
+                warnings.append(
+                    {
+                        "code": "screw-out-of-range",
+                        "message": f"The {ms.kind} screw would need {round(float(screw_wanted[r]), 2)} turns, outside its usable "
+                        f"range {ms.usable_range[0]:g}..{ms.usable_range[1]:g}: the pilot jet is changed one size instead.",
+                    }
+                )
+            if screw_clamped[r]:
+                warnings.append(
+                    {
+                        "code": "screw-out-of-range",
+                        "message": f"Even after the pilot jet, the {ms.kind} screw would leave its usable range: it is set to "
+                        f"{round(float(screw_new[r]), 2)} turns (the range limit); the idle mixture may be off — check idle.",
+                    }
+                )
+            if ms.range_assumed:
+                warnings.append(
+                    {
+                        "code": "assumed-screw-range",
+                        "message": f"The screw's usable range is the default {ms.usable_range[0]:g}..{ms.usable_range[1]:g} turns "
+                        "out (common practice); record the service manual's range.",
+                    }
+                )
+            if stats["icing"] >= ICING_WARN_LEVEL:
+                warnings.append(
+                    {
+                        "code": "icing-risk",
+                        "message": f"Carburetor icing risk (band {stats['icing']} of 3) in cool, humid air: watch for rough "
+                        "running or loss of power at part throttle.",
+                    }
+                )
+            if stats["t_start"] < COLD_START_K:
+                pump = " Accelerator-pump model: check the pump squirt before the first start." if model.carburetor.accelerator_pump else ""
+                warnings.append(
+                    {
+                        "code": "cold-start",
+                        "message": f"Cold start ({stats['t_start'] - 273.15:.1f} °C at the session start): use the choke and "
+                        f"warm the engine before riding.{pump}",
+                    }
+                )
+            if stats["t_max"] > HOT_FUEL_K:
+                warnings.append(
+                    {
+                        "code": "hot-fuel",
+                        "message": f"Hot session (air up to {stats['t_max'] - 273.15:.1f} °C): fuel above about 30 °C can "
+                        "percolate or vapour-lock (threshold from memory); keep fuel and bikes shaded.",
+                    }
+                )
+
+            checks = []
+            if st.float_level is not None:
+                checks.append(f"Float level: check {st.float_level * 1000.0:.1f} mm (value from the settings).")
+            else:
+                checks.append("Float level: not on record; check it against the service manual.")
+            checks.append("Plug reading after the first run, before riding hard.")
+            if model.carburetor.accelerator_pump:
+                checks.append("Accelerator pump: check the squirt (timing and amount).")
+            if stats["t_min"] < CHOKE_K:
+                checks.append(f"Choke: cold morning ({stats['t_min'] - 273.15:.1f} °C minimum): choke for the first start.")
+            warnings_count += len(warnings)
+
+            for plan_, fam_attr in ((main, "main_jet_family"), (pilot, "pilot_jet_family")):
+                fam_name = plan_["family"][r]
+                rec = float(plan_["recommended"][r])
+                if rec != float(plan_["current"][r]) and not picked_by_bike.get((b, fam_name, rec)):
+                    picked_by_bike[(b, fam_name, rec)] = True
+                    pick_needed[(fam_name, rec)] = pick_needed.get((fam_name, rec), 0) + 1
+
+            own_ref = ref_dicts[int(bike_ref[b])]
+            entries.append(
+                {
+                    "bike": bike.id,
+                    "model": bike.model,
+                    "session": sessions[s].name,
+                    "start": session_dicts[s]["start"],
+                    "end": session_dicts[s]["end"],
+                    "notes": bike.notes,
+                    "strokes": int(model.strokes),
+                    "premix_ratio": None if bike.premix_ratio is None else round(float(bike.premix_ratio), 2),
+                    "density_exponent": round(float(bike.density_exponent), 4),
+                    "reference": own_ref,
+                    "hours": hours_out,
+                    "summary": {
+                        "air_temperature_C_min": stats["air_temperature_C_min"],
+                        "air_temperature_C_max": stats["air_temperature_C_max"],
+                        "station_pressure_hPa_mean": stats["station_pressure_hPa_mean"],
+                        "relative_humidity_pct_mean": stats["relative_humidity_pct_mean"],
+                        "density_altitude_m_min": stats["density_altitude_m_min"],
+                        "density_altitude_m_max": stats["density_altitude_m_max"],
+                        "area_factor_min": f_min[r],
+                        "area_factor_mean": f_mean[r],
+                        "area_factor_max": f_max[r],
+                        "power_vs_reference_pct": power_r[r],
+                    },
+                    "settings": {
+                        "main_jet": main_out,
+                        "pilot_jet": pilot_out,
+                        "clip": clip_out,
+                        "mixture_screw": screw_out_dict,
+                        "float_level_mm": None if st.float_level is None else round(st.float_level * 1000.0, 2),
+                    },
+                    "mixture_curve": {
+                        "throttle": throttle_list,
+                        "current_afr": cur_afr_r[r],
+                        "recommended_afr": rec_afr_r[r],
+                        "reference_afr": round(reference_afr, 2),
+                        "target_band_afr": band,
+                        "time": hour_iso[base + int(worst_hour[r])],
+                        "basis": "leanest hour of the session (largest required area factor)",
+                    },
+                    "rejet_temperatures_C": {
+                        "below": rejet["below"][r],
+                        "below_jet": rejet["below_jet"][r],
+                        "above": rejet["above"][r],
+                        "above_jet": rejet["above_jet"][r],
+                    },
+                    "power_vs_reference_pct": power_r[r],
+                    "checks": checks,
+                    "warnings": warnings,
+                }
+            )
 
     # ---- pick list -------------------------------------------------------------------------------
     pick_list = []
@@ -1166,7 +1252,7 @@ def _rejet_temperatures(fleet, main, main_coding, event_air, hour_index, valid, 
         hi = np.full(n_rows, REJET_SEARCH_K[1])
         f_lo, f_hi = factor(lo), factor(hi)
         ok = np.isfinite(target) & (f_lo >= target) & (f_hi <= target)
-        for _ in range(40):
+        for _ in range(24):  # 80 K / 2**24: far below the printed 0.1 K
             mid = 0.5 * (lo + hi)
             above = factor(mid) > target
             lo = np.where(above, mid, lo)
