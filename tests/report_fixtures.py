@@ -115,7 +115,7 @@ def make_plan(n_bikes: int = 3, n_sessions: int = 2, bike_ids: list[str] | None 
                     "density_altitude_m_min": min(h["density_altitude_m"] for h in hours),
                     "density_altitude_m_max": max(h["density_altitude_m"] for h in hours),
                     "area_factor_min": min(af), "area_factor_mean": round(sum(af) / 3, 4),
-                    "area_factor_max": max(af), "power_vs_reference_pct": round(-14.5 - s, 1),
+                    "area_factor_max": max(af), "power_vs_reference_pct": round(85.5 - s, 1),
                 },
                 "settings": {
                     "main_jet": main, "pilot_jet": pilot,
@@ -140,7 +140,7 @@ def make_plan(n_bikes: int = 3, n_sessions: int = 2, bike_ids: list[str] | None 
                 },
                 "rejet_temperatures_C": {"below": 2.0, "below_jet": main["recommended"] + 3,
                                          "above": 31.0, "above_jet": None},
-                "power_vs_reference_pct": round(-14.5 - s, 1),
+                "power_vs_reference_pct": round(85.5 - s, 1),
                 "checks": ["check float level before fitting (invented)", "read the plug after the first session (invented)",
                            "choke on a cold morning (invented)"],
                 "warnings": warnings,

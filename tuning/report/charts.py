@@ -12,7 +12,7 @@ _SETTING_DASH = alt.Scale(domain=["current", "recommended"], range=[[6, 3], [1, 
 _GREYS = ["#111111", "#555555", "#888888", "#333333", "#777777", "#222222"]
 
 
-def mixture_chart(entries: list[dict], width: int = 400, height: int = 105) -> alt.LayerChart:
+def mixture_chart(entries: list[dict], width: int = 400, height: int = 95) -> alt.LayerChart:
     """Air–fuel ratio against throttle opening, current and recommended settings, per session.
 
     Draws the plan's ``mixture_curve`` of each entry (one bike, every session) over the target band
@@ -30,7 +30,7 @@ def mixture_chart(entries: list[dict], width: int = 400, height: int = 105) -> a
     domain = [min(values) - 0.3, max(values) + 0.3]
     x = alt.X("throttle:Q", title="throttle opening", axis=alt.Axis(format="%", tickCount=5),
               scale=alt.Scale(domain=[0, 1], nice=False))
-    y = alt.Y("afr:Q", title="air–fuel ratio (higher = leaner)", scale=alt.Scale(domain=domain, nice=False, zero=False))
+    y = alt.Y("afr:Q", title="air–fuel ratio", scale=alt.Scale(domain=domain, nice=False, zero=False))
     band = alt.Chart(alt.Data(values=[{"lo": lo, "hi": hi}])).mark_rect(color="#dddddd").encode(
         y=alt.Y("lo:Q", scale=alt.Scale(domain=domain, nice=False, zero=False)), y2="hi:Q")
     reference = alt.Chart(alt.Data(values=[{"afr": curve0["reference_afr"]}])).mark_rule(
@@ -42,11 +42,7 @@ def mixture_chart(entries: list[dict], width: int = 400, height: int = 105) -> a
                         sort=[e["session"] for e in entries]),
         detail="session:N",
     )
-    return alt.layer(band, reference, lines).properties(
-        width=width, height=height,
-        title=alt.TitleParams("Mixture across throttle: grey band = target, dotted = reference",
-                              fontSize=10, anchor="start"),
-    ).configure_axis(labelFontSize=9, titleFontSize=9).configure_legend(
+    return alt.layer(band, reference, lines).properties(width=width, height=height).configure_axis(labelFontSize=9, titleFontSize=9).configure_legend(
         labelFontSize=9, titleFontSize=9).configure_view(strokeWidth=0.5)
 
 

@@ -165,6 +165,12 @@ def _merge_pdfs(paths: list[Path], target: Path, stamp: str, title: str) -> int:
     return len(writer.pages)
 
 
+def _check_options(paper: str, workers: int) -> None:
+    render.page_css(paper, "")  # raises UserError on an unknown paper name
+    if not isinstance(workers, int) or workers < 1:
+        raise UserError(f"--workers: expected a whole number of at least 1, got {workers}; try --workers 2")
+
+
 def build(fleet_path: str | Path, event_path: str | Path, out_dir: str | Path, paper: str = "a4",
           quiet: bool = False, workers: int = 2) -> BuildResult:
     """Plan ``fleet_path`` x ``event_path`` and build the whole output folder ``out_dir``.
@@ -172,6 +178,7 @@ def build(fleet_path: str | Path, event_path: str | Path, out_dir: str | Path, p
     Raises :class:`tuning.errors.UserError` for bad input files (exit 2) and
     :class:`tuning.errors.BuildError` naming the failed bike or step (exit 1).
     """
+    _check_options(paper, workers)
     plan = render.load_plan(str(fleet_path), str(event_path))
     return build_from_plan(plan, out_dir, paper=paper, quiet=quiet, workers=workers,
                            fleet_path=str(fleet_path), event_path=str(event_path))
@@ -181,9 +188,7 @@ def build_from_plan(plan: dict, out_dir: str | Path, paper: str = "a4", quiet: b
                     workers: int = 2, fleet_path: str = "", event_path: str = "") -> BuildResult:
     """Build the output folder from a plan document (format ``carbfleet-plan/1``)."""
     started = time.perf_counter()
-    render.page_css(paper, "")  # checks the paper name before any work
-    if workers < 1:
-        raise UserError(f"--workers: expected a whole number of at least 1, got {workers}")
+    _check_options(paper, workers)
     out = Path(out_dir).resolve()
     if out.exists() and not out.is_dir():
         raise UserError(f"--out: {out} is a file; give a folder")

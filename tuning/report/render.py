@@ -112,11 +112,21 @@ def _common(plan: dict, paper: str, title: str) -> dict:
     }
 
 
-def sheet_html(plan: dict, entries: list[dict], paper: str = "a4") -> str:
-    """The setup sheet of one bike (its plan entries, session order) as a self-contained HTML page."""
+DENSITIES = ("normal", "compact", "tight")
+
+
+def sheet_html(plan: dict, entries: list[dict], paper: str = "a4", density: str = "normal",
+               chart_svg: str | None = None) -> str:
+    """The setup sheet of one bike (its plan entries, session order) as a self-contained HTML page.
+
+    ``density`` (``normal``, ``compact``, ``tight``) shrinks type and chart so a crowded sheet
+    (many sessions, many warnings) still prints on one page; nothing is left out.
+    """
     rows = tables.sheet_rows(entries)
     context = _common(plan, paper, f"{plan['event']} · sheet {entries[0]['bike']}")
-    context.update(s=rows, chart_svg=charts.to_svg(charts.mixture_chart(entries)),
+    if chart_svg is None:
+        chart_svg = charts.to_svg(charts.mixture_chart(entries))
+    context.update(s=rows, chart_svg=chart_svg, density=density,
                    ref_text=_reference_text(entries[0]["reference"]))
     return environment().get_template("sheet.html.j2").render(**context)
 
@@ -146,12 +156,30 @@ def pin_font_timestamps(plan: dict) -> None:
     os.environ["SOURCE_DATE_EPOCH"] = str(int(dt.datetime.fromisoformat(_stamp(plan)).timestamp()))
 
 
-def write_pdf(html: str, path: Path, base_url: Path) -> Path:
-    """Write ``html`` to ``path`` as PDF with WeasyPrint (no network: every resource is inline)."""
+def layout(html: str, base_url: Path):
+    """Lay ``html`` out with WeasyPrint (no network: every resource is inline); a Document."""
     import weasyprint
 
-    weasyprint.HTML(string=html, base_url=str(base_url), url_fetcher=_no_fetch).write_pdf(str(path))
+    return weasyprint.HTML(string=html, base_url=str(base_url), url_fetcher=_no_fetch).render()
+
+
+def write_pdf(html: str, path: Path, base_url: Path) -> Path:
+    """Write ``html`` to ``path`` as PDF with WeasyPrint."""
+    layout(html, base_url).write_pdf(str(path))
     return path
+
+
+def write_sheet(plan: dict, entries: list[dict], html_path: Path, pdf_path: Path, paper: str = "a4") -> int:
+    """Write one bike's sheet as HTML and PDF, on one page if any density allows; return pages."""
+    chart_svg = charts.to_svg(charts.mixture_chart(entries))
+    for density in DENSITIES:
+        html = sheet_html(plan, entries, paper, density, chart_svg)
+        document = layout(html, pdf_path.parent)
+        if len(document.pages) == 1:
+            break
+    html_path.write_text(html, encoding="utf-8")
+    document.write_pdf(str(pdf_path))
+    return len(document.pages)
 
 
 def _no_fetch(url: str, *args, **kwargs):
@@ -190,10 +218,8 @@ def render_setup_sheets(plan: dict, out_dir: str | Path, bikes=(), paper: str = 
     pin_font_timestamps(plan)
     for bike in wanted:
         try:
-            html = sheet_html(plan, grouped[bike], paper)
             stem = names[bike]
-            (out / "sheets" / f"{stem}.html").write_text(html, encoding="utf-8")
-            write_pdf(html, out / "sheets" / f"{stem}.pdf", out / "sheets")
+            write_sheet(plan, grouped[bike], out / "sheets" / f"{stem}.html", out / "sheets" / f"{stem}.pdf", paper)
         except UserError:
             raise
         except Exception as exc:

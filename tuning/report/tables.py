@@ -64,19 +64,19 @@ def entries_by_bike(plan: dict) -> "OrderedDict[str, list[dict]]":
     return grouped
 
 
-def _circuit_current(key: str, s: dict) -> str:
+def _circuit_current(key: str, s: dict, unit: bool = True) -> str:
     if key == "clip":
-        return f"groove {s['current']}"
+        return f"groove {s['current']}" if unit else f"{s['current']}"
     if key == "mixture_screw":
-        return f"{turns(s['current_turns'])} turns out"
+        return f"{turns(s['current_turns'])} turns out" if unit else turns(s["current_turns"])
     return f"{s['current']}"
 
 
-def _circuit_recommended(key: str, s: dict) -> str:
+def _circuit_recommended(key: str, s: dict, unit: bool = True) -> str:
     if key == "clip":
-        return f"groove {s['recommended']}"
+        return f"groove {s['recommended']}" if unit else f"{s['recommended']}"
     if key == "mixture_screw":
-        return f"{turns(s['recommended_turns'])} turns out"
+        return f"{turns(s['recommended_turns'])} turns out" if unit else turns(s["recommended_turns"])
     return f"{s['recommended']}"
 
 
@@ -84,13 +84,13 @@ def _stock_text(key: str, s: dict) -> str:
     if key not in ("main_jet", "pilot_jet"):
         return ""
     if s.get("steps", 0) == 0:
-        return "keep fitted jet"
+        return ""
     if s.get("in_stock") is None:
         return f"take {s['recommended']} (no stock list)"
     if s["in_stock"]:
         return f"take {s['recommended']} from stock"
     if s.get("stock_choice") is not None:
-        return f"NOT IN STOCK; nearest on shelf {s['stock_choice']}"
+        return f"NOT IN STOCK (shelf: {s['stock_choice']})"
     return "NOT IN STOCK: order"
 
 
@@ -108,13 +108,13 @@ def sheet_rows(entries: list[dict]) -> dict:
         sm = e["summary"]
         sessions.append({
             "name": e["session"], "window": window(e["start"], e["end"]),
-            "air_temperature": f"{number(sm['air_temperature_C_min'], 0)} to {number(sm['air_temperature_C_max'], 0)} °C",
+            "air_temperature": f"{number(sm['air_temperature_C_min'], 0)}…{number(sm['air_temperature_C_max'], 0)} °C",
             "station_pressure": number(sm["station_pressure_hPa_mean"], 0, "hPa"),
             "relative_humidity": number(sm["relative_humidity_pct_mean"], 0, "%"),
-            "density_altitude": f"{number(sm['density_altitude_m_min'], 0)} to {number(sm['density_altitude_m_max'], 0)} m",
-            "area_factor": f"{number(sm['area_factor_min'], 3)} to {number(sm['area_factor_max'], 3)}",
+            "density_altitude": f"{number(sm['density_altitude_m_min'], 0)}…{number(sm['density_altitude_m_max'], 0)} m",
+            "area_factor": f"{number(sm['area_factor_min'], 3)}…{number(sm['area_factor_max'], 3)}",
             "area_factor_mean": number(sm["area_factor_mean"], 3),
-            "power": number(e["power_vs_reference_pct"], 1, "%", signed=True),
+            "power": number(e["power_vs_reference_pct"], 0, "%"),
         })
     circuits = []
     for key, label in CIRCUITS:
@@ -123,19 +123,20 @@ def sheet_rows(entries: list[dict]) -> dict:
         if key in ("main_jet", "pilot_jet"):
             detail = f"family {s0['family']}"
         elif key == "clip":
+            title = "Needle clip groove"
             detail = f"needle {s0['needle']}, {s0['grooves']} grooves, 1 = top"
         elif key == "mixture_screw":
-            title = f"{'Air' if s0['kind'] == 'air' else 'Fuel'} screw"
-            detail = f"usable {turns(s0['usable_range'][0])}–{turns(s0['usable_range'][1])} turns out"
+            title = f"{'Air' if s0['kind'] == 'air' else 'Fuel'} screw, turns out"
+            detail = f"usable {turns(s0['usable_range'][0])}–{turns(s0['usable_range'][1])} turns"
         cells = []
         for e in entries:
             s = e["settings"][key]
             cells.append({
-                "recommended": _circuit_recommended(key, s), "change": s["change"],
+                "recommended": _circuit_recommended(key, s, unit=False), "change": s["change"],
                 "changed": _changed(key, s), "stock": _stock_text(key, s),
                 "short": key in ("main_jet", "pilot_jet") and s.get("steps", 0) != 0 and s.get("in_stock") is False,
             })
-        circuits.append({"key": key, "label": title, "detail": detail, "current": _circuit_current(key, s0), "cells": cells})
+        circuits.append({"key": key, "label": title, "detail": detail, "current": _circuit_current(key, s0, unit=False), "cells": cells})
     float_levels = [e["settings"].get("float_level_mm") for e in entries]
     rejet = []
     for e in entries:
