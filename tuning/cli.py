@@ -251,12 +251,30 @@ def cmd_plan(args) -> int:
 
 # --- build -----------------------------------------------------------------------------
 def add_build_parser(sub) -> None:
-    p = sub.add_parser("build", help="build setup sheets and the fleet report")
+    p = sub.add_parser(
+        "build", help="build setup sheets and the fleet report",
+        description="Plan every bike for every session and build the output folder: index.html, "
+        "sheets/<bike>.html and .pdf (one printed page per bike), fleet-summary.html and .pdf, "
+        "print-pack.pdf, recommendations.json/.csv, pick-list.csv and the executed notebooks. "
+        "The folder is built beside DIR and moved into place at the end: a failed build leaves "
+        "the previous output as it was (exit 1).")
+    p.add_argument("fleet", metavar="FLEET", help="fleet file (YAML)")
+    p.add_argument("event", metavar="EVENT", help="event file (YAML)")
+    p.add_argument("--out", metavar="DIR", required=True, help="output folder (replaced when the build succeeds)")
+    p.add_argument("--paper", choices=("a4", "letter"), default="a4", help="paper size of the PDFs (default a4)")
+    p.add_argument("--quiet", action="store_true", help="no progress bar and no summary line")
+    p.add_argument("--workers", type=int, default=2, metavar="N",
+                   help="notebook kernels rendering sheets in parallel (default 2)")
     p.set_defaults(func=cmd_build)
 
 
 def cmd_build(args) -> int:
-    raise NotImplementedError("carbfleet build")
+    from tuning.report import build
+
+    result = build(args.fleet, args.event, args.out, paper=args.paper, quiet=args.quiet, workers=args.workers)
+    if not args.quiet:
+        print(result.summary_line())
+    return EXIT_OK
 
 
 # --- main ------------------------------------------------------------------------------
