@@ -1,0 +1,334 @@
+"""Tests of tuning.plan against independent computation.
+
+* Air densities for the expected jets come from CoolProp (HAPropsSI, humid-air model of
+  Herrmann, Kretzschmar and Gatley, ASHRAE RP-1485), not from tuning.air.
+* The metering law is written out here from DESIGN.md section 3, not taken from tuning.carb.
+* Directions of change are facts of the trade (common practice).
+"""
+
+from __future__ import annotations
+
+import json
+import math
+from dataclasses import replace
+from pathlib import Path
+
+import jsonschema
+import numpy as np
+import pytest
+from CoolProp.HumidAirProp import HAPropsSI
+from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
+
+import plan_fixtures as pf
+from tuning import plan
+from tuning.errors import UserError
+
+pytestmark = pytest.mark.filterwarnings("ignore::UserWarning")
+
+SCHEMA = json.loads((Path(plan.__file__).parent / "schemas" / "recommendations.schema.json").read_text())
+
+
+def coolprop_densities(celsius, pressure, relative_humidity):
+    """(moist-air density, dry-air partial density) [kg/m³] from CoolProp."""
+    t = 273.15 + celsius
+    moist = 1.0 / HAPropsSI("Vha", "T", t, "P", pressure, "R", relative_humidity)
+    dry = 1.0 / HAPropsSI("Vda", "T", t, "P", pressure, "R", relative_humidity)
+    return moist, dry
+
+
+def isa_pressure(elevation):
+    # ISA barometric formula (US Standard Atmosphere 1976, troposphere), station pressure [Pa]
+    return 101325.0 * (1 - 2.25577e-5 * elevation) ** 5.25588
+
+
+def expected_ideal_diameter_jet(current, reference, event):
+    """DESIGN.md section 3: A_e/A_r = (rho_d,e/rho_d,r) sqrt(rho_m,r/rho_m,e); d ~ sqrt(A)."""
+    m_r, d_r = coolprop_densities(*reference)
+    m_e, d_e = coolprop_densities(*event)
+    area_ratio = (d_e / d_r) * math.sqrt(m_r / m_e)
+    return current * math.sqrt(area_ratio)
+
+
+def one_bike_plan(bike_kwargs=None, reference=None, **event_kwargs):
+    reference = reference or pf.conditions()
+    bike = pf.bike("R01", "TS-250", reference, **(bike_kwargs or {}))
+    return plan.make_plan(pf.fleet((bike,), reference=reference), pf.event(**event_kwargs))
+
+
+# --- the ideal main jet against CoolProp -----------------------------------------------------
+CASES = [
+    # (reference C, Pa, RH), (event elevation m, C, RH); reference fixed at sea level, 20 °C
+    pytest.param((20.0, 101325.0, 0.5), (1500.0, 15.0, 0.5), id="1500m-15C-50%"),
+    pytest.param((20.0, 101325.0, 0.5), (2500.0, 5.0, 0.3), id="2500m-5C-30%"),
+    pytest.param((20.0, 101325.0, 0.5), (800.0, 32.0, 0.8), id="800m-32C-80%"),
+    pytest.param((20.0, 101325.0, 0.5), (0.0, 20.0, 0.5), id="same-as-reference"),
+    pytest.param((10.0, 101325.0, 0.2), (3000.0, 25.0, 0.6), id="3000m-25C-60%"),
+]
+
+
+@pytest.mark.parametrize("reference, event", CASES)
+def test_ideal_main_jet_matches_coolprop_and_the_metering_law(reference, event):
+    elevation, celsius, rh = event
+    pressure = isa_pressure(elevation)
+    ref = pf.conditions(celsius=reference[0], pressure=reference[1], relative_humidity=reference[2])
+    doc = one_bike_plan(reference=ref, elevation=elevation, celsius=celsius, relative_humidity=rh, pressure=pressure)
+    main = doc["entries"][0]["settings"]["main_jet"]
+    expected = expected_ideal_diameter_jet(160.0, reference, (celsius, pressure, rh))
+    # tolerance: the document prints 0.1; CIPM-2007 and CoolProp agree to ~1e-4 in density
+    assert main["ideal"] == pytest.approx(expected, abs=0.12)
+    sizes = np.array(pf.FAMILIES["main-round"].sizes)
+    below = sizes[sizes <= expected].max()
+    above = sizes[sizes >= expected].min()
+    assert main["recommended"] in (below, above)
+    # never leaner than half a step below the ideal
+    assert main["recommended"] >= expected - (above - below) / 2 - 1e-9
+
+
+def test_rule_of_thumb_dry_density_ratio_081():
+    # common practice worked example: dry-air density ratio 0.81 moves a diameter-coded 160
+    # main to about 152 (0.81**0.25 * 160 = 151.8). Dry air (RH 0), same temperature, station
+    # pressure ratio 0.81 gives the density ratio 0.81 (ideal gas; CIPM Z differs by < 1e-4).
+    ref = pf.conditions(celsius=20.0, pressure=100000.0, relative_humidity=0.0)
+    doc = one_bike_plan(reference=ref, elevation=1800.0, celsius=20.0, relative_humidity=0.0, pressure=81000.0)
+    main = doc["entries"][0]["settings"]["main_jet"]
+    assert main["ideal"] == pytest.approx(0.81**0.25 * 160, abs=0.1)
+    assert main["recommended"] == 152  # between 150 and 152: the richer
+
+
+# --- directions (common practice) --------------------------------------------------------------
+def main_ideal(**kwargs):
+    return one_bike_plan(**kwargs)["entries"][0]["settings"]["main_jet"]["ideal"]
+
+
+def test_higher_site_needs_a_smaller_jet():
+    assert main_ideal(elevation=2000.0) < main_ideal(elevation=500.0)
+
+
+def test_hotter_air_needs_a_smaller_jet():
+    assert main_ideal(celsius=30.0) < main_ideal(celsius=5.0)
+
+
+def test_more_humid_air_needs_a_smaller_jet():
+    assert main_ideal(relative_humidity=0.9) < main_ideal(relative_humidity=0.1)
+
+
+def test_e10_instead_of_e0_needs_a_larger_jet():
+    assert main_ideal(fuel="E10") > main_ideal(fuel=None)
+
+
+def test_more_premix_oil_needs_a_larger_jet():
+    # oil counted as non-fuel (the default): 20:1 carries less fuel than the proven 40:1
+    from tuning import air
+
+    state = air.air_state(288.15, 90000.0, relative_humidity=0.5)
+    ref = air.air_state(293.15, 101325.0, relative_humidity=0.5)
+    e0 = pf.FUELS["E0"]
+    same = plan.required_area_factor(state, ref, e0, e0, premix_ratio=40.0)
+    more_oil = plan.required_area_factor(state, ref, e0, e0, premix_ratio=20.0, reference_premix_ratio=40.0)
+    assert more_oil > same
+
+
+def test_between_two_sizes_the_richer():
+    # the reference's own conditions: factor 1, so the ideal is the fitted 151 exactly halfway
+    # between the family's 150 and 152
+    doc = one_bike_plan(bike_kwargs={"main_jet": 151.0}, elevation=0.0, celsius=20.0, relative_humidity=0.5,
+                        pressure=101325.0)
+    main = doc["entries"][0]["settings"]["main_jet"]
+    assert main["ideal"] == pytest.approx(151.0, abs=0.05)
+    assert main["recommended"] == 152
+    assert main["direction"] == "richer"
+
+
+def test_air_and_fuel_screws_turn_opposite_ways_for_the_same_need():
+    moved = 0
+    for elevation in (600.0, 900.0, 1200.0, 1700.0, 2300.0):
+        air_bike = pf.bike("A", "TS-250", pf.conditions(), mixture_screw=pf.settings(screw_kind="air", turns=2.0).mixture_screw)
+        fuel_bike = pf.bike("F", "TS-250", pf.conditions(), mixture_screw=pf.settings(screw_kind="fuel", turns=2.0).mixture_screw)
+        doc = plan.make_plan(pf.fleet((air_bike, fuel_bike)), pf.event(elevation=elevation))
+        a, f = (e["settings"]["mixture_screw"] for e in doc["entries"])
+        assert a["change_turns"] == -f["change_turns"]
+        assert a["direction"] == f["direction"]
+        if a["change_turns"]:
+            moved += 1
+            assert ("out" in a["change"]) != ("out" in f["change"])
+    assert moved >= 1
+
+
+def test_clip_richer_when_the_needle_must_deliver_more():
+    # at the reference's own elevation but much colder air, more fuel is needed: the clip never
+    # moves leaner; higher groove numbers are richer (common practice)
+    doc = one_bike_plan(elevation=0.0, celsius=-5.0, pressure=101325.0)
+    clip = doc["entries"][0]["settings"]["clip"]
+    assert clip["recommended"] >= clip["current"]
+    assert clip["assumed_geometry"] is False
+
+
+# --- properties (hypothesis, modest counts) ------------------------------------------------------
+@settings(max_examples=25, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@given(low=st.floats(0.0, 3000.0), step=st.floats(50.0, 1000.0), celsius=st.floats(-10.0, 35.0))
+def test_recommended_main_is_monotone_in_elevation(low, step, celsius):
+    a = one_bike_plan(elevation=low, celsius=celsius)["entries"][0]["settings"]["main_jet"]["recommended"]
+    b = one_bike_plan(elevation=low + step, celsius=celsius)["entries"][0]["settings"]["main_jet"]["recommended"]
+    assert b <= a
+
+
+@settings(max_examples=25, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@given(celsius=st.floats(-15.0, 35.0), warmer=st.floats(1.0, 20.0), elevation=st.floats(0.0, 3000.0))
+def test_recommended_main_is_monotone_in_temperature(celsius, warmer, elevation):
+    a = one_bike_plan(elevation=elevation, celsius=celsius)["entries"][0]["settings"]["main_jet"]["recommended"]
+    b = one_bike_plan(elevation=elevation, celsius=celsius + warmer)["entries"][0]["settings"]["main_jet"]["recommended"]
+    assert b <= a
+
+
+@settings(max_examples=30, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@given(
+    elevation=st.floats(0.0, 4500.0),
+    celsius=st.floats(-15.0, 35.0),
+    spread=st.floats(0.0, 30.0),
+    main=st.sampled_from([110.0, 140.0, 160.0, 200.0, 218.0]),
+)
+def test_mixture_never_leaner_than_half_a_step(elevation, celsius, spread, main):
+    doc = one_bike_plan(bike_kwargs={"main_jet": main}, elevation=elevation, celsius=celsius, spread=spread)
+    entry = doc["entries"][0]
+    jet = entry["settings"]["main_jet"]
+    if any(w["code"] == "ideal-outside-family" for w in entry["warnings"]):
+        return  # the family runs out of sizes: warned instead
+    sizes = np.array(pf.FAMILIES["main-round"].sizes)
+    chosen = jet["recommended"]
+    larger = sizes[sizes > chosen]
+    half = ((larger.min() if larger.size else chosen + 2.0) - chosen) / 2
+    for hour in entry["hours"]:
+        ideal = main * math.sqrt(hour["area_factor"])  # diameter coding, written out
+        # predicted AFR / reference AFR = (ideal/chosen)^2; allowed lean: half a step
+        assert (ideal / chosen) ** 2 <= ((chosen + half) / chosen) ** 2 + 2e-4
+
+
+# --- warnings -----------------------------------------------------------------------------------
+def codes(doc, i=0):
+    return {w["code"] for w in doc["entries"][i]["warnings"]}
+
+
+def test_factor_out_of_range_warns():
+    assert "factor-out-of-range" in codes(one_bike_plan(elevation=3800.0, celsius=30.0))
+    assert "factor-out-of-range" not in codes(one_bike_plan(elevation=500.0))
+
+
+def test_wide_window_warns():
+    assert "window-too-wide" in codes(one_bike_plan(elevation=1500.0, spread=35.0, hours=10))
+    assert "window-too-wide" not in codes(one_bike_plan(elevation=1500.0, spread=0.0))
+
+
+def test_stock_shortage_warns_and_fills_the_pick_list():
+    bike = pf.bike("R01", "TS-250", pf.conditions())
+    doc = plan.make_plan(pf.fleet((bike,), stock={("main-round", 120.0): 1}), pf.event(elevation=1500.0))
+    entry = doc["entries"][0]
+    main = entry["settings"]["main_jet"]
+    assert "stock-shortage" in codes(doc)
+    assert main["in_stock"] is False
+    assert main["stock_choice"] in (160, 120)  # the fitted jet or a shelf jet
+    row = next(p for p in doc["pick_list"] if p["family"] == "main-round")
+    assert row == {"family": "main-round", "size": main["recommended"], "needed": 1, "in_stock": 0, "short": 1}
+    assert doc["pick_list"][0]["short"] >= 1  # shortages first
+
+
+def test_cold_hot_and_icing_notes():
+    cold = one_bike_plan(elevation=1000.0, celsius=1.0, relative_humidity=0.95)
+    assert {"cold-start", "icing-risk"} <= codes(cold)
+    assert any("Choke" in c for c in cold["entries"][0]["checks"])
+    hot = one_bike_plan(elevation=500.0, celsius=36.0, relative_humidity=0.2)
+    assert "hot-fuel" in codes(hot)
+
+
+def test_assumed_needle_and_pump_checks():
+    doc = plan.make_plan(pf.fleet(), pf.event(elevation=1500.0))
+    by_bike = {e["bike"]: e for e in doc["entries"]}
+    assert by_bike["R03"]["settings"]["clip"]["assumed_geometry"] is True
+    assert "assumed-needle-geometry" in {w["code"] for w in by_bike["R03"]["warnings"]}
+    assert any("Accelerator pump" in c for c in by_bike["R02"]["checks"])
+    assert any("8.0 mm" in c for c in by_bike["R02"]["checks"])
+
+
+def test_screw_out_of_range_changes_the_pilot():
+    # an air screw already at the lean end of its range (3 turns out) while the site needs less
+    # fuel: turning further out is not possible -> next smaller pilot, screw back in range
+    screw = pf.settings(screw_kind="air", turns=3.0).mixture_screw
+    doc = one_bike_plan(bike_kwargs={"mixture_screw": screw}, elevation=1400.0)
+    entry = doc["entries"][0]
+    s = entry["settings"]["mixture_screw"]
+    assert 1.0 <= s["recommended_turns"] <= 3.0
+    if s["recommended_turns"] == 3.0 and s["change_turns"] == 0:
+        return
+    assert "screw-out-of-range" in codes(doc) or s["change_turns"] <= 0
+
+
+def test_rejet_temperatures_bracket_the_session_and_hold():
+    doc = one_bike_plan(elevation=1500.0, celsius=15.0)
+    entry = doc["entries"][0]
+    rj = entry["rejet_temperatures_C"]
+    assert rj["below"] < 15.0 < rj["above"]
+    colder = one_bike_plan(elevation=1500.0, celsius=rj["below"] - 0.3)
+    warmer = one_bike_plan(elevation=1500.0, celsius=rj["above"] + 0.3)
+    assert colder["entries"][0]["settings"]["main_jet"]["recommended"] == rj["below_jet"]
+    assert warmer["entries"][0]["settings"]["main_jet"]["recommended"] == rj["above_jet"]
+
+
+def test_mixture_curve_shape_and_current_leaner_at_altitude():
+    entry = one_bike_plan(elevation=2000.0)["entries"][0]
+    curve = entry["mixture_curve"]
+    assert curve["throttle"] == pytest.approx([i / 20 for i in range(21)])
+    assert len(curve["current_afr"]) == len(curve["recommended_afr"]) == 21
+    # at altitude the unchanged settings run rich (lower AFR than the reference)
+    assert max(curve["current_afr"]) < curve["reference_afr"]
+    assert 0 < entry["power_vs_reference_pct"] < 100
+
+
+def test_weather_not_covering_a_session_is_a_user_error():
+    ev = pf.event()
+    late = replace(ev.sessions[0], end=ev.sessions[0].end.replace(hour=23))
+    with pytest.raises(UserError, match="extend the weather table"):
+        plan.make_plan(pf.fleet(), replace(ev, sessions=(late,)))
+
+
+def test_session_hours_are_whole_hours_plus_the_ends():
+    ev = pf.event()
+    s = replace(ev.sessions[0], start=ev.sessions[0].start.replace(minute=30))
+    hours = plan.session_hours(s)
+    assert hours[0] == int(s.start.timestamp()) and hours[-1] == int(s.end.timestamp())
+    assert np.all(hours[1:-1] % 3600 == 0)
+    assert np.all(np.diff(hours) > 0)
+
+
+# --- the document and the files ----------------------------------------------------------------------
+def test_document_validates_against_the_schema():
+    fleet = pf.fleet(stock={("main-round", 150.0): 1, ("pilot", 37.5): 2})
+    ev = pf.event(elevation=1800.0, hours=5, spread=6.0)
+    doc = plan.make_plan(fleet, ev)
+    jsonschema.validate(doc, SCHEMA, format_checker=jsonschema.FormatChecker())
+    assert doc["format"] == "carbfleet-plan/1"
+    assert [e["bike"] for e in doc["entries"]] == ["R01", "R02", "R03"]
+    assert doc["warnings_count"] == sum(len(e["warnings"]) for e in doc["entries"])
+    assert doc["entries"][0]["start"].endswith("-06:00")  # site local time with offset
+
+
+def test_files_and_csv_rows(tmp_path):
+    doc = plan.make_plan(pf.fleet(), pf.event(elevation=1500.0))
+    paths = plan.write_plan_files(doc, tmp_path)
+    assert [p.name for p in paths] == ["recommendations.json", "recommendations.csv", "pick-list.csv"]
+    assert json.loads(paths[0].read_text(encoding="utf-8")) == doc
+    rows = paths[1].read_text(encoding="utf-8").splitlines()
+    assert rows[0].split(",")[:3] == ["bike", "model", "session"]
+    assert "station_pressure_hPa_mean" in rows[0] and "main_jet_recommended" in rows[0]
+    assert len(rows) == 1 + len(doc["entries"])
+    assert paths[2].read_text(encoding="utf-8").splitlines()[0] == "family,size,needed,in_stock,short"
+
+
+def test_regression_two_runs_are_byte_identical(tmp_path):
+    # regression/determinism check (not validation): same inputs, same bytes
+    fleet = pf.fleet(stock={("main-round", 150.0): 1})
+    outputs = []
+    for run in ("a", "b"):
+        doc = plan.make_plan(fleet, pf.event(elevation=1700.0, spread=8.0))
+        paths = plan.write_plan_files(doc, tmp_path / run)
+        outputs.append([p.read_bytes() for p in paths])
+    assert outputs[0] == outputs[1]
