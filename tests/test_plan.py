@@ -249,17 +249,23 @@ def test_assumed_needle_and_pump_checks():
     assert any("8.0 mm" in c for c in by_bike["R02"]["checks"])
 
 
-def test_screw_out_of_range_changes_the_pilot():
-    # an air screw already at the lean end of its range (3 turns out) while the site needs less
-    # fuel: turning further out is not possible -> next smaller pilot, screw back in range
-    screw = pf.settings(screw_kind="air", turns=3.0).mixture_screw
-    doc = one_bike_plan(bike_kwargs={"mixture_screw": screw}, elevation=1400.0)
-    entry = doc["entries"][0]
-    s = entry["settings"]["mixture_screw"]
+@pytest.mark.parametrize("elevation", [0.0, 1400.0, 2500.0])
+def test_screw_left_outside_its_range_is_brought_back_with_a_warning(elevation):
+    # a fuel screw found at 5 turns out, usable range 1..3 (common practice): never recommend
+    # a position outside the range; say so
+    screw = pf.settings(screw_kind="fuel", turns=5.0).mixture_screw
+    doc = one_bike_plan(bike_kwargs={"mixture_screw": screw}, elevation=elevation)
+    s = doc["entries"][0]["settings"]["mixture_screw"]
     assert 1.0 <= s["recommended_turns"] <= 3.0
-    if s["recommended_turns"] == 3.0 and s["change_turns"] == 0:
-        return
-    assert "screw-out-of-range" in codes(doc) or s["change_turns"] <= 0
+    assert "screw-out-of-range" in codes(doc)
+    assert s["change"].startswith("fuel screw") and " in: leaner" in s["change"]
+
+
+def test_assumed_screw_range_is_flagged():
+    screw = pf.settings(range_assumed=True).mixture_screw
+    doc = one_bike_plan(bike_kwargs={"mixture_screw": screw})
+    assert "assumed-screw-range" in codes(doc)
+    assert doc["entries"][0]["settings"]["mixture_screw"]["range_assumed"] is True
 
 
 def test_rejet_temperatures_bracket_the_session_and_hold():

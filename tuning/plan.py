@@ -653,16 +653,23 @@ def make_plan(fleet, event) -> dict:
     screw_now = np.array([s.mixture_screw.turns for s in settings], float)
     screw_lo = np.array([s.mixture_screw.usable_range[0] for s in settings], float)
     screw_hi = np.array([s.mixture_screw.usable_range[1] for s in settings], float)
-    quarter = np.arange(-16, 17) / 4.0  # candidate changes [turns]
+    quarter = np.arange(-32, 33) / 4.0  # candidate changes [turns]
     effect = carb.ASSUMED_SCREW_EFFECT_PER_TURN
+    richness = screw_sign[:, None] * quarter[None, :]  # larger = richer
+    order = np.argsort(richness, axis=1, kind="stable")  # candidates from leanest to richest
+    new_turns = screw_now[:, None] + quarter[None, :]
+    in_range = (new_turns >= screw_lo[:, None] - 1e-9) & (new_turns <= screw_hi[:, None] + 1e-9)
 
-    def trim(pilot_delivered):
-        screw_factor = (1.0 + effect) ** (screw_sign[:, None] * quarter[None, :])  # (R, Q)
+    def trim(pilot_delivered, constrained):
+        """Best quarter-turn change and its window loss; exact ties to the richer side."""
+        screw_factor = (1.0 + effect) ** richness  # (R, Q)
         loss = wl(pilot_delivered[:, None] * screw_factor)
-        richness = screw_sign[:, None] * quarter[None, :]  # larger = richer
-        order = np.argsort(richness, axis=1, kind="stable")
-        best = _argmin_richer(np.take_along_axis(loss, order, axis=1))
-        return quarter[np.take_along_axis(order, best[:, None], axis=1)[:, 0]]
+        if constrained:
+            loss = np.where(in_range, loss, np.inf)
+        loss = np.take_along_axis(loss, order, axis=1)
+        best = _argmin_richer(loss)
+        pick = np.take_along_axis(order, best[:, None], axis=1)[:, 0]
+        return quarter[pick], loss[np.arange(len(pick)), best]
 
     pilot_coding = np.array([fleet.jet_families[f].coding for f in pilot["family"]], object) if n_rows else np.array([], object)
 
@@ -671,32 +678,36 @@ def make_plan(fleet, event) -> dict:
             pilot_coding == "diameter", (recommended / current) ** 2, recommended / current
         )
 
-    screw_change = trim(pilot_factor(pilot["current"], pilot["recommended"])) if n_rows else np.zeros(0)
-    screw_new = screw_now + screw_change
-    screw_out = (screw_new < screw_lo - 1e-9) | (screw_new > screw_hi + 1e-9)
+    # Unconstrained trim first; where it leaves the usable range, compare the screw at its
+    # best in-range position (A) with the next pilot size toward the need plus its best
+    # in-range screw (B), and take the smaller loss. A warning names what happened.
     pilot_bumped = np.zeros(n_rows, bool)
     screw_clamped = np.zeros(n_rows, bool)
-    screw_wanted = screw_new.copy()
-    if screw_out.any():
-        for r in np.flatnonzero(screw_out):
-            sizes = np.asarray(fleet.jet_families[pilot["family"][r]].sizes, float)
-            need_richer = screw_sign[r] * screw_change[r] > 0 if screw_new[r] != screw_now[r] else (
-                screw_sign[r] * (screw_new[r] - np.clip(screw_new[r], screw_lo[r], screw_hi[r])) > 0
-            )
-            j = pilot["index"][r] + (1 if need_richer else -1)
-            if 0 <= j < len(sizes):
-                pilot["index"][r] = j
-                pilot["recommended"][r] = sizes[j]
-                pilot_bumped[r] = True
-        if pilot_bumped.any():
-            rows = np.flatnonzero(pilot_bumped)
-            redo = trim(pilot_factor(pilot["current"], pilot["recommended"]))
-            screw_change[rows] = redo[rows]
-            screw_new = screw_now + screw_change
-        still = (screw_new < screw_lo - 1e-9) | (screw_new > screw_hi + 1e-9)
-        screw_clamped = still
-        screw_new = np.where(still, np.clip(screw_new, screw_lo, screw_hi), screw_new)
-        screw_change = screw_new - screw_now
+    if n_rows:
+        base_delivered = pilot_factor(pilot["current"], pilot["recommended"])
+        wanted, _ = trim(base_delivered, constrained=False)
+        screw_wanted = screw_now + wanted
+        outside = (screw_wanted < screw_lo - 1e-9) | (screw_wanted > screw_hi + 1e-9)
+        screw_change, loss_a = trim(base_delivered, constrained=True)
+        if outside.any():
+            bumped_index = pilot["index"].copy()
+            bumped_size = pilot["recommended"].copy()
+            possible = np.zeros(n_rows, bool)
+            for r in np.flatnonzero(outside):
+                sizes = np.asarray(fleet.jet_families[pilot["family"][r]].sizes, float)
+                j = pilot["index"][r] + (1 if screw_sign[r] * wanted[r] > 0 else -1)
+                if 0 <= j < len(sizes):
+                    bumped_index[r], bumped_size[r], possible[r] = j, sizes[j], True
+            change_b, loss_b = trim(pilot_factor(pilot["current"], bumped_size), constrained=True)
+            take_b = outside & possible & (loss_b < loss_a)
+            pilot["index"] = np.where(take_b, bumped_index, pilot["index"])
+            pilot["recommended"] = np.where(take_b, bumped_size, pilot["recommended"])
+            screw_change = np.where(take_b, change_b, screw_change)
+            pilot_bumped = take_b
+            screw_clamped = outside & ~take_b & (np.abs(screw_now + screw_change - screw_wanted) > 0.5 + 1e-9)
+        screw_new = screw_now + screw_change
+    else:
+        screw_change = screw_new = screw_wanted = np.zeros(0)
     screw_delivered = (1.0 + effect) ** (screw_sign * screw_change) if n_rows else np.zeros(0)
     pilot_delivered = pilot_factor(pilot["current"], pilot["recommended"]) * screw_delivered if n_rows else np.zeros(0)
 
@@ -1041,8 +1052,9 @@ def make_plan(fleet, event) -> dict:
                 warnings.append(
                     {
                         "code": "screw-out-of-range",
-                        "message": f"Even after the pilot jet, the {ms.kind} screw would leave its usable range: it is set to "
-                        f"{round(float(screw_new[r]), 2)} turns (the range limit); the idle mixture may be off — check idle.",
+                        "message": f"The {ms.kind} screw would need {round(float(screw_wanted[r]), 2)} turns, outside its usable "
+                        f"range {ms.usable_range[0]:g}..{ms.usable_range[1]:g}, and no pilot size does better: it is set to "
+                        f"{round(float(screw_new[r]), 2)} turns; the idle mixture may be off — check the idle.",
                     }
                 )
             if ms.range_assumed:
