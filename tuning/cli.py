@@ -238,12 +238,14 @@ def cmd_plan(args) -> int:
     print(f"{plan['fleet']} at {plan['event']} ({plan['site']['name']}, {plan['site']['elevation_m']:g} m): "
           f"{len({e['bike'] for e in entries})} bikes x {len(plan['sessions'])} sessions, "
           f"{changed} with changes, {plan['warnings_count']} warnings, {short} jets short")
-    for e in entries:
+    for e in entries[:40]:
         m, pj = e["settings"]["main_jet"], e["settings"]["pilot_jet"]
         print(f"  {e['bike']:<10} {e['session']:<14} main {m['current']}->{m['recommended']}  "
               f"pilot {pj['current']}->{pj['recommended']}  clip {e['settings']['clip']['current']}->"
               f"{e['settings']['clip']['recommended']}  factor {e['summary']['area_factor_mean']}"
               + (f"  [{', '.join(sorted({w['code'] for w in e['warnings']}))}]" if e["warnings"] else ""))
+    if len(entries) > 40:
+        print(f"  ... and {len(entries) - 40} more rows in recommendations.csv")
     for path in paths:
         print(f"wrote {path}")
     return EXIT_OK
