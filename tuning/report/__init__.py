@@ -40,6 +40,7 @@ WARNING_CODES = {
     "assumed-screw-range": "the mixture screw's usable range was assumed, not given",
 }
 
+from tuning.report.tables import turns as turns_text  # noqa: E402
 from tuning.report.render import (  # noqa: E402
     FleetReport,
     SheetBatch,
@@ -65,5 +66,5 @@ def build_from_plan(*args, **kwargs):
 
 __all__ = [
     "CAUTIONS", "WARNING_CODES", "FleetReport", "SheetBatch", "load_plan", "render_fleet_report",
-    "render_setup_sheets", "build", "build_from_plan",
+    "render_setup_sheets", "build", "build_from_plan", "turns_text",
 ]

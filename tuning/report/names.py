@@ -23,8 +23,9 @@ def safe_stem(bike_id: str) -> str:
     text = re.sub(r"\.{2,}", ".", text)[:80].rstrip(". ")
     if not text:
         text = "bike"
-    if text.split(".")[0].upper() in _RESERVED:
-        text += "_"
+    base, dot, rest = text.partition(".")
+    if base.upper() in _RESERVED:
+        text = f"{base}_{dot}{rest}"
     return text
 
 

@@ -194,6 +194,7 @@ def build_from_plan(plan: dict, out_dir: str | Path, paper: str = "a4", quiet: b
         raise UserError(f"--out: {out} is a file; give a folder")
     out.parent.mkdir(parents=True, exist_ok=True)
     tmp = Path(tempfile.mkdtemp(prefix=f".{out.name}.building-", dir=out.parent))
+    step = "plan files"
     try:
         bikes = list(tables.entries_by_bike(plan))
         names = safe_file_names(bikes)
@@ -208,7 +209,9 @@ def build_from_plan(plan: dict, out_dir: str | Path, paper: str = "a4", quiet: b
         html_names = [n.replace(".ipynb", ".html") for n in ["fleet-report.ipynb", *sheet_notebooks]]
         jobs = [("fleet-report.ipynb", "fleet-report.ipynb", {**common, "notebooks": html_names})]
         jobs += [("setup-sheets.ipynb", name, {**common, "bikes": part}) for name, part in zip(sheet_notebooks, parts)]
+        step = "notebooks"
         _run_jobs(jobs, tmp, bikes, names, quiet)
+        step = "notebook export to HTML"
         exporter = _Exporter()
         for _src, name, _params in jobs:
             nb = _clean_notebook(tmp / "notebooks" / name)
@@ -218,15 +221,17 @@ def build_from_plan(plan: dict, out_dir: str | Path, paper: str = "a4", quiet: b
         missing = [b for b in bikes if not (tmp / "sheets" / f"{names[b]}.pdf").exists()]
         if missing:
             raise BuildError(f"setup sheet of bike {missing[0]!r} was not written")
+        step = "print pack"
         _merge_pdfs([tmp / "fleet-summary.pdf", *(tmp / "sheets" / f"{names[b]}.pdf" for b in bikes)],
                     tmp / "print-pack.pdf", plan["sessions"][0]["start"] if plan["sessions"] else "2000-01-01",
                     f"Print pack · {plan['event']}")
+        step = "moving the finished folder into place"
         _replace(tmp, out)
     except BaseException as exc:
         shutil.rmtree(tmp, ignore_errors=True)
         if isinstance(exc, CarbfleetError) or not isinstance(exc, Exception):
             raise
-        raise BuildError(f"build failed: {type(exc).__name__}: {exc}") from exc
+        raise BuildError(f"build failed at step '{step}': {type(exc).__name__}: {exc}") from exc
     return BuildResult(out, len(bikes), int(plan.get("warnings_count", 0)),
                        time.perf_counter() - started, font_subsetter())
 

@@ -1,0 +1,194 @@
+"""tuning.report without the notebook build: file names, formatting, sheet and summary rendering.
+
+The plan documents come from tests/report_fixtures.py (invented values); these tests check that
+the report SHOWS what the plan holds, never physics.
+"""
+
+from __future__ import annotations
+
+import html
+import re
+from html.parser import HTMLParser
+from pathlib import Path
+
+import pypdf
+import pytest
+
+import report_fixtures
+from tuning.errors import UserError
+from tuning.report import CAUTIONS, WARNING_CODES, render, tables
+from tuning.report.names import safe_file_names, safe_stem
+
+# Windows reserved device names and characters: Microsoft, "Naming Files, Paths, and Namespaces"
+# (learn.microsoft.com, Win32 file I/O documentation).
+WINDOWS_RESERVED_CHARS = set('<>:"/\\|?*')
+WINDOWS_RESERVED_NAMES = {"CON", "PRN", "AUX", "NUL", "COM1", "COM9", "LPT1", "LPT9"}
+
+
+class CellReader(HTMLParser):
+    """Collect the text of every ``<td data-circuit=... data-session=...>`` of a sheet."""
+
+    def __init__(self):
+        super().__init__()
+        self.cells: dict[tuple[str, str], str] = {}
+        self._key = None
+        self._depth = 0
+
+    def handle_starttag(self, tag, attrs):
+        a = dict(attrs)
+        if tag == "td" and "data-circuit" in a:
+            self._key, self._depth = (a["data-circuit"], a["data-session"]), 0
+            self.cells[self._key] = ""
+        elif self._key and tag == "td":
+            self._depth += 1
+
+    def handle_endtag(self, tag):
+        if tag == "td" and self._key:
+            if self._depth == 0:
+                self._key = None
+            else:
+                self._depth -= 1
+
+    def handle_data(self, data):
+        if self._key:
+            self.cells[self._key] += data
+
+
+def read_cells(page: str) -> dict[tuple[str, str], str]:
+    reader = CellReader()
+    reader.feed(page)
+    return reader.cells
+
+
+@pytest.mark.parametrize("bike_id", ["../x", "..", "a/b\\c", "<b>T1</b>", "CON", "nul.txt", "T:1?*|\"", " .hidden", "Ærø-7", ""])
+def test_safe_stem_is_a_plain_file_name(bike_id):
+    stem = safe_stem(bike_id)
+    assert stem and stem not in (".", "..") and ".." not in stem
+    assert not set(stem) & WINDOWS_RESERVED_CHARS and "\x00" not in stem
+    assert stem.split(".")[0].upper() not in WINDOWS_RESERVED_NAMES
+    assert not stem.startswith(".") and not stem.endswith((".", " "))
+    assert re.fullmatch(r"[A-Za-z0-9._-]+", stem)
+
+
+def test_safe_file_names_resolve_collisions_case_insensitively():
+    ids = ["T/1", "T:1", "t_1", "T_1", "T2"]
+    names = safe_file_names(ids)
+    assert len({n.lower() for n in names.values()}) == len(ids)
+    assert names["T2"] == "T2"
+    # Independent of order: the same id gets the same name in another order.
+    assert safe_file_names(list(reversed(ids))) == names
+
+
+@pytest.mark.parametrize("value, text", [
+    (1.5, "1½"), (2.0, "2"), (0.25, "¼"), (2.75, "2¾"), (-0.5, "−½"), (1.3, "1.30"), (None, "–"),
+])
+def test_turns_in_quarters(value, text):  # common practice: screws are set in quarter turns
+    assert tables.turns(value) == text
+
+
+def test_window_is_site_local_time_as_given():
+    # 2026-06-13 is a Saturday (ISO 8601 calendar; Python's datetime as the reference).
+    assert tables.window("2026-06-13T08:00:00+01:00", "2026-06-13T09:30:00+01:00") == "Sat 13 Jun 08:00–09:30"
+
+
+@pytest.fixture(scope="module")
+def plan4():
+    return report_fixtures.make_plan(n_bikes=4, n_sessions=4)
+
+
+@pytest.mark.parametrize("paper, size_pt", [
+    ("a4", (595.28, 841.89)),  # ISO 216 A4: 210 x 297 mm = 595.28 x 841.89 pt (1 pt = 1/72 in)
+    ("letter", (612.0, 792.0)),  # ANSI/ASME Y14.1 letter: 8.5 x 11 in = 612 x 792 pt
+])
+def test_sheet_is_one_page_of_the_paper_with_four_sessions(plan4, tmp_path, paper, size_pt):
+    entries = tables.entries_by_bike(plan4)["T002"]
+    pages = render.write_sheet(plan4, entries, tmp_path / "s.html", tmp_path / "s.pdf", paper)
+    reader = pypdf.PdfReader(tmp_path / "s.pdf")
+    assert pages == len(reader.pages) == 1
+    box = reader.pages[0].mediabox
+    assert float(box.width) == pytest.approx(size_pt[0], abs=0.05)
+    assert float(box.height) == pytest.approx(size_pt[1], abs=0.05)
+
+
+def test_crowded_sheet_still_fits_one_page(plan4, tmp_path):
+    entries = [dict(e) for e in tables.entries_by_bike(plan4)["T001"]]
+    for i, e in enumerate(entries):  # every warning code, long messages, two differing by session
+        e["warnings"] = [{"code": code, "message": f"{text}; " * 2 + (f"session {i}" if k < 2 else "")}
+                         for k, (code, text) in enumerate(WARNING_CODES.items())]
+    assert render.write_sheet(plan4, entries, tmp_path / "s.html", tmp_path / "s.pdf", "letter") == 1
+    text = pypdf.PdfReader(tmp_path / "s.pdf").pages[0].extract_text()
+    assert "screw-out-of-range" in text and "window-too-wide" in text  # nothing dropped
+
+
+def test_sheet_html_shows_every_setting_of_the_plan(plan4):
+    for bike, entries in tables.entries_by_bike(plan4).items():
+        cells = read_cells(render.sheet_html(plan4, entries))
+        for e in entries:
+            s = e["settings"]
+            assert str(s["main_jet"]["recommended"]) in cells[("main_jet", e["session"])]
+            assert s["main_jet"]["change"] in cells[("main_jet", e["session"])]
+            assert str(s["pilot_jet"]["recommended"]) in cells[("pilot_jet", e["session"])]
+            assert str(s["clip"]["recommended"]) in cells[("clip", e["session"])]
+            assert tables.turns(s["mixture_screw"]["recommended_turns"]) in cells[("mixture_screw", e["session"])]
+            assert s["mixture_screw"]["change"] in cells[("mixture_screw", e["session"])]
+        assert str(entries[0]["settings"]["main_jet"]["current"]) in cells[("main_jet", "fitted")]
+
+
+def test_bike_id_is_escaped_everywhere(tmp_path):
+    plan = report_fixtures.make_plan(bike_ids=["<b>T1</b>", "../x"], n_sessions=1)
+    entries = tables.entries_by_bike(plan)["<b>T1</b>"]
+    page = render.sheet_html(plan, entries)
+    assert "<b>T1</b>" not in page
+    assert html.escape("<b>T1</b>") in page  # the reference escaper: Python's html.escape
+    summary = render.summary_html(plan)
+    assert "<b>T1</b>" not in summary and html.escape("<b>T1</b>") in summary
+
+
+def test_cautions_are_on_sheet_and_summary(plan4):
+    entries = tables.entries_by_bike(plan4)["T001"]
+    # DESIGN.md section 6, in substance: the key phrases must be there.
+    for phrase in ("Estimates only", "plug reading", "choose the richer", "seize", "cold engine",
+                   "service manual", "qualified mechanic", "baseline settings"):
+        assert phrase in CAUTIONS
+    assert html.escape(CAUTIONS, quote=False).replace("'", "&#39;") in render.sheet_html(plan4, entries)
+    assert html.escape(CAUTIONS, quote=False).replace("'", "&#39;") in render.summary_html(plan4)
+
+
+def test_summary_groups_identical_change_sets_and_lists_shortages_first(plan4):
+    rows = tables.summary_rows(plan4, safe_file_names([e["bike"] for e in plan4["entries"]]))
+    members = [b for batch in rows["batches"] for b in batch["bikes"]]
+    assert sorted(members) == sorted({e["bike"] for e in plan4["entries"]})
+    by_bike = tables.entries_by_bike(plan4)
+    for batch in rows["batches"]:
+        sets = {tables.change_set(by_bike[b]) for b in batch["bikes"]}
+        assert len(sets) == 1
+    shorts = [r["short"] > 0 for r in rows["pick_list"]]
+    assert shorts == sorted(shorts, reverse=True)
+
+
+def test_unknown_paper_is_a_user_error():
+    with pytest.raises(UserError, match="paper"):
+        render.page_css("a3", "")
+
+
+def test_unknown_bike_is_a_user_error(plan4, tmp_path):
+    with pytest.raises(UserError, match="not in the plan"):
+        render.render_setup_sheets(plan4, tmp_path, ["nope"])
+
+
+def test_no_network_resource_in_rendered_pages(plan4):
+    entries = tables.entries_by_bike(plan4)["T001"]
+    for page in (render.sheet_html(plan4, entries), render.summary_html(plan4), render.index_html(plan4, [])):
+        assert not re.search(r"""(src|href)\s*=\s*["']?\s*(https?:)?//""", page)
+        assert "@import" not in page and "<script" not in page
+        # Only XML namespace names may mention http: they are identifiers, not resources.
+        rest = re.sub(r'xmlns(:\w+)?="http://www\.w3\.org/[^"]*"', "", page)
+        assert "http://" not in rest and "https://" not in rest
+
+
+def test_every_warning_code_is_documented():
+    readme = Path(render.PROJECT_ROOT / "tuning" / "report" / "__init__.py").read_text(encoding="utf-8")
+    for code in ("factor-out-of-range", "ideal-outside-family", "stock-shortage", "screw-out-of-range",
+                 "window-too-wide", "icing-risk", "cold-start", "hot-fuel", "assumed-needle-geometry",
+                 "assumed-screw-range"):
+        assert code in WARNING_CODES and code in readme
