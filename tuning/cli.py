@@ -225,9 +225,15 @@ def cmd_plan(args) -> int:
     from tuning.config import load_event, load_fleet
     from tuning.plan import make_plan, write_plan_files
 
+    import warnings
+
     fleet = load_fleet(args.fleet)
     event = load_event(args.event, fleet)
-    plan = make_plan(fleet, event)
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        plan = make_plan(fleet, event)
+    for note in dict.fromkeys(str(w.message) for w in caught):  # one line each, no source echo
+        print(f"carbfleet plan: note: {note}", file=sys.stderr)
     paths = write_plan_files(plan, args.out)
     entries = plan["entries"]
     changed = sum(

@@ -1101,6 +1101,11 @@ def make_plan(fleet, event) -> dict:
                 checks.append("Accelerator pump: check the squirt (timing and amount).")
             if stats["t_min"] < CHOKE_K:
                 checks.append(f"Choke: cold morning ({stats['t_min'] - 273.15:.1f} °C minimum): choke for the first start.")
+            if stats["t_max"] > HOT_FUEL_K:
+                checks.append(
+                    "Hot fuel: keep cans and bikes in the shade; if it stalls hot or will not restart, suspect "
+                    "vapour in the fuel (from memory: above about 30 °C)."
+                )
             warnings_count += len(warnings)
 
             for plan_, fam_attr in ((main, "main_jet_family"), (pilot, "pilot_jet_family")):
