@@ -220,10 +220,6 @@ def required_area_factor(
     )
 
 
-def _power(coding):
-    return 2.0 if coding == "diameter" else 1.0
-
-
 def _loss(required, delivered, valid):
     """Sum over the last axis (hours) of the lean-weighted squared mixture deviation (direct)."""
     with np.errstate(invalid="ignore", divide="ignore"):
@@ -610,7 +606,6 @@ def make_plan(fleet, event) -> dict:
             "too_wide": np.zeros(n_rows, bool),
             "out_of_family": np.zeros(n_rows, bool),
             "index": np.zeros(n_rows, np.int64),
-            "steps": np.zeros(n_rows, np.int64),
         }
         family_names = np.array([getattr(s, family_attr) for s in settings], object)
         for name in sorted(set(family_names.tolist())):
@@ -629,10 +624,6 @@ def make_plan(fleet, event) -> dict:
             out["ideal_min"][rows] = np.nanmin(ideal, axis=1)
             out["ideal_max"][rows] = np.nanmax(ideal, axis=1)
             out["too_wide"][rows] = res["hour_spread"] > 1
-            rec = sizes[idx]
-            up = np.searchsorted(sizes, rec, "right") - np.searchsorted(sizes, cur, "right")
-            down = np.searchsorted(sizes, rec, "left") - np.searchsorted(sizes, cur, "left")
-            out["steps"][rows] = np.where(rec > cur, up, np.where(rec < cur, down, 0))
             out["out_of_family"][rows] = res["out_of_family"]
             if has_stock:
                 shelf = np.array([fleet.stock.get((name, float(sz)), 0) > 0 for sz in sizes])
@@ -1108,7 +1099,7 @@ def make_plan(fleet, event) -> dict:
                 )
             warnings_count += len(warnings)
 
-            for plan_, fam_attr in ((main, "main_jet_family"), (pilot, "pilot_jet_family")):
+            for plan_ in (main, pilot):
                 fam_name = plan_["family"][r]
                 rec = float(plan_["recommended"][r])
                 if rec != float(plan_["current"][r]) and not picked_by_bike.get((b, fam_name, rec)):
