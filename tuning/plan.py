@@ -26,6 +26,23 @@ Choices documented here (where DESIGN.md is silent)
   reference (100 × CF_ref / CF_event, SAE J1349 factors), averaged over the session.
 * Premix: the bike's premix ratio applies both at the reference and at the event (it cancels
   unless :func:`required_area_factor` is given different ratios).
+* Needle clip: chosen after the main jet, on the loss over the hours and the openings
+  1/4, 3/8, 1/2, 5/8, 3/4 (:data:`MID_RANGE_OPENINGS`), the slide lift being the opening times
+  the bore. With geometry (needle not ``assumed``, needle-jet bore known, diameter-coded main)
+  the delivered factor is the series area (annulus, main jet) against the current one; else
+  each groove changes the annulus by :data:`tuning.carb.ASSUMED_GROOVE_AREA_STEP` (10 %, from
+  memory) and the annulus is taken equal in area to the main jet, so both count with
+  exponent ½ (the series law for equal areas).
+* Pilot jet and screw: the pilot size by the same loss as the main jet; the screw then trims
+  the rest in quarter turns (:data:`tuning.carb.ASSUMED_SCREW_EFFECT_PER_TURN`, 10 % per turn,
+  from memory; air screw out = leaner, fuel screw out = richer). Where the best trim leaves
+  the usable range, the next pilot size toward the need (with its best in-range screw) is
+  taken if its loss is smaller; otherwise the screw stays at its best in-range position.
+* Mixture curve: per circuit, reference AFR × required / delivered factor, with the circuits'
+  delivered fuel blended by :func:`tuning.carb.circuit_weights`; the current settings deliver
+  factor 1 in every circuit (they were proven at the reference).
+* Stock: the fitted jet counts as available for ``stock_choice``. The pick list counts, per
+  bike, each recommended (family, size) that differs from the fitted one, once across sessions.
 
 Warning codes (stable)
 ----------------------
