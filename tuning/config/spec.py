@@ -53,7 +53,7 @@ class Context:
         self.lines: dict[str, int] = {}
 
     def add(self, line: int | None, path: str, message: str) -> None:
-        self.problems.append(Problem(self.file, line, path, message))
+        self.problems.append(Problem(self.file, line, one_line(path), one_line(message)))
 
     def at(self, node: yaml.Node, path: str, message: str) -> None:
         self.add(line_of(node), path, message)
@@ -69,6 +69,11 @@ class Context:
 
     def at_path(self, path: str, message: str) -> None:
         self.add(self.line(path), path, message)
+
+
+def one_line(text: str) -> str:
+    """``text`` with control characters escaped (user text in a message stays on one line)."""
+    return "".join(ch if ch.isprintable() or ch == " " else ch.encode("unicode_escape").decode("ascii") for ch in str(text))
 
 
 def line_of(node: yaml.Node) -> int:

@@ -93,11 +93,14 @@ def parse_quantity(value, default_unit: str, to_unit: str | None = None) -> floa
         raise UnitProblem(f"expected a finite number, got {value!r}")
     try:
         quantity = ureg.Quantity(magnitude, unit)
-    except (pint.errors.UndefinedUnitError, pint.errors.DefinitionSyntaxError, AttributeError, TypeError, ValueError):
+    except Exception:  # pint's parser raises many kinds (tokenize errors, syntax, undefined unit)
         raise UnitProblem(f"unknown unit {unit!r} in {value!r}") from None
     if quantity.dimensionality != default.dimensionality:
         raise UnitProblem(
             f"{value!r} is not {_dimension_name(default.dimensionality)} "
             f"(it is {_dimension_name(quantity.dimensionality)}); give it in {default_unit} or a unit of the same kind"
         )
-    return float(quantity.to(to_unit).magnitude)
+    result = float(quantity.to(to_unit).magnitude)
+    if not math.isfinite(result):
+        raise UnitProblem(f"{value!r} is too large")
+    return result

@@ -96,7 +96,11 @@ def read_weather_csv(path, zone: zoneinfo.ZoneInfo | None) -> tuple[model.Weathe
     name = display_name(path)
     ctx = Context(name)
     text = read_text(path)
-    rows = list(_rows(text))
+    try:
+        rows = list(_rows(text))
+    except csv.Error as exc:
+        ctx.add(None, "", f"not a readable CSV table: {exc}")
+        return None, ctx.problems
     if not rows:
         ctx.add(1, "", "the table is empty; expected a header row and one row per hour")
         return None, ctx.problems
@@ -193,7 +197,7 @@ def read_weather_csv(path, zone: zoneinfo.ZoneInfo | None) -> tuple[model.Weathe
 
 def _rows(text: str):
     """(line number, cells) of every non-blank, non-comment row."""
-    reader = csv.reader(io.StringIO(text))
+    reader = csv.reader(io.StringIO(text, newline=""))
     line = 1
     for cells in reader:
         start = line
