@@ -338,3 +338,36 @@ def test_regression_two_runs_are_byte_identical(tmp_path):
         paths = plan.write_plan_files(doc, tmp_path / run)
         outputs.append([p.read_bytes() for p in paths])
     assert outputs[0] == outputs[1]
+
+
+def test_sessions_of_different_lengths_keep_their_own_hours():
+    from datetime import timedelta
+
+    ev = pf.event(hours=8, spread=12.0)
+    s0 = ev.sessions[0]
+    sessions = (
+        replace(s0, name="short", end=s0.start + timedelta(hours=2, minutes=30)),
+        replace(s0, name="long", start=s0.start + timedelta(hours=3), end=s0.start + timedelta(hours=8)),
+    )
+    doc = plan.make_plan(pf.fleet(), replace(ev, sessions=sessions))
+    for entry in doc["entries"]:
+        factors = [h["area_factor"] for h in entry["hours"]]
+        assert len(factors) == (4 if entry["session"] == "short" else 6)  # start, whole hours, end
+        assert entry["summary"]["area_factor_min"] == min(factors)
+        assert entry["summary"]["area_factor_max"] == max(factors)
+
+
+@settings(max_examples=30, deadline=None)
+@given(
+    factors=st.lists(st.floats(0.6, 1.4), min_size=1, max_size=12),
+    delivered=st.lists(st.floats(0.5, 1.5), min_size=1, max_size=6),
+)
+def test_sorted_window_loss_equals_the_sum_over_hours(factors, delivered):
+    # the loss written out: sum of w * (f/D - 1)^2, w = 4 lean (f > D), 1 rich
+    expected = [
+        sum((4.0 if f > d else 1.0) * (f / d - 1.0) ** 2 for f in factors) for d in delivered
+    ]
+    required = np.array([factors + [0.9, 1.1]])  # two padding hours
+    valid = np.array([[True] * len(factors) + [False, False]])
+    got = plan.WindowLoss(required, valid)(np.array([delivered]))[0]
+    np.testing.assert_allclose(got, expected, rtol=1e-9, atol=1e-12)
