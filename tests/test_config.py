@@ -388,3 +388,28 @@ def test_empty_file(tmp_path):
 def test_returns_contract_types(fleet):
     assert isinstance(fleet, model.Fleet) and all(isinstance(b, model.Bike) for b in fleet.bikes)
     assert all(isinstance(b.settings.mixture_screw, model.MixtureScrew) for b in fleet.bikes)
+
+
+def test_time_skipped_by_clock_change(demo):
+    # 2026-03-29 02:00..03:00 does not exist in Europe/Vienna (EU summer time starts 01:00 UTC)
+    text = edit(demo / EVENT, "start: 2026-06-13 09:00", "start: 2026-03-29 02:30")
+    p = find(problems(load_event, demo / EVENT), "sessions[0].start")
+    assert "does not exist in Europe/Vienna" in p.message and p.line == line_of(text, "Sat morning")
+
+
+def test_four_stroke_premix(demo):
+    text = edit(demo / FLEET, "{id: F02, model: trail-450-4s}", "{id: F02, model: trail-450-4s, premix: 40}")
+    p = find(problems(load_fleet, demo / FLEET), "bikes[10].premix")
+    assert "four-stroke" in p.message and p.line == line_of(text, "{id: F02")
+
+
+def test_jet_range_not_whole_steps(demo):
+    text = edit(demo / FLEET, "{from: 140, to: 200, step: 2.5}", "{from: 140, to: 201, step: 2.5}")
+    p = find(problems(load_fleet, demo / FLEET), "jet_families.round-main.sizes.step")
+    assert "not a whole number of steps" in p.message and p.line == line_of(text, "step: 2.5")
+
+
+def test_dew_point_above_air_temperature(demo):
+    text = edit(demo / FLEET, "dew_point: 6 degC", "dew_point: 18 degC")
+    p = find(problems(load_fleet, demo / FLEET), "bikes[8].reference.dew_point")
+    assert "dew point above the air temperature" in p.message and p.line == line_of(text, "dew_point: 18")

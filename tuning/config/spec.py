@@ -97,17 +97,24 @@ def known_list(known, limit: int = 8) -> str:
     return f"known: {text}" if names else "none are defined"
 
 
-_constructor = yaml.SafeLoader("")  # only used to read plain scalars of known tags
+_constructor = yaml.SafeLoader("")  # only its scalar readers are used (no object cache, no tags)
+_READERS = {
+    "tag:yaml.org,2002:int": _constructor.construct_yaml_int,
+    "tag:yaml.org,2002:float": _constructor.construct_yaml_float,
+    "tag:yaml.org,2002:bool": _constructor.construct_yaml_bool,
+    "tag:yaml.org,2002:null": _constructor.construct_yaml_null,
+}
 
 
 def scalar_value(node: yaml.ScalarNode):
-    tag = node.tag.rsplit(":", 1)[-1]
-    if tag in ("int", "float", "bool", "null") and node.tag.startswith("tag:yaml.org,2002:"):
-        try:
-            return _constructor.construct_object(node)
-        except Exception:  # a malformed number: keep the text, the spec reports it
-            return node.value
-    return node.value
+    """Python value of a plain scalar by its resolved YAML 1.1 tag: int, float, bool, None, else the text."""
+    reader = _READERS.get(node.tag)
+    if reader is None:
+        return node.value
+    try:
+        return reader(node)
+    except Exception:  # a malformed number: keep the text, the spec reports it
+        return node.value
 
 
 def _type_name(node: yaml.Node) -> str:
@@ -249,6 +256,11 @@ class Number(Spec):
 
     def check(self, node, path, ctx):
         value = scalar_value(node) if isinstance(node, yaml.ScalarNode) else None
+        if isinstance(value, str):  # "1.5e3" is a string in YAML 1.1 but a number to a reader
+            try:
+                value = float(value)
+            except ValueError:
+                pass
         if not isinstance(value, (int, float)) or isinstance(value, bool) or not math.isfinite(value):
             ctx.at(node, path, f"expected a number, got {_type_name(node)}")
             return INVALID
