@@ -35,6 +35,48 @@ class _QuietSubsetWarning(logging.Filter):
 
 logging.getLogger("weasyprint").addFilter(_QuietSubsetWarning())
 
+# Characters every sheet may use; their glyphs are always kept in the embedded font subset.
+_COMMON_TEXT = ("".join(chr(c) for c in range(0x20, 0x7F)) + "".join(chr(c) for c in range(0xA0, 0x100))
+                + "–—‘’“”•…→←−·½¼¾°×≈≤≥±µ²³")
+
+
+def install_font_subset_cache() -> None:
+    """Subset each font once per process when WeasyPrint falls back to fontTools.
+
+    Without HarfBuzz's subset library WeasyPrint subsets every font of every PDF with fontTools
+    (about 0.2 s per font). Keeping the glyphs of the common Latin characters in every subset
+    (plus any other glyph a page uses) makes the subset request identical from sheet to sheet, so
+    one cached result serves them all; the PDFs grow by a few kilobytes. With HarfBuzz present
+    nothing is changed.
+    """
+    import hashlib
+    import io
+
+    from fontTools.ttLib import TTFont
+    from weasyprint.pdf import fonts as wp_fonts
+
+    original = wp_fonts.Font._fonttools_subset
+    if getattr(original, "carbfleet_cached", False):
+        return
+    common: dict[tuple, frozenset] = {}
+    results: dict[tuple, bytes] = {}
+
+    def cached(self, to_unicode, hinting):
+        digest = (hashlib.sha1(self.file_content).digest(), self.index)
+        if digest not in common:
+            font = TTFont(io.BytesIO(self.file_content), fontNumber=self.index, lazy=True)
+            cmap = font.getBestCmap() or {}
+            common[digest] = frozenset(font.getGlyphID(cmap[ord(c)]) for c in _COMMON_TEXT if ord(c) in cmap)
+        gids = frozenset(to_unicode) | common[digest]
+        key = (digest, gids, bool(hinting), bool(self.missing))
+        if key not in results:
+            original(self, dict.fromkeys(sorted(gids)), hinting)
+            results[key] = self.file_content
+        self.file_content = results[key]
+
+    cached.carbfleet_cached = True
+    wp_fonts.Font._fonttools_subset = cached
+
 
 @lru_cache(maxsize=1)
 def environment() -> jinja2.Environment:
@@ -51,12 +93,12 @@ def _css_string(text: str) -> str:
     return "".join(c if c.isalnum() or c in " .,:;·()-_/'" else f"\\{ord(c):x} " for c in text)
 
 
-def page_css(paper: str, footer_left: str) -> str:
+def page_css(paper: str, footer_left: str, page_numbers: bool = True) -> str:
     """The stylesheet with the page size for ``paper`` (``a4`` or ``letter``)."""
     if paper not in PAPER_SIZES:
         raise UserError(f"paper: expected one of {', '.join(PAPER_SIZES)}, got {paper!r}; use --paper a4 or --paper letter")
     return environment().get_template("report.css").render(
-        page_size=PAPER_SIZES[paper], footer_left=_css_string(footer_left))
+        page_size=PAPER_SIZES[paper], footer_left=_css_string(footer_left), page_numbers=page_numbers)
 
 
 def _resolve(path: str | Path) -> Path:
@@ -102,11 +144,11 @@ def _reference_text(ref: dict) -> str:
             f"density altitude {n(ref['density_altitude_m'], 0, 'm')}, fuel {ref['fuel']}")
 
 
-def _common(plan: dict, paper: str, title: str) -> dict:
+def _common(plan: dict, paper: str, title: str, page_numbers: bool = True) -> dict:
     from tuning.report import CAUTIONS
 
     return {
-        "plan": plan, "css": page_css(paper, f"carbfleet · {title}"), "stamp": _stamp(plan),
+        "plan": plan, "css": page_css(paper, f"carbfleet · {title}", page_numbers), "stamp": _stamp(plan),
         "cautions": CAUTIONS, "ref_text": _reference_text(plan["reference"]),
         "site_elevation": tables.number(plan["site"]["elevation_m"], 0, "m"),
     }
@@ -123,9 +165,10 @@ def sheet_html(plan: dict, entries: list[dict], paper: str = "a4", density: str 
     (many sessions, many warnings) still prints on one page; nothing is left out.
     """
     rows = tables.sheet_rows(entries)
-    context = _common(plan, paper, f"{plan['event']} · sheet {entries[0]['bike']}")
+    # One page by design: no "page n of m" footer (it costs WeasyPrint a second layout pass).
+    context = _common(plan, paper, f"{plan['event']} · sheet {entries[0]['bike']}", page_numbers=False)
     if chart_svg is None:
-        chart_svg = charts.to_svg(charts.mixture_chart(entries))
+        chart_svg = charts.to_svg(charts.mixture_spec(entries))
     context.update(s=rows, chart_svg=chart_svg, density=density,
                    ref_text=_reference_text(entries[0]["reference"]))
     return environment().get_template("sheet.html.j2").render(**context)
@@ -160,6 +203,7 @@ def layout(html: str, base_url: Path):
     """Lay ``html`` out with WeasyPrint (no network: every resource is inline); a Document."""
     import weasyprint
 
+    install_font_subset_cache()
     return weasyprint.HTML(string=html, base_url=str(base_url), url_fetcher=_no_fetch).render()
 
 
@@ -171,7 +215,7 @@ def write_pdf(html: str, path: Path, base_url: Path) -> Path:
 
 def write_sheet(plan: dict, entries: list[dict], html_path: Path, pdf_path: Path, paper: str = "a4") -> int:
     """Write one bike's sheet as HTML and PDF, on one page if any density allows; return pages."""
-    chart_svg = charts.to_svg(charts.mixture_chart(entries))
+    chart_svg = charts.to_svg(charts.mixture_spec(entries))
     for density in DENSITIES:
         html = sheet_html(plan, entries, paper, density, chart_svg)
         document = layout(html, pdf_path.parent)
