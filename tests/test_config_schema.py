@@ -94,3 +94,10 @@ def test_schema_command(capsys, args, keys):
     assert main(["schema", *args]) == 0
     printed = json.loads(capsys.readouterr().out)
     assert keys <= printed.keys()
+
+
+def test_committed_field_reference_is_current():
+    # consistency check (not validation): fleet_configs/FORMATS.md is generated from the specs
+    from tuning.config.docs import field_reference
+
+    assert (DEMO / "FORMATS.md").read_text() == field_reference()

@@ -118,9 +118,12 @@ def _read_premix(value) -> float:
 PREMIX = Custom(
     _read_premix,
     {"anyOf": [{"type": "number", "minimum": 10, "maximum": 200}, {"type": "string", "pattern": r"^\s*\d+(\.\d+)?\s*(:\s*1\s*)?$"}]},
-    "Two-stroke premix, fuel:oil by volume: 40 or \"40:1\".",
+    "Two-stroke premix, fuel:oil by volume: 40 or \"40:1\" (10..200). A bike's value wins over its model's, "
+    "a model's over the fleet's; a two-stroke with none is taken as oil-injected. Not allowed on four-strokes.",
 )
-DENSITY_EXPONENT = Number("Exponent on the air-density ratio; 0.5 is the metering law, workshop rules correct harder.", 0.0, 1.5, exclusive_minimum=True)
+DENSITY_EXPONENT = Number(
+    "Exponent on the air-density ratio (0 < n <= 1.5); 0.5 is the metering law, workshop rules correct harder. "
+    "A bike's value wins over its model's, a model's over the fleet's; 0.5 when none is given.", 0.0, 1.5, exclusive_minimum=True)
 JET_SIZE = Number("Jet number as stamped (diameter-coded: orifice in 0.01 mm; flow-coded: proportional to flow).", 0.0, exclusive_minimum=True)
 SCREW_TURNS = Number("Turns out from lightly seated.", 0.0, 10.0)
 
@@ -152,7 +155,7 @@ def settings_spec(full: bool) -> Obj:
                     {
                         "kind": Field(Choice(("air", "fuel"), "air: turning out leans the idle mixture; fuel: turning out richens it."), full),
                         "turns": Field(SCREW_TURNS, full),
-                        "usable_range": Field(Sequence(SCREW_TURNS, "[min, max] turns out; default [1, 3].", 2, 2)),
+                        "usable_range": Field(Sequence(SCREW_TURNS, "[min, max] turns out; outside it a pilot-jet change is due. Default [1, 3], marked 'assumed'.", 2, 2)),
                     },
                     description="Idle mixture screw.",
                 ),
@@ -206,7 +209,8 @@ NEEDLE = Obj(
         "grooves": Field(Integer("Number of clip grooves.", 1, 9)),
         "groove_pitch": Field(Quantity("mm", "Distance between clip grooves.", 0.1, 5.0)),
     },
-    description="Jet needle geometry; anything left out takes a documented generic default and the sheet says 'assumed'.",
+    description="Jet needle geometry. Anything left out takes a generic default (straight diameter 2.70 mm, "
+    "taper start 12 mm, taper angle 1.0 deg, 5 grooves, groove pitch 1.0 mm) and the sheet says 'assumed'.",
     allow_null=True,
 )
 

@@ -2,8 +2,9 @@
 
 CSV table
 ---------
-One header row, then one row per sample (hourly is usual; any spacing up to
-:data:`MAX_GAP` inside a session). Columns, each with its unit in brackets (the default unit
+One header row, then one row per sample (hourly is usual; samples may be at most 3 hours
+apart inside a session, ``MAX_GAP``; every session must lie between the first and the last
+sample: the plan interpolates, it never extrapolates). Columns, each with its unit in brackets (the default unit
 when the brackets are left out):
 
 * ``time`` — ISO 8601 (``2026-06-13 09:00`` or ``2026-06-13T09:00+02:00``). A time without
@@ -13,14 +14,16 @@ when the brackets are left out):
   ``sea_level_pressure [hPa]``,
 * exactly one humidity: ``relative_humidity [%]`` or ``dew_point [degC]``.
 
-Cells are bare numbers in the column's unit. Times must increase from row to row.
+Cells are bare numbers in the column's unit. Times must increase from row to row. Blank
+lines and lines starting with ``#`` are skipped.
 
 METAR
 -----
-Reports (WMO FM 15) carry the day of month and the UTC time only. carbfleet takes month and
-year from the event's first session (in UTC) and, where a report's day would then lie more
-than half a month away from that session, the neighbouring month (so a report of the 31st
-before a session on the 1st is read in the previous month). Temperature and dew point are
+Reports (WMO FM 15) carry the day of month and the UTC time only. carbfleet reads each report
+in the month of the event's first session (in UTC), the month before and the month after, and
+keeps the reading nearest to that session (so a report of the 31st before a session on the
+1st is read in the previous month, and across a year end likewise). The sessions must lie
+within the reports' times, as for a table. Temperature and dew point are
 read from the ``TT/TdTd`` group and the pressure from the altimeter setting (``Q1018`` hPa or
 ``A3012`` inHg), kept as QNH.
 """
