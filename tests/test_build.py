@@ -167,3 +167,13 @@ def test_shards_are_contiguous_and_cover_every_bike():
     parts = pipeline.shards(items, 3)
     assert [b for part in parts for b in part] == items and len(parts) == 3
     assert pipeline.shards(items[:1], 4) == [["b0"]]
+
+
+def test_notebook_html_shows_outputs_and_hides_code(built):
+    out, _ = built
+    report = (out / "notebooks" / "fleet-report.html").read_text(encoding="utf-8")
+    assert "Fleet summary" in report and "<svg" in report and "Work batches" in report
+    sheets = (out / "notebooks" / "setup-sheets-1.html").read_text(encoding="utf-8")
+    assert "setup sheets written" in sheets
+    for page in (report, sheets):
+        assert "load_plan" not in page and "render_fleet_report" not in page  # no code shown

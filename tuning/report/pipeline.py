@@ -147,8 +147,12 @@ class _Exporter:
 
 def _merge_pdfs(paths: list[Path], target: Path, stamp: str, title: str) -> int:
     """Concatenate PDFs into ``target`` with fixed metadata and id (deterministic); return pages."""
-    from pypdf import PdfWriter
-    from pypdf.generic import ArrayObject, ByteStringObject
+    try:
+        from pypdf import PdfWriter
+        from pypdf.generic import ArrayObject, ByteStringObject
+    except ImportError:
+        raise BuildError("print pack: the package pypdf is needed to join the PDFs; "
+                         "install it with: pip install 'pypdf>=5,<8'") from None
 
     writer = PdfWriter()
     for path in paths:

@@ -214,7 +214,7 @@ def summary_rows(plan: dict, file_names: dict[str, str]) -> dict:
             warnings.setdefault((w["code"], w["message"]), []).append(f"{e['bike']} ({e['session']})")
     warning_rows = [{"code": c, "message": m, "where": where} for (c, m), where in warnings.items()]
     weather = [{
-        "time": f"{day(w['time'])} {clock(w['time'])}",
+        "time": f"{day(w['time'])[:-5]} {clock(w['time'])}",
         "air_temperature": number(w["air_temperature_C"], 1),
         "station_pressure": number(w["station_pressure_hPa"], 1),
         "relative_humidity": number(w["relative_humidity_pct"], 0),
