@@ -20,6 +20,7 @@ from __future__ import annotations
 import math
 
 from tuning.config import model
+from tuning.fuel import blend
 from tuning.config.source import display_name, load_yaml
 from tuning.config.spec import (
     INVALID,
@@ -54,13 +55,6 @@ DEFAULT_NEEDLE = {
 }
 #: Usable mixture-screw range where the file gives none [turns out] (common practice: 1..3).
 DEFAULT_SCREW_RANGE = (1.0, 3.0)
-
-# Fuel properties for blends (from memory, checked against Heywood 1988, Appendix D).
-_GASOLINE_AFR, _GASOLINE_DENSITY = 14.7, 745.0  # [1] trade figure; [kg/m³] at 15 °C, typical
-_ETHANOL_DENSITY, _METHANOL_DENSITY = 789.0, 792.0  # [kg/m³] at 20 °C
-_O2_AIR_MASS = 31.998 + 3.773 * 28.014  # [kg air per kmol O2]; N2/O2 = 3.773 in dry air
-_ETHANOL_AFR = 3.0 * _O2_AIR_MASS / 46.069  # C2H5OH + 3 O2 -> 2 CO2 + 3 H2O; ≈ 8.95
-_METHANOL_AFR = 1.5 * _O2_AIR_MASS / 32.042  # CH3OH + 1.5 O2 -> CO2 + 2 H2O; ≈ 6.43
 
 #: Accepted ranges, in the unit named (also used for the weather table and METAR).
 ELEVATION_RANGE = (-500.0, 5000.0)  # [m]
@@ -317,10 +311,7 @@ def make_fuel(name: str, raw: dict, path: str, ctx: Context) -> model.Fuel | Non
     if ethanol + methanol > 1.0 + 1e-9:
         ctx.at_path(path, "ethanol and methanol together exceed 100 %")
         return None
-    gasoline = 1.0 - ethanol - methanol
-    masses = (gasoline * _GASOLINE_DENSITY, ethanol * _ETHANOL_DENSITY, methanol * _METHANOL_DENSITY)
-    density = sum(masses)  # [kg/m³] per m³ of blend (volumes taken as additive)
-    afr = sum(m * a for m, a in zip(masses, (_GASOLINE_AFR, _ETHANOL_AFR, _METHANOL_AFR))) / density
+    afr, density = (float(v) for v in blend(ethanol, methanol))
     return model.Fuel(
         name=name,
         stoichiometric_afr=raw.get("stoichiometric_afr", afr),
