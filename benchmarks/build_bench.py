@@ -22,6 +22,7 @@ import copy
 import json
 import os
 import resource
+import shutil
 import subprocess
 import sys
 import tempfile
@@ -135,6 +136,7 @@ def floor(out: Path) -> dict:
         render.write_pdf(sheet.read_text(encoding="utf-8"), tmp / (sheet.stem + ".pdf"), tmp)
     render_seconds = time.perf_counter() - started
     del pipeline
+    shutil.rmtree(tmp, ignore_errors=True)
     return {"sheets": len(sheets), "kernel_start_s": kernel_seconds, "render_s": render_seconds,
             "floor_s": kernel_seconds + render_seconds}
 
@@ -161,10 +163,12 @@ def main() -> None:
           f"sheets {base['render_s']:.1f} s = {base['floor_s']:.1f} s")
     print(f"build / floor: {speed['seconds'] / base['floor_s']:.2f} (target <= 1.5); build target < 25 s")
     print(f"peak RSS of the process tree at {args.bikes} bikes: {speed['peak_tree_rss_MB']:.0f} MB")
+    shutil.rmtree(Path(speed["out"]).parent, ignore_errors=True)
     if args.memory_bikes:
         memory = json.loads(subprocess.run([sys.executable, __file__, "--child", "--bikes", str(args.memory_bikes),
                                             "--workers", str(args.workers)], check=True, capture_output=True,
                                            text=True).stdout.strip().splitlines()[-1])
+        shutil.rmtree(Path(memory["out"]).parent, ignore_errors=True)
         print(f"build, {args.memory_bikes} bikes: {memory['seconds']:.1f} s; peak RSS of the process tree "
               f"{memory['peak_tree_rss_MB']:.0f} MB (sampled), getrusage self + largest child "
               f"{memory['getrusage_self_plus_child_MB']:.0f} MB (target < 1500 MB)")

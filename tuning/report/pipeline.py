@@ -32,6 +32,17 @@ from tuning.report.names import safe_file_names
 NOTEBOOKS = render.PROJECT_ROOT / "notebooks"
 NB_TEMPLATE = Path(__file__).resolve().parent / "nbconvert_template" / "carbfleet.html.j2"
 _kernel_numbers = itertools.count(1)
+_socket_dir: list[str] = []
+
+
+def _sockets() -> str:
+    """One private folder per process for the kernels' IPC sockets, removed at exit."""
+    if not _socket_dir:
+        import atexit
+
+        _socket_dir.append(tempfile.mkdtemp(prefix="carbfleet-kernels-"))
+        atexit.register(shutil.rmtree, _socket_dir[0], True)
+    return _socket_dir[0]
 
 
 class IpcKernelManager(AsyncKernelManager):
@@ -40,7 +51,7 @@ class IpcKernelManager(AsyncKernelManager):
     def __init__(self, **kwargs):
         kwargs.setdefault("transport", "ipc")
         super().__init__(**kwargs)
-        self.ip = os.path.join(tempfile.gettempdir(), f"carbfleet-kernel-{os.getpid()}-{next(_kernel_numbers)}")
+        self.ip = os.path.join(_sockets(), f"kernel-{next(_kernel_numbers)}")
 
     async def _async_launch_kernel(self, kernel_cmd, **kw):
         # The kernel's own console chatter (shutdown notices) is not the user's business; errors

@@ -208,11 +208,19 @@ def summary_rows(plan: dict, file_names: dict[str, str]) -> dict:
     batch_rows = [{"model": key[0], "changes": batch_words[key], "bikes": members,
                    "count": len(members)} for key, members in batches.items()]
     batch_rows.sort(key=lambda r: -r["count"])  # stable: first-seen order among equal sizes
-    warnings: OrderedDict[tuple[str, str], list[str]] = OrderedDict()
+    # Each distinct warning once, with the bikes it concerns; sessions named only where the
+    # warning does not hold for all of that bike's sessions (the sheets give the detail).
+    found: OrderedDict[tuple[str, str], OrderedDict[str, list[str]]] = OrderedDict()
     for e in plan["entries"]:
         for w in e["warnings"]:
-            warnings.setdefault((w["code"], w["message"]), []).append(f"{e['bike']} ({e['session']})")
-    warning_rows = [{"code": c, "message": m, "where": where} for (c, m), where in warnings.items()]
+            found.setdefault((w["code"], w["message"]), OrderedDict()).setdefault(e["bike"], []).append(e["session"])
+    warning_rows = []
+    for (c, m), bikes_sessions in found.items():
+        where = []
+        for bike, names in bikes_sessions.items():
+            every = [e["session"] for e in by_bike[bike]]
+            where.append(bike if names == every else f"{bike} ({', '.join(names)})")
+        warning_rows.append({"code": c, "message": m, "where": where, "count": len(where)})
     weather = [{
         "time": f"{day(w['time'])[:-5]} {clock(w['time'])}",
         "air_temperature": number(w["air_temperature_C"], 1),
