@@ -371,3 +371,17 @@ def test_sorted_window_loss_equals_the_sum_over_hours(factors, delivered):
     valid = np.array([[True] * len(factors) + [False, False]])
     got = plan.WindowLoss(required, valid)(np.array([delivered]))[0]
     np.testing.assert_allclose(got, expected, rtol=1e-9, atol=1e-12)
+
+
+@pytest.mark.parametrize("screw_kind", ["air", "fuel"])
+def test_screw_before_pilot_when_the_screw_can_reach(screw_kind):
+    # Workshop order (common practice): trim with the mixture screw; change the pilot jet only
+    # when the screw would leave its usable range (about 1..3 turns out).
+    screw = pf.settings(screw_kind=screw_kind, turns=2.0).mixture_screw
+    small = one_bike_plan(bike_kwargs={"mixture_screw": screw}, elevation=1700.0)["entries"][0]["settings"]
+    assert small["pilot_jet"]["recommended"] == small["pilot_jet"]["current"]
+    assert small["mixture_screw"]["change_turns"] != 0
+    assert 1.0 <= small["mixture_screw"]["recommended_turns"] <= 3.0
+    large = one_bike_plan(bike_kwargs={"mixture_screw": screw}, elevation=3000.0)["entries"][0]["settings"]
+    assert large["pilot_jet"]["recommended"] < large["pilot_jet"]["current"]
+    assert 1.0 <= large["mixture_screw"]["recommended_turns"] <= 3.0

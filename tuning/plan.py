@@ -33,11 +33,14 @@ Choices documented here (where DESIGN.md is silent)
   each groove changes the annulus by :data:`tuning.carb.ASSUMED_GROOVE_AREA_STEP` (10 %, from
   memory) and the annulus is taken equal in area to the main jet, so both count with
   exponent ½ (the series law for equal areas).
-* Pilot jet and screw: the pilot size by the same loss as the main jet; the screw then trims
-  the rest in quarter turns (:data:`tuning.carb.ASSUMED_SCREW_EFFECT_PER_TURN`, 10 % per turn,
-  from memory; air screw out = leaner, fuel screw out = richer). Where the best trim leaves
-  the usable range, the next pilot size toward the need (with its best in-range screw) is
-  taken if its loss is smaller; otherwise the screw stays at its best in-range position.
+* Pilot jet and screw: the screw comes first, since turning it takes seconds and a pilot
+  jet means taking the float bowl off. When the fitted pilot, trimmed with the screw in
+  quarter turns (:data:`tuning.carb.ASSUMED_SCREW_EFFECT_PER_TURN`, 10 % per turn, from
+  memory; air screw out = leaner, fuel screw out = richer), reaches the best mixture within
+  the screw's usable range, the pilot stays. Otherwise the pilot size is chosen by the same
+  loss as the main jet and the screw trims the rest; where that trim leaves the usable range,
+  the next pilot size toward the need (with its best in-range screw) is taken if its loss is
+  smaller; otherwise the screw stays at its best in-range position.
 * Mixture curve: per circuit, reference AFR × required / delivered factor, with the circuits'
   delivered fuel blended by :func:`tuning.carb.circuit_weights`; the current settings deliver
   factor 1 in every circuit (they were proven at the reference).
@@ -692,6 +695,17 @@ def make_plan(fleet, event) -> dict:
     pilot_bumped = np.zeros(n_rows, bool)
     screw_clamped = np.zeros(n_rows, bool)
     if n_rows:
+        # The screw first: keep the fitted pilot where the screw alone reaches the best trim
+        # within its usable range.
+        kept_trim, _ = trim(np.ones(n_rows), constrained=False)
+        keep = (screw_now + kept_trim >= screw_lo - 1e-9) & (screw_now + kept_trim <= screw_hi + 1e-9)
+        if keep.any():
+            current_index = pilot["index"].copy()
+            for r in np.flatnonzero(keep):
+                sizes = np.asarray(fleet.jet_families[pilot["family"][r]].sizes, float)
+                current_index[r] = int(np.argmin(np.abs(sizes - pilot["current"][r])))
+            pilot["index"] = np.where(keep, current_index, pilot["index"])
+            pilot["recommended"] = np.where(keep, pilot["current"], pilot["recommended"])
         base_delivered = pilot_factor(pilot["current"], pilot["recommended"])
         wanted, _ = trim(base_delivered, constrained=False)
         screw_wanted = screw_now + wanted
@@ -716,6 +730,13 @@ def make_plan(fleet, event) -> dict:
         screw_new = screw_now + screw_change
     else:
         screw_change = screw_new = screw_wanted = np.zeros(0)
+    if n_rows and has_stock:
+        # The pilot was settled together with the screw: where that size is at hand (fitted
+        # or on the shelf), it is also the stock choice.
+        at_hand = (pilot["recommended"] == pilot["current"]) | np.array(
+            [fleet.stock.get((f, float(v)), 0) > 0 for f, v in zip(pilot["family"], pilot["recommended"])], bool
+        )
+        pilot["stock_choice"] = np.where(at_hand, pilot["recommended"], pilot["stock_choice"])
     screw_delivered = (1.0 + effect) ** (screw_sign * screw_change) if n_rows else np.zeros(0)
     pilot_delivered = pilot_factor(pilot["current"], pilot["recommended"]) * screw_delivered if n_rows else np.zeros(0)
 
