@@ -73,7 +73,7 @@ def test_setup_sheet_notebook_plans_from_the_files_in_kernel(demo_plan, tmp_path
         str(ROOT / "notebooks" / "setup-sheets.ipynb"), str(output), kernel_name="python3",
         parameters={"fleet_path": str(DEMO_FLEET), "event_path": str(DEMO_EVENT), "out_dir": str(tmp_path),
                     "paper": "letter", "bikes": [first]},
-        cwd=str(tmp_path), progress_bar=False, kernel_manager_class=pipeline.IpcKernelManager)
+        progress_bar=False, kernel_manager_class=pipeline._manager_in(tmp_path))
     name = safe_file_names([e["bike"] for e in demo_plan["entries"]])[first]
     pdf = pypdf.PdfReader(tmp_path / "sheets" / f"{name}.pdf")
     assert len(pdf.pages) == 1

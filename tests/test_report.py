@@ -190,5 +190,22 @@ def test_every_warning_code_is_documented():
     readme = Path(render.PROJECT_ROOT / "tuning" / "report" / "__init__.py").read_text(encoding="utf-8")
     for code in ("factor-out-of-range", "ideal-outside-family", "stock-shortage", "screw-out-of-range",
                  "window-too-wide", "icing-risk", "cold-start", "hot-fuel", "assumed-needle-geometry",
-                 "assumed-screw-range"):
+                 "assumed-screw-range", "no-needle"):
         assert code in WARNING_CODES and code in readme
+
+
+def test_values_not_on_record_show_as_dashes(plan4):
+    entries = [json_copy(e) for e in tables.entries_by_bike(plan4)["T001"]]
+    for e in entries:  # the plan's shape for a bike without a needle on record (tuning.plan, no-needle)
+        e["settings"]["clip"].update(needle=None, current=None, recommended=None, grooves=None, steps=0,
+                                     change="no needle or clip on record: not planned")
+    rows = tables.sheet_rows(entries)
+    clip = next(c for c in rows["circuits"] if c["key"] == "clip")
+    assert clip["current"] == "–" and "None" not in clip["detail"]
+    assert "None" not in render.sheet_html(plan4, entries)
+
+
+def json_copy(value):
+    import json
+
+    return json.loads(json.dumps(value))

@@ -38,6 +38,7 @@ WARNING_CODES = {
     "hot-fuel": "hot session: fuel may percolate or vapour-lock; keep the fuel cool and shaded",
     "assumed-needle-geometry": "the needle geometry was assumed, not given: clip advice is approximate",
     "assumed-screw-range": "the mixture screw's usable range was assumed, not given",
+    "no-needle": "no needle or clip position on record: the clip is not planned",
 }
 
 from tuning.report.tables import turns as turns_text  # noqa: E402

@@ -53,11 +53,24 @@ class IpcKernelManager(AsyncKernelManager):
         super().__init__(**kwargs)
         self.ip = os.path.join(_sockets(), f"kernel-{next(_kernel_numbers)}")
 
+    kernel_cwd: str | None = None
+
     async def _async_launch_kernel(self, kernel_cmd, **kw):
         # The kernel's own console chatter (shutdown notices) is not the user's business; errors
         # reach the build through the executed notebook.
         kw["stdout"] = kw["stderr"] = subprocess.DEVNULL
+        if self.kernel_cwd:
+            kw["cwd"] = self.kernel_cwd
         return await super()._async_launch_kernel(kernel_cmd, **kw)
+
+
+def _manager_in(cwd: Path) -> type:
+    """An IPC kernel manager class whose kernels start in ``cwd``.
+
+    papermill's own ``cwd=`` changes the working folder of the whole process, which races when
+    several notebooks run in threads; the kernel's folder is set at launch instead.
+    """
+    return type("IpcKernelManagerIn", (IpcKernelManager,), {"kernel_cwd": str(cwd)})
 
 
 @dataclass(frozen=True)
@@ -114,8 +127,8 @@ def _execute(notebook: str, output: Path, parameters: dict, cwd: Path) -> None:
     try:
         papermill.execute_notebook(
             str(NOTEBOOKS / notebook), str(output), parameters=parameters, kernel_name="python3",
-            cwd=str(cwd), progress_bar=False, log_output=False, request_save_on_cell_execute=False,
-            kernel_manager_class=IpcKernelManager, record_timing=False)
+            progress_bar=False, log_output=False, request_save_on_cell_execute=False,
+            kernel_manager_class=_manager_in(cwd), record_timing=False)
     except PapermillExecutionError as exc:
         raise BuildError(f"{output.name}: {exc.ename}: {exc.evalue}") from None
 

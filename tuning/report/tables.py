@@ -64,20 +64,25 @@ def entries_by_bike(plan: dict) -> "OrderedDict[str, list[dict]]":
     return grouped
 
 
+def _text(value) -> str:
+    """A plan value for print; ``None`` (not on record) shows as an en dash."""
+    return "–" if value is None else f"{value}"
+
+
 def _circuit_current(key: str, s: dict, unit: bool = True) -> str:
     if key == "clip":
-        return f"groove {s['current']}" if unit else f"{s['current']}"
+        return f"groove {_text(s['current'])}" if unit else _text(s["current"])
     if key == "mixture_screw":
         return f"{turns(s['current_turns'])} turns out" if unit else turns(s["current_turns"])
-    return f"{s['current']}"
+    return _text(s["current"])
 
 
 def _circuit_recommended(key: str, s: dict, unit: bool = True) -> str:
     if key == "clip":
-        return f"groove {s['recommended']}" if unit else f"{s['recommended']}"
+        return f"groove {_text(s['recommended'])}" if unit else _text(s["recommended"])
     if key == "mixture_screw":
         return f"{turns(s['recommended_turns'])} turns out" if unit else turns(s["recommended_turns"])
-    return f"{s['recommended']}"
+    return _text(s["recommended"])
 
 
 def _stock_text(key: str, s: dict) -> str:
@@ -124,10 +129,12 @@ def sheet_rows(entries: list[dict]) -> dict:
             detail = f"family {s0['family']}"
         elif key == "clip":
             title = "Needle clip groove"
-            detail = f"needle {s0['needle']}, {s0['grooves']} grooves, 1 = top"
+            detail = (f"needle {_text(s0.get('needle'))}, {s0['grooves']} grooves, 1 = top" if s0.get("grooves")
+                      else f"needle {_text(s0.get('needle'))}, grooves not on record")
         elif key == "mixture_screw":
             title = f"{'Air' if s0['kind'] == 'air' else 'Fuel'} screw, turns out"
-            detail = f"usable {turns(s0['usable_range'][0])}–{turns(s0['usable_range'][1])} turns"
+            low, high = (s0.get("usable_range") or [None, None])[:2]
+            detail = f"usable {turns(low)}–{turns(high)} turns"
         cells = []
         for e in entries:
             s = e["settings"][key]
