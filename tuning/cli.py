@@ -277,9 +277,17 @@ def add_build_parser(sub) -> None:
 
 
 def cmd_build(args) -> int:
+    import warnings
+
     from tuning.report import build
 
-    result = build(args.fleet, args.event, args.out, paper=args.paper, quiet=args.quiet, workers=args.workers)
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        result = build(args.fleet, args.event, args.out, paper=args.paper, quiet=args.quiet,
+                       workers=args.workers)
+    for note in dict.fromkeys(str(w.message) for w in caught
+                              if not issubclass(w.category, (DeprecationWarning, ResourceWarning))):
+        print(f"carbfleet build: note: {note}", file=sys.stderr)  # one line each, no source echo
     if not args.quiet:
         print(result.summary_line())
     return EXIT_OK
