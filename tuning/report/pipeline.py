@@ -32,26 +32,16 @@ from tuning.report.names import safe_file_names
 NOTEBOOKS = render.PROJECT_ROOT / "notebooks"
 NB_TEMPLATE = Path(__file__).resolve().parent / "nbconvert_template" / "carbfleet.html.j2"
 _kernel_numbers = itertools.count(1)
-_socket_dir: list[str] = []
-
-
-def _sockets() -> str:
-    """One private folder per process for the kernels' IPC sockets, removed at exit."""
-    if not _socket_dir:
-        import atexit
-
-        _socket_dir.append(tempfile.mkdtemp(prefix="carbfleet-kernels-"))
-        atexit.register(shutil.rmtree, _socket_dir[0], True)
-    return _socket_dir[0]
-
-
 class IpcKernelManager(AsyncKernelManager):
     """A kernel manager on IPC sockets (no TCP: no "running over TCP without encryption" warning)."""
+
+    socket_dir: str | None = None
 
     def __init__(self, **kwargs):
         kwargs.setdefault("transport", "ipc")
         super().__init__(**kwargs)
-        self.ip = os.path.join(_sockets(), f"kernel-{next(_kernel_numbers)}")
+        folder = self.socket_dir or tempfile.gettempdir()
+        self.ip = os.path.join(folder, f"carbfleet-kernel-{os.getpid()}-{next(_kernel_numbers)}")
 
     kernel_cwd: str | None = None
 
@@ -64,13 +54,14 @@ class IpcKernelManager(AsyncKernelManager):
         return await super()._async_launch_kernel(kernel_cmd, **kw)
 
 
-def _manager_in(cwd: Path) -> type:
-    """An IPC kernel manager class whose kernels start in ``cwd``.
+def _manager_in(cwd: Path, socket_dir: Path | None = None) -> type:
+    """An IPC kernel manager class whose kernels start in ``cwd`` (sockets in ``socket_dir``).
 
     papermill's own ``cwd=`` changes the working folder of the whole process, which races when
     several notebooks run in threads; the kernel's folder is set at launch instead.
     """
-    return type("IpcKernelManagerIn", (IpcKernelManager,), {"kernel_cwd": str(cwd)})
+    return type("IpcKernelManagerIn", (IpcKernelManager,),
+                {"kernel_cwd": str(cwd), "socket_dir": str(socket_dir) if socket_dir else None})
 
 
 @dataclass(frozen=True)
@@ -119,7 +110,7 @@ def _write_plan_files(plan: dict, out_dir: Path) -> None:
     write_plan_files(plan, out_dir)
 
 
-def _execute(notebook: str, output: Path, parameters: dict, cwd: Path) -> None:
+def _execute(notebook: str, output: Path, parameters: dict, cwd: Path, socket_dir: Path | None = None) -> None:
     """Run one notebook with papermill (Python API, IPC kernel, no timing records)."""
     import papermill
     from papermill.exceptions import PapermillExecutionError
@@ -128,7 +119,7 @@ def _execute(notebook: str, output: Path, parameters: dict, cwd: Path) -> None:
         papermill.execute_notebook(
             str(NOTEBOOKS / notebook), str(output), parameters=parameters, kernel_name="python3",
             progress_bar=False, log_output=False, request_save_on_cell_execute=False,
-            kernel_manager_class=_manager_in(cwd), record_timing=False)
+            kernel_manager_class=_manager_in(cwd, socket_dir), record_timing=False)
     except PapermillExecutionError as exc:
         raise BuildError(f"{output.name}: {exc.ename}: {exc.evalue}") from None
 
@@ -265,32 +256,38 @@ def build_from_plan(plan: dict, out_dir: str | Path, paper: str = "a4", quiet: b
 
 
 def _run_jobs(jobs, tmp: Path, bikes: list[str], names: dict[str, str], quiet: bool) -> None:
+    """Run the notebooks in threads (one kernel each); progress = sheet PDFs written so far."""
     errors: list[BaseException] = []
-    done = threading.Event()
+    sockets = Path(tempfile.mkdtemp(prefix="carbfleet-kernels-"))
 
     def run(job):
         src, name, params = job
         try:
-            _execute(src, tmp / "notebooks" / name, params, tmp)
+            _execute(src, tmp / "notebooks" / name, params, tmp, sockets)
         except BaseException as exc:  # reported after all threads stop
             errors.append(exc)
 
-    with ThreadPoolExecutor(max_workers=len(jobs)) as pool:
-        futures = [pool.submit(run, job) for job in jobs]
-        if quiet:
-            for f in futures:
-                f.result()
-        else:
-            from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, TimeElapsedColumn
+    def written() -> int:
+        return sum(1 for b in bikes if (tmp / "sheets" / f"{names[b]}.pdf").exists())
 
-            with Progress(TextColumn("setup sheets"), BarColumn(), MofNCompleteColumn(), TimeElapsedColumn(),
-                          transient=True) as progress:
-                task = progress.add_task("sheets", total=len(bikes))
-                while not all(f.done() for f in futures):
-                    progress.update(task, completed=sum(1 for b in bikes if (tmp / "sheets" / f"{names[b]}.pdf").exists()))
-                    time.sleep(0.2)
-                progress.update(task, completed=sum(1 for b in bikes if (tmp / "sheets" / f"{names[b]}.pdf").exists()))
-    done.set()
+    try:
+        with ThreadPoolExecutor(max_workers=len(jobs)) as pool:
+            futures = [pool.submit(run, job) for job in jobs]
+            if quiet:
+                for f in futures:
+                    f.result()
+            else:
+                from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, TimeElapsedColumn
+
+                with Progress(TextColumn("setup sheets"), BarColumn(), MofNCompleteColumn(), TimeElapsedColumn(),
+                              transient=True) as progress:
+                    task = progress.add_task("sheets", total=len(bikes))
+                    while not all(f.done() for f in futures):
+                        progress.update(task, completed=written())
+                        time.sleep(0.2)
+                    progress.update(task, completed=written())
+    finally:
+        shutil.rmtree(sockets, ignore_errors=True)
     if errors:
         first = next((e for e in errors if isinstance(e, CarbfleetError)), errors[0])
         if isinstance(first, CarbfleetError):
