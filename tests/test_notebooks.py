@@ -85,15 +85,22 @@ def test_setup_sheet_notebook_plans_from_the_files_in_kernel(demo_plan, tmp_path
 
 @pytest.fixture(scope="module")
 def demo_build(demo_plan, tmp_path_factory):
+    import contextlib
+    import io
+
     out = tmp_path_factory.mktemp("demo") / "out"
-    code = main(["build", str(DEMO_FLEET), str(DEMO_EVENT), "--out", str(out), "--quiet"])
-    return code, out
+    printed = io.StringIO()
+    with contextlib.redirect_stdout(printed):
+        code = main(["build", str(DEMO_FLEET), str(DEMO_EVENT), "--out", str(out)])
+    return code, out, printed.getvalue()
 
 
 def test_carbfleet_build_on_the_demo(demo_build, demo_plan):
-    code, out = demo_build
+    code, out, printed = demo_build
     assert code == 0
     bikes = list(dict.fromkeys(e["bike"] for e in demo_plan["entries"]))
+    summary = printed.strip().splitlines()[-1]  # the one-line summary: sheets, warnings, time
+    assert summary.startswith(f"built {len(bikes)} setup sheets") and f"({demo_plan['warnings_count']} warnings," in summary
     names = safe_file_names(bikes)
     for bike in bikes:
         assert len(pypdf.PdfReader(out / "sheets" / f"{names[bike]}.pdf").pages) == 1, bike
