@@ -9,6 +9,7 @@ previous output as it was. Two builds of the same inputs give byte-identical fil
 
 from __future__ import annotations
 
+import contextlib
 import copy
 import itertools
 import json
@@ -32,6 +33,16 @@ from tuning.report.names import safe_file_names
 NOTEBOOKS = render.PROJECT_ROOT / "notebooks"
 NB_TEMPLATE = Path(__file__).resolve().parent / "nbconvert_template" / "carbfleet.html.j2"
 _kernel_numbers = itertools.count(1)
+_live_kernels: set = set()  # kernel processes of running builds, stopped on an interrupt
+
+
+def _stop_kernels() -> None:
+    """Kill the kernels still running (they run in their own session: Ctrl-C does not reach them)."""
+    for process in list(_live_kernels):
+        with contextlib.suppress(Exception):
+            if process.poll() is None:
+                process.kill()
+        _live_kernels.discard(process)
 class IpcKernelManager(AsyncKernelManager):
     """A kernel manager on IPC sockets (no TCP: no "running over TCP without encryption" warning)."""
 
@@ -51,7 +62,11 @@ class IpcKernelManager(AsyncKernelManager):
         kw["stdout"] = kw["stderr"] = subprocess.DEVNULL
         if self.kernel_cwd:
             kw["cwd"] = self.kernel_cwd
-        return await super()._async_launch_kernel(kernel_cmd, **kw)
+        result = await super()._async_launch_kernel(kernel_cmd, **kw)
+        process = getattr(self.provisioner, "process", None)
+        if process is not None:
+            _live_kernels.add(process)
+        return result
 
 
 def _manager_in(cwd: Path, socket_dir: Path | None = None) -> type:
@@ -273,26 +288,38 @@ def _run_jobs(jobs, tmp: Path, bikes: list[str], names: dict[str, str], quiet: b
     try:
         with ThreadPoolExecutor(max_workers=len(jobs)) as pool:
             futures = [pool.submit(run, job) for job in jobs]
-            if quiet:
-                for f in futures:
-                    f.result()
-            else:
-                from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, TimeElapsedColumn
-
-                with Progress(TextColumn("setup sheets"), BarColumn(), MofNCompleteColumn(), TimeElapsedColumn(),
-                              transient=True) as progress:
-                    task = progress.add_task("sheets", total=len(bikes))
-                    while not all(f.done() for f in futures):
-                        progress.update(task, completed=written())
-                        time.sleep(0.2)
-                    progress.update(task, completed=written())
+            try:
+                _wait(futures, bikes, written, quiet)
+            except BaseException:
+                _stop_kernels()  # an interrupt: do not wait for the kernels to finish their shards
+                raise
     finally:
         shutil.rmtree(sockets, ignore_errors=True)
+        for process in list(_live_kernels):
+            if process.poll() is not None:
+                _live_kernels.discard(process)
     if errors:
         first = next((e for e in errors if isinstance(e, CarbfleetError)), errors[0])
         if isinstance(first, CarbfleetError):
             raise first
         raise BuildError(f"notebook run failed: {type(first).__name__}: {first}")
+
+
+def _wait(futures, bikes: list[str], written, quiet: bool) -> None:
+    """Wait for the notebook threads, with a progress bar of sheets written unless ``quiet``."""
+    if quiet:
+        while not all(f.done() for f in futures):
+            time.sleep(0.1)
+        return
+    from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, TimeElapsedColumn
+
+    with Progress(TextColumn("setup sheets"), BarColumn(), MofNCompleteColumn(), TimeElapsedColumn(),
+                  transient=True) as progress:
+        task = progress.add_task("sheets", total=len(bikes))
+        while not all(f.done() for f in futures):
+            progress.update(task, completed=written())
+            time.sleep(0.2)
+        progress.update(task, completed=written())
 
 
 def _replace(tmp: Path, out: Path) -> None:
