@@ -15,13 +15,15 @@ $(STAMP): pyproject.toml
 	touch $(STAMP)
 
 demo: $(STAMP)
-	$(VENV)/bin/carbfleet air --elevation "1340 m" --temperature "24 degC" --qnh "1016 hPa" --relative-humidity "40 %"
+	$(VENV)/bin/carbfleet build fleet_configs/demo-fleet.yaml fleet_configs/demo-event.yaml --out out
+	@echo "open out/index.html, or print out/print-pack.pdf"
 
 test: $(STAMP)
 	$(PY) -m pytest
 
 bench: $(STAMP)
-	$(PY) benchmarks/run.py
+	$(PY) benchmarks/plan_bench.py
+	$(PY) benchmarks/build_bench.py
 
 clean:
 	rm -rf out .pytest_cache
