@@ -69,7 +69,7 @@ def make_plan(n_bikes: int = 3, n_sessions: int = 2, bike_ids: list[str] | None 
             "dew_point_C": round(3.0 + 0.2 * h, 1), "moist_air_density_kg_m3": round(1.05 - 0.008 * h, 4),
             "dry_air_density_kg_m3": round(1.045 - 0.008 * h, 4),
             "density_altitude_m": round(1650 + 90 * h, 0), "area_factor": round(0.945 - 0.004 * h, 4),
-            "sae_j1349_cf": round(1.17 + 0.01 * h, 3), "icing_risk": "high" if t < 10 else "low",
+            "sae_j1349_cf": round(1.17 + 0.01 * h, 3), "icing_risk": 3 if t < 10 else 1,
         })
     entries = []
     warnings_count = 0

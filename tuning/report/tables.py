@@ -5,6 +5,8 @@ from __future__ import annotations
 import datetime as dt
 from collections import OrderedDict
 
+from tuning.air import ICING_RISK_NAMES
+
 CIRCUITS = (
     ("main_jet", "Main jet"),
     ("pilot_jet", "Pilot jet"),
@@ -228,7 +230,15 @@ def summary_rows(plan: dict, file_names: dict[str, str]) -> dict:
             every = [e["session"] for e in by_bike[bike]]
             where.append(bike if names == every else f"{bike} ({', '.join(names)})")
         warning_rows.append({"code": c, "message": m, "where": where, "count": len(where)})
+    windows = [(dt.datetime.fromisoformat(x["start"]), dt.datetime.fromisoformat(x["end"]), x["name"])
+               for x in plan["sessions"]]
+
+    def session_of(time: str) -> str | None:
+        moment = dt.datetime.fromisoformat(time)
+        return next((name for start, end, name in windows if start <= moment <= end), None)
+
     weather = [{
+        "session": session_of(w["time"]),
         "time": f"{day(w['time'])[:-5]} {clock(w['time'])}",
         "air_temperature": number(w["air_temperature_C"], 1),
         "station_pressure": number(w["station_pressure_hPa"], 1),
@@ -237,8 +247,8 @@ def summary_rows(plan: dict, file_names: dict[str, str]) -> dict:
         "density_altitude": number(w["density_altitude_m"], 0),
         "area_factor": number(w["area_factor"], 3),
         "sae_j1349_cf": number(w["sae_j1349_cf"], 3),
-        "icing_risk": w["icing_risk"],
-    } for w in plan["weather"]]
+        "icing_risk": f"{w['icing_risk']} ({ICING_RISK_NAMES[w['icing_risk']]})",
+    } for w in plan["weather"] if session_of(w["time"])]
     sessions = [{"name": s["name"], "window": window(s["start"], s["end"])} for s in plan["sessions"]]
     return {"bikes": bikes, "batches": batch_rows, "warnings": warning_rows, "weather": weather,
             "sessions": sessions, "pick_list": plan["pick_list"],
