@@ -14,41 +14,6 @@ _SETTING_DASH = alt.Scale(domain=["current", "recommended"], range=[[6, 3], [1, 
 _GREYS = ["#111111", "#555555", "#888888", "#333333", "#777777", "#222222"]
 
 
-def mixture_chart(entries: list[dict], width: int = 400, height: int = 95) -> alt.LayerChart:
-    """Air–fuel ratio against throttle opening, current and recommended settings, per session.
-
-    Draws the plan's ``mixture_curve`` of each entry (one bike, every session) over the target band
-    ``target_band_afr`` and the bike's reference mixture ``reference_afr``.
-    """
-    rows = []
-    for e in entries:
-        curve = e["mixture_curve"]
-        for setting, key in (("current", "current_afr"), ("recommended", "recommended_afr")):
-            for throttle, afr in zip(curve["throttle"], curve[key]):
-                rows.append({"throttle": throttle, "afr": afr, "setting": setting, "session": e["session"]})
-    curve0 = entries[0]["mixture_curve"]
-    lo, hi = curve0["target_band_afr"]
-    values = [r["afr"] for r in rows] + [lo, hi]
-    domain = [min(values) - 0.3, max(values) + 0.3]
-    x = alt.X("throttle:Q", title="throttle opening", axis=alt.Axis(format="%", tickCount=5),
-              scale=alt.Scale(domain=[0, 1], nice=False))
-    y = alt.Y("afr:Q", title="air–fuel ratio", scale=alt.Scale(domain=domain, nice=False, zero=False))
-    band = alt.Chart(alt.Data(values=[{"lo": lo, "hi": hi}])).mark_rect(color="#dddddd").encode(
-        y=alt.Y("lo:Q", scale=alt.Scale(domain=domain, nice=False, zero=False)), y2="hi:Q")
-    reference = alt.Chart(alt.Data(values=[{"afr": curve0["reference_afr"]}])).mark_rule(
-        color="#000000", strokeWidth=0.8, strokeDash=[2, 2]).encode(y="afr:Q")
-    lines = alt.Chart(alt.Data(values=rows)).mark_line(strokeWidth=1.6).encode(
-        x=x, y=y,
-        strokeDash=alt.StrokeDash("setting:N", scale=_SETTING_DASH, title="setting"),
-        color=alt.Color("session:N", scale=alt.Scale(range=_GREYS), title="session",
-                        sort=[e["session"] for e in entries]),
-        detail="session:N",
-    )
-    return alt.layer(band, reference, lines).properties(
-        width=width, height=height, padding={"left": 2, "top": 4, "right": 16, "bottom": 2}).configure_axis(labelFontSize=9, titleFontSize=9).configure_legend(
-        labelFontSize=9, titleFontSize=9).configure_view(strokeWidth=0.5)
-
-
 _LO, _HI = -98765.0, 98765.0  # placeholders for the y domain in the cached specification
 
 
@@ -75,26 +40,33 @@ def _mixture_template(sessions: tuple[str, ...], width: int, height: int) -> str
     return json.dumps(chart.to_dict(validate=False))
 
 
-def mixture_spec(entries: list[dict], width: int = 400, height: int = 95) -> dict:
-    """The Vega-Lite specification of :func:`mixture_chart`, from a cached Altair build.
-
-    Same chart as :func:`mixture_chart`; the Altair objects are built once per set of session
-    names and only the data change from bike to bike (building Altair objects costs ~0.3 s).
-    """
+def _mixture_rows(entries: list[dict]) -> tuple[list[dict], float, float]:
+    """The plan's ``mixture_curve`` of each entry as chart rows, and the target band."""
     rows = []
     for e in entries:
         curve = e["mixture_curve"]
         for setting, key in (("current", "current_afr"), ("recommended", "recommended_afr")):
             for throttle, afr in zip(curve["throttle"], curve[key]):
                 rows.append({"throttle": throttle, "afr": afr, "setting": setting, "session": e["session"]})
-    curve0 = entries[0]["mixture_curve"]
-    lo, hi = curve0["target_band_afr"]
+    lo, hi = entries[0]["mixture_curve"]["target_band_afr"]
+    return rows, lo, hi
+
+
+def mixture_spec(entries: list[dict], width: int = 400, height: int = 95) -> dict:
+    """Vega-Lite specification: air–fuel ratio against throttle opening, current and recommended.
+
+    Draws the plan's ``mixture_curve`` of each entry (one bike, every session) over the target
+    band ``target_band_afr`` and the bike's reference mixture ``reference_afr``. The Altair
+    objects are built once per set of session names (building them costs ~0.3 s) and only the
+    data change from bike to bike.
+    """
+    rows, lo, hi = _mixture_rows(entries)
     values = [r["afr"] for r in rows] + [lo, hi]
     text = _mixture_template(tuple(e["session"] for e in entries), width, height)
     text = text.replace(repr(_LO), repr(min(values) - 0.3)).replace(repr(_HI), repr(max(values) + 0.3))
     spec = json.loads(text)
     spec["datasets"] = {"curves": rows, "band": [{"lo": lo, "hi": hi}],
-                        "reference": [{"afr": curve0["reference_afr"]}]}
+                        "reference": [{"afr": entries[0]["mixture_curve"]["reference_afr"]}]}
     return spec
 
 
