@@ -24,8 +24,8 @@ def add_air_parser(sub) -> None:
         help="air state for one condition",
         description="Air state at a site: station pressure, humidity, moist and dry-air density, "
         "pressure and density altitude, SAE J1349 power correction, carburetor icing risk. "
-        "Values may carry a unit in quotes ('4400 ft', '75 degF', '29.92 inHg', '40 %%'); bare numbers "
-        "are m, degC, hPa and %%. Give exactly one pressure and one humidity.",
+        "Values may carry a unit in quotes ('4400 ft', '75 degF', '29.92 inHg', '40 %'); bare numbers "
+        "are m, degC, hPa and %. Give exactly one pressure and one humidity.",
     )
     p.add_argument("--elevation", metavar="VALUE", help="site elevation above mean sea level (bare number: m)")
     p.add_argument("--temperature", metavar="VALUE", help="air temperature (bare number: degC)")
