@@ -39,6 +39,7 @@ def _jet(family: str, current: int, steps: int, stock: bool) -> dict:
     return {
         "family": family, "coding": "diameter", "current": current,
         "ideal": round(recommended + 0.4 * (1 if steps >= 0 else -1), 1),
+        "ideal_range": [round(recommended - 0.6, 1), round(recommended + 0.9, 1)],
         "recommended": recommended, "in_stock": stock if real_steps else True,
         "stock_choice": recommended if stock else None, "steps": real_steps,
         "direction": direction, "change": change,
@@ -137,6 +138,7 @@ def make_plan(n_bikes: int = 3, n_sessions: int = 2, bike_ids: list[str] | None 
                     "current_afr": [round(12.9 - 0.9 + 0.02 * i, 2) for i in range(21)],
                     "recommended_afr": [round(12.8 + 0.01 * (i % 3), 2) for i in range(21)],
                     "reference_afr": 12.8, "target_band_afr": [12.3, 13.2],
+                    "time": session["start"], "basis": "leanest hour of the session (largest required area factor)",
                 },
                 "rejet_temperatures_C": {"below": 2.0, "below_jet": main["recommended"] + 3,
                                          "above": 31.0, "above_jet": None},

@@ -209,3 +209,14 @@ def json_copy(value):
     import json
 
     return json.loads(json.dumps(value))
+
+
+def test_fixture_plan_keeps_the_plan_contract():
+    # consistency check (not validation): the invented plan the report tests use must have the
+    # shape that tuning.plan produces, as tuning/schemas/recommendations.schema.json states it
+    import json
+
+    import jsonschema
+
+    schema = json.loads((Path(__file__).parents[1] / "tuning/schemas/recommendations.schema.json").read_text())
+    jsonschema.Draft202012Validator(schema).validate(report_fixtures.make_plan(3, 4))
