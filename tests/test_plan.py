@@ -385,3 +385,34 @@ def test_screw_before_pilot_when_the_screw_can_reach(screw_kind):
     large = one_bike_plan(bike_kwargs={"mixture_screw": screw}, elevation=3000.0)["entries"][0]["settings"]
     assert large["pilot_jet"]["recommended"] < large["pilot_jet"]["current"]
     assert 1.0 <= large["mixture_screw"]["recommended_turns"] <= 3.0
+
+
+def _worst_mid_range_lean(doc):
+    worst = -1.0
+    for e in doc["entries"]:
+        c = e["mixture_curve"]
+        mid = [a for t, a in zip(c["throttle"], c["recommended_afr"]) if 0.25 <= t <= 0.75]
+        worst = max(worst, max(mid) / c["reference_afr"] - 1.0)
+    return worst
+
+
+def test_recommended_clip_never_leaves_mid_range_lean_on_the_demo():
+    # Safety (common practice: err rich; a lean engine seizes): across 1/4..3/4 throttle the
+    # recommended settings' predicted mixture, at each session's leanest hour, stays within
+    # the clip's lean limit plus the screw's quarter-turn resolution (2.5 % of pilot area,
+    # diluted by the circuit blend) of the reference mixture. The demo's needle taper made one
+    # groove 6 % lean at 3/8 throttle before the clip lean guard existed.
+    from tuning.config import load_event, load_fleet
+
+    root = Path(__file__).parents[1] / "fleet_configs"
+    fleet = load_fleet(root / "demo-fleet.yaml")
+    doc = plan.make_plan(fleet, load_event(root / "demo-event.yaml", fleet))
+    assert _worst_mid_range_lean(doc) <= plan.CLIP_LEAN_LIMIT + 0.01
+
+
+@settings(max_examples=25, deadline=None)
+@given(elevation=st.floats(0.0, 3000.0), celsius=st.floats(-5.0, 35.0), clip=st.integers(1, 5))
+def test_recommended_clip_never_leaves_mid_range_lean(elevation, celsius, clip):
+    # same property on the invented tapered needle, over sites and temperatures
+    doc = one_bike_plan(bike_kwargs={"clip": clip}, elevation=elevation, celsius=celsius)
+    assert _worst_mid_range_lean(doc) <= plan.CLIP_LEAN_LIMIT + 0.01

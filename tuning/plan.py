@@ -32,7 +32,10 @@ Choices documented here (where DESIGN.md is silent)
   the delivered factor is the series area (annulus, main jet) against the current one; else
   each groove changes the annulus by :data:`tuning.carb.ASSUMED_GROOVE_AREA_STEP` (10 %, from
   memory) and the annulus is taken equal in area to the main jet, so both count with
-  exponent ½ (the series law for equal areas).
+  exponent ½ (the series law for equal areas). A groove that would leave any of those
+  openings, in any hour, more than :data:`CLIP_LEAN_LIMIT` (2 %) leaner than the reference
+  mixture is not chosen, whatever its loss (the taper can make one groove lean at a single
+  opening while rich elsewhere).
 * Pilot jet and screw: the screw comes first, since turning it takes seconds and a pilot
   jet means taking the float bowl off. When the fitted pilot, trimmed with the screw in
   quarter turns (:data:`tuning.carb.ASSUMED_SCREW_EFFECT_PER_TURN`, 10 % per turn, from
@@ -102,6 +105,10 @@ RICH_WEIGHT = 1.0  #: loss weight of a rich deviation
 FACTOR_RANGE = (0.80, 1.15)  #: area factors the model is trusted in (our choice)
 THROTTLE = np.round(np.linspace(0.0, 1.0, 21), 2)  #: throttle openings of the mixture curve [1]
 MID_RANGE_OPENINGS = np.array([0.25, 0.375, 0.5, 0.625, 0.75])  #: where the clip is judged [1]
+#: Clip lean guard: a groove that leaves any mid-range opening, in any hour of the session,
+#: leaner than the reference mixture by more than this fraction is not chosen (our choice:
+#: err rich; about half a main-jet step). Where every groove does, the least lean one is.
+CLIP_LEAN_LIMIT = 0.02
 TARGET_BAND = (0.95, 1.02)  #: acceptable mixture, × reference AFR (5 % rich .. 2 % lean; our choice)
 COLD_START_K = 273.15 + 5.0  #: below this at the session start: cold-start warning
 CHOKE_K = 273.15 + 10.0  #: below this during the session: choke check
@@ -305,6 +312,18 @@ class WindowLoss:
         rich = s2_lo * inv * inv - 2.0 * s1_lo * inv + k
         lean = s2_hi * inv * inv - 2.0 * s1_hi * inv + (n - k)
         return (RICH_WEIGHT * rich + LEAN_WEIGHT * lean).reshape(shape)
+
+
+def _clip_lean_guard(loss, leanest):
+    """Rule out grooves leaner than :data:`CLIP_LEAN_LIMIT` anywhere; if all are, keep the least lean.
+
+    ``loss`` and ``leanest`` are (rows, grooves); ``leanest`` is the largest lean deviation of
+    the predicted mixture over the openings and hours (positive = lean).
+    """
+    leanest = np.where(np.isfinite(loss), leanest, np.inf)
+    allowed = leanest <= CLIP_LEAN_LIMIT
+    fallback = leanest <= leanest.min(axis=1, keepdims=True)
+    return np.where(np.where(allowed.any(axis=1, keepdims=True), allowed, fallback), loss, np.inf)
 
 
 def _argmin_richer(loss):
@@ -771,6 +790,7 @@ def make_plan(fleet, event) -> dict:
             clip_mode[r] = 1
             geo_rows.append(r)
     g_max = int(grooves.max(initial=1))
+    required_max = np.where(valid, req_fill, -np.inf).max(axis=1) if n_rows else np.zeros(0)
     groove_numbers = np.arange(1, g_max + 1)
 
     if geo_rows:
@@ -801,6 +821,7 @@ def make_plan(fleet, event) -> dict:
         delivered = needle_factor(MID_RANGE_OPENINGS, groove_grid)  # (R, G, T)
         loss = wl(delivered, gr).sum(axis=-1)
         loss = np.where(groove_numbers[None, :] <= grooves[gr][:, None], loss, np.inf)
+        loss = _clip_lean_guard(loss, (required_max[gr][:, None, None] / delivered).max(axis=-1) - 1.0)
         clip_new[gr] = groove_numbers[_argmin_richer(loss)]
         chosen = clip_new[gr][:, None]
         needle_curve[gr] = needle_factor(THROTTLE, chosen)[:, 0, :]
@@ -812,6 +833,7 @@ def make_plan(fleet, event) -> dict:
         delivered = np.sqrt(main_delivered[as_rows])[:, None] * step ** (0.5 * moves)  # (R, G)
         loss = wl(delivered, as_rows)
         loss = np.where(groove_numbers[None, :] <= grooves[as_rows][:, None], loss, np.inf)
+        loss = _clip_lean_guard(loss, required_max[as_rows][:, None] / delivered - 1.0)
         clip_new[as_rows] = groove_numbers[_argmin_richer(loss)]
         chosen = np.sqrt(main_delivered[as_rows]) * step ** (0.5 * (clip_new[as_rows] - clip_now[as_rows]))
         needle_curve[as_rows] = chosen[:, None]
