@@ -94,8 +94,16 @@ def weather_chart(plan: dict, width: int = 560, height: int = 110) -> alt.VConca
 
 
 def to_svg(chart) -> str:
-    """Static SVG of an Altair chart (or its Vega-Lite dict) via vl-convert (no browser, no network)."""
+    """Static SVG of an Altair chart (or its Vega-Lite dict) via vl-convert (no browser, no network).
+
+    Identical specifications (bikes of one model with the same plan) are converted once.
+    """
     spec = chart if isinstance(chart, dict) else chart.to_dict(validate=False)
-    svg = vl_convert.vegalite_to_svg(spec)
+    return _svg_of(json.dumps(spec, sort_keys=True))
+
+
+@lru_cache(maxsize=256)
+def _svg_of(spec_json: str) -> str:
+    svg = vl_convert.vegalite_to_svg(json.loads(spec_json))
     # Drop the XML prolog if any, so the SVG can sit inline in HTML.
     return svg[svg.find("<svg"):] if "<svg" in svg else svg
