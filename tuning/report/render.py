@@ -169,7 +169,7 @@ def sheet_html(plan: dict, entries: list[dict], paper: str = "a4", density: str 
     context = _common(plan, paper, f"{plan['event']} · sheet {entries[0]['bike']}", page_numbers=False)
     if chart_svg is None:
         chart_svg = charts.to_svg(charts.mixture_spec(entries))
-    context.update(s=rows, chart_svg=chart_svg, density=density,
+    context.update(s=rows, chart_src=charts.svg_data_uri(chart_svg), density=density,
                    ref_text=_reference_text(entries[0]["reference"]))
     return environment().get_template("sheet.html.j2").render(**context)
 
@@ -204,7 +204,7 @@ def layout(html: str, base_url: Path):
     import weasyprint
 
     install_font_subset_cache()
-    return weasyprint.HTML(string=html, base_url=str(base_url), url_fetcher=_no_fetch).render()
+    return weasyprint.HTML(string=html, base_url=str(base_url), url_fetcher=_no_fetch()).render()
 
 
 def write_pdf(html: str, path: Path, base_url: Path) -> Path:
@@ -226,8 +226,13 @@ def write_sheet(plan: dict, entries: list[dict], html_path: Path, pdf_path: Path
     return len(document.pages)
 
 
-def _no_fetch(url: str, *args, **kwargs):
-    raise ValueError(f"carbfleet reports load nothing from outside the page: {url}")
+@lru_cache(maxsize=1)
+def _no_fetch():
+    """A fetcher that reads ``data:`` URLs only (the sheet's chart); any other URL stops the
+    rendering: carbfleet reports load nothing from outside the page."""
+    from weasyprint.urls import URLFetcher
+
+    return URLFetcher(allowed_protocols={"data"}, fail_on_errors=True)
 
 
 @dataclass
