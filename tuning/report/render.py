@@ -6,6 +6,8 @@ Runs inside the notebook kernels (``notebooks/*.ipynb`` call :func:`render_setup
 
 from __future__ import annotations
 
+import contextlib
+import gc
 import html as html_lib
 import json
 import logging
@@ -265,16 +267,48 @@ def render_setup_sheets(plan: dict, out_dir: str | Path, bikes=(), paper: str = 
         raise UserError(f"bikes: {unknown[0]!r} is not in the plan; give bike ids from the fleet file")
     batch = SheetBatch(out)
     pin_font_timestamps(plan)
-    for bike in wanted:
-        try:
-            stem = names[bike]
-            write_sheet(plan, grouped[bike], out / "sheets" / f"{stem}.html", out / "sheets" / f"{stem}.pdf", paper)
-        except UserError:
-            raise
-        except Exception as exc:
-            raise BuildError(f"setup sheet of bike {bike!r} failed: {type(exc).__name__}: {exc}") from exc
-        batch.rows.append((bike, stem, sum(len(e["warnings"]) for e in grouped[bike])))
+    with _collect_every(GC_EVERY_SHEETS) as sheet_done:
+        for bike in wanted:
+            try:
+                stem = names[bike]
+                write_sheet(plan, grouped[bike], out / "sheets" / f"{stem}.html", out / "sheets" / f"{stem}.pdf", paper)
+            except UserError:
+                raise
+            except Exception as exc:
+                raise BuildError(f"setup sheet of bike {bike!r} failed: {type(exc).__name__}: {exc}") from exc
+            batch.rows.append((bike, stem, sum(len(e["warnings"]) for e in grouped[bike])))
+            sheet_done()
     return batch
+
+
+#: Sheets rendered between two garbage collections (see :func:`_collect_every`).
+GC_EVERY_SHEETS = 20
+
+
+@contextlib.contextmanager
+def _collect_every(n: int):
+    """Pause Python's automatic garbage collection and collect once every ``n`` calls instead.
+
+    WeasyPrint builds large object graphs per page; the automatic collector walking them costs
+    about a quarter of a sheet's time (measured with benchmarks/build_bench.py). Collecting every
+    ``n`` sheets keeps memory bounded. The collector's previous state is restored.
+    """
+    was_enabled = gc.isenabled()
+    gc.disable()
+    count = 0
+
+    def done():
+        nonlocal count
+        count += 1
+        if count % n == 0:
+            gc.collect()
+
+    try:
+        yield done
+    finally:
+        gc.collect()
+        if was_enabled:
+            gc.enable()
 
 
 @dataclass
