@@ -8,11 +8,12 @@ Figures printed:
 - build: wall time of ``build_from_plan`` (papermill kernels, sheets, summary, print pack);
 - floor: rendering the same finished HTML sheets to PDF in this one process, plus one notebook
   kernel start; the build should stay under 1.5 x this floor;
-- peak RSS of the build's process tree (this process + kernels), sampled from /proc every 0.1 s,
-  and the getrusage figure (self + largest child).
+- the median of ``--repeat`` timed builds (run without the memory sampler);
+- peak RSS of the build's process tree (this process + kernels) at ``--memory-bikes``, sampled
+  from /proc every 0.1 s, and the getrusage figure (self + largest child).
 Also says which font subsetter WeasyPrint used (HarfBuzz-subset is about 2x faster than fontTools).
 
-Usage: .venv/bin/python benchmarks/build_bench.py [--bikes 100] [--memory-bikes 500] [--workers 2]
+Usage: .venv/bin/python benchmarks/build_bench.py [--bikes 100] [--repeat 3] [--memory-bikes 500] [--workers 2]
 """
 
 from __future__ import annotations
@@ -23,6 +24,7 @@ import json
 import os
 import resource
 import shutil
+import statistics
 import subprocess
 import sys
 import tempfile
@@ -84,8 +86,12 @@ def tree_rss_bytes(pid: int) -> int:
     return total
 
 
-def run_build(n_bikes: int, workers: int) -> dict:
-    """Build a generated fleet in this process; return wall time and peak tree RSS."""
+def run_build(n_bikes: int, workers: int, sample: bool = True) -> dict:
+    """Build a generated fleet in this process; return wall time and peak tree RSS.
+
+    With ``sample`` False the memory sampler (a thread reading /proc every 0.1 s, which costs CPU
+    of its own) does not run and the peak RSS is reported as 0.
+    """
     from tuning.report import pipeline
 
     plan = generated_plan(n_bikes)
@@ -93,18 +99,20 @@ def run_build(n_bikes: int, workers: int) -> dict:
     peak = [0]
     stop = threading.Event()
 
-    def sample():
+    def sample_rss():
         while not stop.is_set():
             peak[0] = max(peak[0], tree_rss_bytes(os.getpid()))
             time.sleep(0.1)
 
-    sampler = threading.Thread(target=sample, daemon=True)
-    sampler.start()
+    sampler = threading.Thread(target=sample_rss, daemon=True)
+    if sample:
+        sampler.start()
     started = time.perf_counter()
     result = pipeline.build_from_plan(plan, out, quiet=True, workers=workers)
     seconds = time.perf_counter() - started
     stop.set()
-    sampler.join()
+    if sample:
+        sampler.join()
     usage = (resource.getrusage(resource.RUSAGE_SELF).ru_maxrss
              + resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss) * 1024
     return {"bikes": n_bikes, "seconds": seconds, "peak_tree_rss_MB": peak[0] / 1e6,
@@ -146,28 +154,38 @@ def main() -> None:
     parser.add_argument("--bikes", type=int, default=100)
     parser.add_argument("--memory-bikes", type=int, default=500, help="fleet size for the memory figure (0: skip)")
     parser.add_argument("--workers", type=int, default=2)
+    parser.add_argument("--repeat", type=int, default=3, help="timed builds (the median is the figure)")
     parser.add_argument("--child", action="store_true", help=argparse.SUPPRESS)
+    parser.add_argument("--no-sample", action="store_true", help=argparse.SUPPRESS)
     args = parser.parse_args()
     if args.child:  # one build in a fresh process, so getrusage covers it alone
-        print(json.dumps(run_build(args.bikes, args.workers)))
+        print(json.dumps(run_build(args.bikes, args.workers, sample=not args.no_sample)))
         return
     print(f"cores: {os.cpu_count()}, load average before: {os.getloadavg()[0]:.2f}")
-    speed = json.loads(subprocess.run([sys.executable, __file__, "--child", "--bikes", str(args.bikes),
-                                       "--workers", str(args.workers)], check=True, capture_output=True,
-                                      text=True).stdout.strip().splitlines()[-1])
+
+    def child(bikes: int, sample: bool) -> dict:
+        command = [sys.executable, __file__, "--child", "--bikes", str(bikes), "--workers", str(args.workers)]
+        run = subprocess.run(command + ([] if sample else ["--no-sample"]), check=True, capture_output=True, text=True)
+        return json.loads(run.stdout.strip().splitlines()[-1])
+
+    runs = []
+    for _ in range(max(1, args.repeat)):
+        runs.append(child(args.bikes, sample=False))
+        if len(runs) < args.repeat:
+            shutil.rmtree(Path(runs[-1]["out"]).parent, ignore_errors=True)
+    speed = runs[-1]
+    seconds = statistics.median(r["seconds"] for r in runs)
     base = floor(Path(speed["out"]))
     print(f"font subsetter: {speed['font_subsetter']}")
-    print(f"build, {args.bikes} bikes x 4 sessions, {args.workers} workers: {speed['seconds']:.1f} s "
-          f"({speed['seconds'] / args.bikes * 1000:.0f} ms per bike)")
+    each = ", ".join(f"{r['seconds']:.1f}" for r in runs)
+    print(f"build, {args.bikes} bikes x 4 sessions, {args.workers} workers: median {seconds:.1f} s of "
+          f"{len(runs)} runs ({each}); {seconds / args.bikes * 1000:.0f} ms per bike")
     print(f"floor: kernel start {base['kernel_start_s']:.1f} s + one-process PDF of {base['sheets']} finished "
           f"sheets {base['render_s']:.1f} s = {base['floor_s']:.1f} s")
-    print(f"build / floor: {speed['seconds'] / base['floor_s']:.2f} (target <= 1.5); build target < 25 s")
-    print(f"peak RSS of the process tree at {args.bikes} bikes: {speed['peak_tree_rss_MB']:.0f} MB")
+    print(f"build / floor: {seconds / base['floor_s']:.2f} (target <= 1.5); build target < 25 s")
     shutil.rmtree(Path(speed["out"]).parent, ignore_errors=True)
     if args.memory_bikes:
-        memory = json.loads(subprocess.run([sys.executable, __file__, "--child", "--bikes", str(args.memory_bikes),
-                                            "--workers", str(args.workers)], check=True, capture_output=True,
-                                           text=True).stdout.strip().splitlines()[-1])
+        memory = child(args.memory_bikes, sample=True)
         shutil.rmtree(Path(memory["out"]).parent, ignore_errors=True)
         print(f"build, {args.memory_bikes} bikes: {memory['seconds']:.1f} s; peak RSS of the process tree "
               f"{memory['peak_tree_rss_MB']:.0f} MB (sampled), getrusage self + largest child "
