@@ -67,9 +67,7 @@ Warning codes (stable)
 
 from __future__ import annotations
 
-import contextlib
 import csv
-import gc
 import io
 import json
 import os
@@ -83,6 +81,7 @@ import numpy as np
 
 from tuning import air, carb, fuel
 from tuning.errors import UserError
+from tuning.gcpause import gc_paused
 
 __all__ = [
     "FORMAT",
@@ -152,17 +151,6 @@ def _num(value):
         return None
     value = float(value)
     return int(value) if value.is_integer() else round(value, 2)
-
-
-@contextlib.contextmanager
-def _gc_paused():
-    enabled = gc.isenabled()
-    gc.disable()
-    try:
-        yield
-    finally:
-        if enabled:
-            gc.enable()
 
 
 def _nums(values):
@@ -380,7 +368,7 @@ def choose_sizes(current, required, valid, sizes, coding, allowed=None, window_l
     current = np.asarray(current, float)
     required = np.asarray(required, float)
     valid = np.asarray(valid, bool)
-    n_rows, k = len(current), len(sizes)
+    k = len(sizes)
     if window_loss is None:
         window_loss, rows = WindowLoss(required, valid), None
     ideal = carb.jet_number_for_area_factor(current[:, None], np.where(valid, required, 1.0), coding)
@@ -945,7 +933,7 @@ def make_plan(fleet, event) -> dict:
     pilot_cols = jet_columns(pilot)
     # Building ~10^5..10^6 small dicts: pause the cyclic garbage collector meanwhile (they hold
     # no cycles); its repeated passes otherwise cost about a third of the planning time.
-    with _gc_paused():
+    with gc_paused():
         entries = []
         pick_needed: dict[tuple[str, float], int] = {}
         picked_by_bike: dict[tuple[int, str, float], bool] = {}

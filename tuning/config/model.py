@@ -13,7 +13,7 @@ Conventions of the trade kept here (common practice):
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 from datetime import datetime
 from pathlib import Path
 from typing import Literal, Mapping

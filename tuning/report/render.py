@@ -6,8 +6,6 @@ Runs inside the notebook kernels (``notebooks/*.ipynb`` call :func:`render_setup
 
 from __future__ import annotations
 
-import contextlib
-import gc
 import html as html_lib
 import json
 import logging
@@ -19,6 +17,7 @@ from pathlib import Path
 import jinja2
 
 from tuning.errors import BuildError, UserError
+from tuning.gcpause import gc_paused
 from tuning.report import charts, tables
 from tuning.report.names import safe_file_names
 
@@ -267,7 +266,7 @@ def render_setup_sheets(plan: dict, out_dir: str | Path, bikes=(), paper: str = 
         raise UserError(f"bikes: {unknown[0]!r} is not in the plan; give bike ids from the fleet file")
     batch = SheetBatch(out)
     pin_font_timestamps(plan)
-    with _collect_every(GC_EVERY_SHEETS) as sheet_done:
+    with gc_paused(collect_every=GC_EVERY_SHEETS) as sheet_done:
         for bike in wanted:
             try:
                 stem = names[bike]
@@ -281,34 +280,8 @@ def render_setup_sheets(plan: dict, out_dir: str | Path, bikes=(), paper: str = 
     return batch
 
 
-#: Sheets rendered between two garbage collections (see :func:`_collect_every`).
+#: Sheets rendered between two garbage collections (see :func:`tuning.gcpause.gc_paused`).
 GC_EVERY_SHEETS = 20
-
-
-@contextlib.contextmanager
-def _collect_every(n: int):
-    """Pause Python's automatic garbage collection and collect once every ``n`` calls instead.
-
-    WeasyPrint builds large object graphs per page; the automatic collector walking them costs
-    about a quarter of a sheet's time (measured with benchmarks/build_bench.py). Collecting every
-    ``n`` sheets keeps memory bounded. The collector's previous state is restored.
-    """
-    was_enabled = gc.isenabled()
-    gc.disable()
-    count = 0
-
-    def done():
-        nonlocal count
-        count += 1
-        if count % n == 0:
-            gc.collect()
-
-    try:
-        yield done
-    finally:
-        gc.collect()
-        if was_enabled:
-            gc.enable()
 
 
 @dataclass
