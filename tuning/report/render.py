@@ -281,7 +281,7 @@ def render_setup_sheets(plan: dict, out_dir: str | Path, bikes=(), paper: str = 
 
 
 #: Sheets rendered between two garbage collections (see :func:`tuning.gcpause.gc_paused`).
-GC_EVERY_SHEETS = 20
+GC_EVERY_SHEETS = 10
 
 
 @dataclass
