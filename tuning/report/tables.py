@@ -71,20 +71,13 @@ def _text(value) -> str:
     return "–" if value is None else f"{value}"
 
 
-def _circuit_current(key: str, s: dict, unit: bool = True) -> str:
+def _circuit_value(key: str, s: dict, which: str, unit: bool = True) -> str:
+    """A circuit's ``which`` ("current" or "recommended") setting for print."""
     if key == "clip":
-        return f"groove {_text(s['current'])}" if unit else _text(s["current"])
+        return f"groove {_text(s[which])}" if unit else _text(s[which])
     if key == "mixture_screw":
-        return f"{turns(s['current_turns'])} turns out" if unit else turns(s["current_turns"])
-    return _text(s["current"])
-
-
-def _circuit_recommended(key: str, s: dict, unit: bool = True) -> str:
-    if key == "clip":
-        return f"groove {_text(s['recommended'])}" if unit else _text(s["recommended"])
-    if key == "mixture_screw":
-        return f"{turns(s['recommended_turns'])} turns out" if unit else turns(s["recommended_turns"])
-    return _text(s["recommended"])
+        return f"{turns(s[which + '_turns'])} turns out" if unit else turns(s[which + "_turns"])
+    return _text(s[which])
 
 
 def _stock_text(key: str, s: dict) -> str:
@@ -141,11 +134,11 @@ def sheet_rows(entries: list[dict]) -> dict:
         for e in entries:
             s = e["settings"][key]
             cells.append({
-                "recommended": _circuit_recommended(key, s, unit=False), "change": s["change"],
+                "recommended": _circuit_value(key, s, "recommended", unit=False), "change": s["change"],
                 "changed": _changed(key, s), "stock": _stock_text(key, s),
                 "short": key in ("main_jet", "pilot_jet") and s.get("steps", 0) != 0 and s.get("in_stock") is False,
             })
-        circuits.append({"key": key, "label": title, "detail": detail, "current": _circuit_current(key, s0, unit=False), "cells": cells})
+        circuits.append({"key": key, "label": title, "detail": detail, "current": _circuit_value(key, s0, "current", unit=False), "cells": cells})
     float_levels = [e["settings"].get("float_level_mm") for e in entries]
     rejet = []
     for e in entries:
@@ -182,7 +175,7 @@ def change_set(entries: list[dict]) -> tuple:
         for key, _label in CIRCUITS:
             s = e["settings"][key]
             if _changed(key, s):
-                work.append((e["session"], key, _circuit_current(key, s), _circuit_recommended(key, s)))
+                work.append((e["session"], key, _circuit_value(key, s, "current"), _circuit_value(key, s, "recommended")))
     return tuple(work)
 
 
@@ -195,7 +188,7 @@ def change_words(entries: list[dict]) -> list[str]:
         for key, _label in CIRCUITS:
             s = e["settings"][key]
             if _changed(key, s):
-                parts.append(f"{short[key]} {_circuit_current(key, s)} → {_circuit_recommended(key, s)}")
+                parts.append(f"{short[key]} {_circuit_value(key, s, 'current')} → {_circuit_value(key, s, 'recommended')}")
         lines.append(f"{e['session']}: {', '.join(parts) if parts else 'no change'}")
     return lines
 
