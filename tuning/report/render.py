@@ -304,7 +304,8 @@ def render_fleet_report(plan: dict, out_dir: str | Path, paper: str = "a4", note
         html = summary_html(plan, paper)
         (out / "fleet-summary.html").write_text(html, encoding="utf-8")
         # In print the links would point into the temporary build folder: leave them out.
-        write_pdf(summary_html(plan, paper, links=False), out / "fleet-summary.pdf", out)
+        with gc_paused():
+            write_pdf(summary_html(plan, paper, links=False), out / "fleet-summary.pdf", out)
         (out / "index.html").write_text(index_html(plan, list(notebooks)), encoding="utf-8")
     except UserError:
         raise
