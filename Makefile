@@ -1,32 +1,44 @@
 # carbfleet: `make demo` builds the demo fleet's reports, `make test` runs the whole suite.
-# Both create the virtual environment .venv on first use.
+# Both create the virtual environment .venv on first use; `make demo` installs only what
+# carbfleet needs to run, `make test` adds the test extra.
 PYTHON ?= python3
 VENV   ?= .venv
 PY      = $(VENV)/bin/python
 STAMP   = $(VENV)/.installed
+TESTSTAMP = $(VENV)/.installed-test
 
-.PHONY: demo test bench check clean distclean
+.PHONY: demo test bench wheel-check clean distclean
 
-$(STAMP): pyproject.toml
-	@$(PYTHON) -c 'import sys; sys.exit(0 if sys.version_info >= (3, 11) else "carbfleet needs Python 3.11 or newer")'
-	test -x $(PY) || $(PYTHON) -m venv $(VENV)
+$(VENV)/bin/python:
+	@$(PYTHON) -c 'import sys; sys.exit(0 if (3, 11) <= sys.version_info[:2] <= (3, 13) else "carbfleet needs Python 3.11 to 3.13")'
+	$(PYTHON) -m venv $(VENV)
 	$(PY) -m pip install --quiet --upgrade pip
-	$(PY) -m pip install --quiet -e '.[test]'
+
+$(STAMP): pyproject.toml | $(VENV)/bin/python
+	$(PY) -m pip install --quiet -e .
 	touch $(STAMP)
 
+$(TESTSTAMP): pyproject.toml | $(VENV)/bin/python
+	$(PY) -m pip install --quiet -e '.[test]'
+	touch $(STAMP) $(TESTSTAMP)
+
 demo: $(STAMP)
-	$(VENV)/bin/carbfleet build fleet_configs/demo-fleet.yaml fleet_configs/demo-event.yaml --out out
+	$(VENV)/bin/carbfleet build tuning/demo/demo-fleet.yaml tuning/demo/demo-event.yaml --out out
 	@echo "open out/index.html, or print out/print-pack.pdf"
 
-test: $(STAMP)
+test: $(TESTSTAMP)
 	$(PY) -m pytest
 
-bench: $(STAMP)
+bench: $(TESTSTAMP)
 	$(PY) benchmarks/plan_bench.py
 	$(PY) benchmarks/build_bench.py
+
+# A wheel installed into a fresh virtual environment builds the demo from a folder outside the checkout.
+wheel-check:
+	PYTHON=$(PYTHON) bash .ci/wheel-check
 
 clean:
 	rm -rf out .pytest_cache
 
 distclean: clean
-	rm -rf $(VENV) *.egg-info
+	rm -rf $(VENV) .venv-* *.egg-info build dist

@@ -40,8 +40,8 @@ def demo_plan() -> dict:
     from tuning.config import load_event, load_fleet
     from tuning.plan import make_plan
 
-    fleet = load_fleet(ROOT / "fleet_configs" / "demo-fleet.yaml")
-    return make_plan(fleet, load_event(ROOT / "fleet_configs" / "demo-event.yaml", fleet))
+    fleet = load_fleet(ROOT / "tuning" / "demo" / "demo-fleet.yaml")
+    return make_plan(fleet, load_event(ROOT / "tuning" / "demo" / "demo-event.yaml", fleet))
 
 
 def generated_plan(n_bikes: int) -> dict:

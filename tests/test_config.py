@@ -17,7 +17,7 @@ import pytest
 from tuning.config import load_event, load_fleet, model
 from tuning.errors import ConfigError
 
-DEMO = Path(__file__).resolve().parent.parent / "fleet_configs"
+DEMO = Path(__file__).resolve().parent.parent / "tuning" / "demo"
 
 
 @pytest.fixture(scope="module")

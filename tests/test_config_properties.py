@@ -18,7 +18,7 @@ from hypothesis import strategies as st
 from tuning.config import load_event, load_fleet
 from tuning.errors import ConfigError
 
-DEMO = Path(__file__).resolve().parent.parent / "fleet_configs"
+DEMO = Path(__file__).resolve().parent.parent / "tuning" / "demo"
 FLEET_DOC = yaml.safe_load((DEMO / "demo-fleet.yaml").read_text())
 EVENT_DOC = yaml.safe_load((DEMO / "demo-event.yaml").read_text())
 METAR_DOC = yaml.safe_load((DEMO / "demo-event-metar.yaml").read_text())

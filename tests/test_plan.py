@@ -404,7 +404,7 @@ def test_recommended_clip_never_leaves_mid_range_lean_on_the_demo():
     # groove 6 % lean at 3/8 throttle before the clip lean guard existed.
     from tuning.config import load_event, load_fleet
 
-    root = Path(__file__).parents[1] / "fleet_configs"
+    root = Path(__file__).parents[1] / "tuning" / "demo"
     fleet = load_fleet(root / "demo-fleet.yaml")
     doc = plan.make_plan(fleet, load_event(root / "demo-event.yaml", fleet))
     assert _worst_mid_range_lean(doc) <= plan.CLIP_LEAN_LIMIT + 0.01

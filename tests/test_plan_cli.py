@@ -1,4 +1,4 @@
-"""`carbfleet plan` end to end on the invented demo scenario (fleet_configs/demo-*.yaml)."""
+"""`carbfleet plan` end to end on the invented demo scenario (tuning/demo/demo-*.yaml)."""
 
 import json
 from pathlib import Path
@@ -10,8 +10,8 @@ from tuning import plan
 from tuning.cli import main
 
 ROOT = Path(__file__).resolve().parents[1]
-FLEET = ROOT / "fleet_configs" / "demo-fleet.yaml"
-EVENT = ROOT / "fleet_configs" / "demo-event.yaml"
+FLEET = ROOT / "tuning" / "demo" / "demo-fleet.yaml"
+EVENT = ROOT / "tuning" / "demo" / "demo-event.yaml"
 SCHEMA = json.loads((Path(plan.__file__).parent / "schemas" / "recommendations.schema.json").read_text())
 
 pytestmark = [

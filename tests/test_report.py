@@ -187,7 +187,7 @@ def test_no_network_resource_in_rendered_pages(plan4):
 
 
 def test_every_warning_code_is_documented():
-    readme = Path(render.PROJECT_ROOT / "tuning" / "report" / "__init__.py").read_text(encoding="utf-8")
+    readme = (Path(__file__).resolve().parents[1] / "tuning" / "report" / "__init__.py").read_text(encoding="utf-8")
     for code in ("factor-out-of-range", "ideal-outside-family", "stock-shortage", "screw-out-of-range",
                  "window-too-wide", "icing-risk", "cold-start", "hot-fuel", "assumed-needle-geometry",
                  "assumed-screw-range", "no-needle"):

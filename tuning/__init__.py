@@ -4,4 +4,4 @@ Imports run one way: ``cli -> report -> plan -> (config, history) -> physics -> 
 where the physics modules are :mod:`tuning.air`, :mod:`tuning.fuel` and :mod:`tuning.carb`.
 """
 
-__version__ = "0.1.0"
+__version__ = "0.2.0"

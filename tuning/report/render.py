@@ -1,6 +1,6 @@
 """Render the plan to HTML (Jinja, autoescaped) and PDF (WeasyPrint): setup sheets, summary, index.
 
-Runs inside the notebook kernels (``notebooks/*.ipynb`` call :func:`render_setup_sheets` and
+Runs inside the notebook kernels (``tuning/notebooks/*.ipynb`` call :func:`render_setup_sheets` and
 :func:`render_fleet_report`) and can be called directly. Formats the plan; computes no physics.
 """
 
@@ -16,13 +16,13 @@ from pathlib import Path
 
 import jinja2
 
+from tuning import __version__
 from tuning.errors import BuildError, UserError
 from tuning.gcpause import gc_paused
 from tuning.report import charts, tables
 from tuning.report.names import safe_file_names
 
 PAPER_SIZES = {"a4": "A4 portrait", "letter": "letter portrait"}
-PROJECT_ROOT = Path(__file__).resolve().parents[2]
 TEMPLATES = Path(__file__).resolve().parent / "templates"
 
 # WeasyPrint logs a warning per document when HarfBuzz's subset library is missing; say it once.
@@ -102,31 +102,33 @@ def page_css(paper: str, footer_left: str, page_numbers: bool = True) -> str:
         page_size=PAPER_SIZES[paper], footer_left=_css_string(footer_left), page_numbers=page_numbers)
 
 
-def _resolve(path: str | Path) -> Path:
-    p = Path(path)
-    if not p.is_absolute() and not p.exists() and (PROJECT_ROOT / p).exists():
-        return PROJECT_ROOT / p
-    return p
-
-
 def load_plan(fleet_path: str = "", event_path: str = "", plan_path: str = "") -> dict:
     """Return the plan document: read ``plan_path`` (JSON) if given, else compute it from the files.
 
-    Relative paths that do not exist from the working folder are tried from the project root, so a
-    notebook runs from any folder.
+    Relative paths are taken from the working folder (a notebook's own folder in Jupyter) and
+    nothing else: a file that is not there is an error, never replaced by another. Only when
+    both ``fleet_path`` and ``event_path`` are empty is the demo scenario shipped with carbfleet
+    planned (the notebooks' defaults).
     """
     if plan_path:
-        path = _resolve(plan_path)
         try:
-            plan = json.loads(path.read_text(encoding="utf-8"))
+            plan = json.loads(Path(plan_path).read_text(encoding="utf-8"))
         except FileNotFoundError:
-            raise UserError(f"{plan_path}: plan file not found; give the recommendations.json of a plan") from None
+            raise UserError(f"{plan_path}: plan file not found (looked for {Path(plan_path).resolve()}); "
+                            "give the recommendations.json of a plan") from None
+        except (OSError, ValueError) as exc:
+            raise UserError(f"{plan_path}: cannot read the plan: {exc}") from None
     else:
-        from tuning.config import load_event, load_fleet  # imported late: written alongside
+        from tuning import resources
+        from tuning.config import load_event, load_fleet
         from tuning.plan import make_plan
 
-        fleet = load_fleet(_resolve(fleet_path))
-        event = load_event(_resolve(event_path), fleet)
+        if not fleet_path and not event_path:
+            fleet_path, event_path = resources.demo_file("demo-fleet.yaml"), resources.demo_file("demo-event.yaml")
+        elif not fleet_path or not event_path:
+            raise UserError("give both fleet_path and event_path (or neither, for the demo scenario)")
+        fleet = load_fleet(fleet_path)
+        event = load_event(event_path, fleet)
         plan = make_plan(fleet, event)
     if plan.get("format") != "carbfleet-plan/1":
         raise UserError(f"plan: expected format 'carbfleet-plan/1', got {plan.get('format')!r}")
@@ -149,7 +151,8 @@ def _common(plan: dict, paper: str, title: str, page_numbers: bool = True) -> di
     from tuning.report import CAUTIONS
 
     return {
-        "plan": plan, "css": page_css(paper, f"carbfleet · {title}", page_numbers), "stamp": _stamp(plan),
+        "plan": plan, "css": page_css(paper, f"carbfleet {__version__} · {title}", page_numbers), "stamp": _stamp(plan),
+        "version": __version__,
         "cautions": CAUTIONS, "ref_text": _reference_text(plan["reference"]),
         "site_elevation": tables.number(plan["site"]["elevation_m"], 0, "m"),
     }
