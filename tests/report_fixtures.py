@@ -154,7 +154,8 @@ def make_plan(n_bikes: int = 3, n_sessions: int = 2, bike_ids: list[str] | None 
                           "short": max(0, needed - in_stock)})
     pick_list.sort(key=lambda r: (r["short"] == 0, r["family"], r["size"]))
     return {
-        "format": "carbfleet-plan/1", "fleet": "Invented school fleet", "event": "Invented hill day",
+        "format": "carbfleet-plan/1",
+        "carbfleet_version": "0.0.0+invented", "fleet": "Invented school fleet", "event": "Invented hill day",
         "site": {"name": "Invented Ridge", "elevation_m": 1540.0, "time_zone": "Europe/Paris"},
         "reference": _reference(120.0), "sessions": sessions, "weather": weather,
         "pick_list": pick_list, "warnings_count": warnings_count, "entries": entries,

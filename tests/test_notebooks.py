@@ -1,6 +1,6 @@
 """The notebooks: thin, parameterised, stored without outputs, and executed here with papermill.
 
-Execution uses the demo scenario (fleet_configs/demo-*.yaml, an invented fleet) through the real
+Execution uses the demo scenario (tuning/demo/demo-*.yaml, an invented fleet) through the real
 path config -> plan -> report inside the kernel, and the whole ``carbfleet build`` command on it.
 """
 
@@ -19,9 +19,9 @@ from tuning.report import pipeline
 from tuning.report.names import safe_file_names
 
 ROOT = Path(__file__).resolve().parents[1]
-NOTEBOOKS = sorted((ROOT / "notebooks").glob("*.ipynb"))
-DEMO_FLEET = ROOT / "fleet_configs" / "demo-fleet.yaml"
-DEMO_EVENT = ROOT / "fleet_configs" / "demo-event.yaml"
+NOTEBOOKS = sorted((ROOT / "tuning" / "notebooks").glob("*.ipynb"))
+DEMO_FLEET = ROOT / "tuning" / "demo" / "demo-fleet.yaml"
+DEMO_EVENT = ROOT / "tuning" / "demo" / "demo-event.yaml"
 
 
 def test_the_two_notebooks_exist():
@@ -70,7 +70,7 @@ def test_setup_sheet_notebook_plans_from_the_files_in_kernel(demo_plan, tmp_path
     first = demo_plan["entries"][0]["bike"]
     output = tmp_path / "setup-sheets.ipynb"
     papermill.execute_notebook(
-        str(ROOT / "notebooks" / "setup-sheets.ipynb"), str(output), kernel_name="python3",
+        str(ROOT / "tuning" / "notebooks" / "setup-sheets.ipynb"), str(output), kernel_name="python3",
         parameters={"fleet_path": str(DEMO_FLEET), "event_path": str(DEMO_EVENT), "out_dir": str(tmp_path),
                     "paper": "letter", "bikes": [first]},
         progress_bar=False, kernel_manager_class=pipeline._manager_in(tmp_path))
@@ -131,3 +131,47 @@ def test_carbfleet_build_missing_file_exit_2(tmp_path, capsys):
     assert code == 2
     err = capsys.readouterr().err
     assert "nope.yaml" in err and "Traceback" not in err
+
+
+def test_executed_notebooks_run_again_from_the_output(demo_build):
+    # the kept notebooks name ../recommendations.json and write to ..: Jupyter runs them again
+    # in their own folder (papermill's cwd stands for that)
+    import papermill
+
+    code, out, _ = demo_build
+    assert code == 0
+    bikes = list(dict.fromkeys(e["bike"] for e in json.loads((out / "recommendations.json").read_text())["entries"]))
+    sheet = out / "sheets" / f"{safe_file_names(bikes)[bikes[0]]}.pdf"  # the first bike: shard 1
+    sheet.unlink()
+    rerun = out.parent / "rerun.ipynb"
+    papermill.execute_notebook(str(out / "notebooks" / "setup-sheets-1.ipynb"), str(rerun),
+                               cwd=str(out / "notebooks"), progress_bar=False, kernel_name="python3")
+    papermill.execute_notebook(str(out / "notebooks" / "fleet-report.ipynb"), str(rerun),
+                               cwd=str(out / "notebooks"), progress_bar=False, kernel_name="python3")
+    assert sheet.exists() and len(list((out / "sheets").glob("*.pdf"))) == len(bikes)
+
+
+def test_notebooks_run_alone_with_their_defaults_and_write_only_below_their_folder(tmp_path):
+    # run as Jupyter would run the notebook shipped in the package: defaults, the demo scenario
+    import papermill
+
+    from tuning.resources import notebook
+
+    work = tmp_path / "work"
+    work.mkdir()
+    for name in ("fleet-report.ipynb", "setup-sheets.ipynb"):
+        papermill.execute_notebook(str(notebook(name)), str(tmp_path / name), cwd=str(work),
+                                   progress_bar=False, kernel_name="python3")
+    written = sorted(str(p.relative_to(work)) for p in work.rglob("*") if p.is_file())
+    assert written and all(name.startswith("carbfleet-out/") for name in written)
+    assert "carbfleet-out/fleet-summary.pdf" in written and any(n.endswith(".pdf") and "/sheets/" in n for n in written)
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["fleet-report.ipynb", "setup-sheets.ipynb", "work"]
+
+
+def test_the_manifest_lists_exactly_what_the_build_wrote(demo_build):
+    from tuning.output import MANIFEST
+
+    code, out, _ = demo_build
+    listed = json.loads((out / MANIFEST).read_text())["files"]
+    present = sorted(str(p.relative_to(out)) for p in out.rglob("*") if p.is_file() and p.name != MANIFEST)
+    assert listed == present

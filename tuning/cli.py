@@ -6,9 +6,13 @@ Exit codes: 0 success, 1 build failure, 2 user error (bad file, value or name).
 from __future__ import annotations
 
 import argparse
+import contextlib
+import os
+import signal
 import sys
 
-from tuning.errors import CarbfleetError
+from tuning import __version__
+from tuning.errors import CarbfleetError, UserError
 
 EXIT_OK, EXIT_BUILD, EXIT_USER = 0, 1, 2
 
@@ -217,24 +221,31 @@ def add_plan_parser(sub) -> None:
     )
     p.add_argument("fleet", metavar="FLEET", help="fleet file (YAML)")
     p.add_argument("event", metavar="EVENT", help="event file (YAML) naming its weather table")
-    p.add_argument("--out", metavar="DIR", required=True, help="output folder (created when missing)")
+    p.add_argument("--out", metavar="DIR", required=True,
+                   help="output folder (created when missing); only the three plan files are written in it, "
+                   "all new or all old, and an existing file of those names only when carbfleet wrote it")
     p.set_defaults(func=cmd_plan)
 
 
 def cmd_plan(args) -> int:
-    from tuning.config import load_event, load_fleet
-    from tuning.plan import make_plan, write_plan_files
-
     import warnings
+    from pathlib import Path
 
+    from tuning.config import load_event, load_fleet
+    from tuning.output import check_file_set
+    from tuning.plan import PLAN_FILE_SIGNATURES, make_plan, write_plan_files
+
+    if not args.out.strip():
+        raise UserError("--out: the path is empty (an unset shell variable?); name a folder, e.g. --out plan")
+    check_file_set(Path(args.out), PLAN_FILE_SIGNATURES)  # before the work: fail fast
     fleet = load_fleet(args.fleet)
     event = load_event(args.event, fleet)
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
         plan = make_plan(fleet, event)
+    paths = write_plan_files(plan, args.out)
     for note in dict.fromkeys(str(w.message) for w in caught):  # one line each, no source echo
         print(f"carbfleet plan: note: {note}", file=sys.stderr)
-    paths = write_plan_files(plan, args.out)
     entries = plan["entries"]
     changed = sum(
         1 for e in entries if any(e["settings"][k]["steps"] for k in ("main_jet", "pilot_jet", "clip"))
@@ -263,16 +274,19 @@ def add_build_parser(sub) -> None:
         "build", help="build setup sheets and the fleet report",
         description="Plan every bike for every session and build the output folder: index.html, "
         "sheets/<bike>.html and .pdf (one printed page per bike), fleet-summary.html and .pdf, "
-        "print-pack.pdf, recommendations.json/.csv, pick-list.csv and the executed notebooks. "
-        "The folder is built beside DIR and moved into place at the end: a failed build leaves "
-        "the previous output as it was (exit 1).")
+        "print-pack.pdf, recommendations.json/.csv, pick-list.csv, the executed notebooks and "
+        "carbfleet-manifest.json (the list of what was written). The folder is built beside DIR and "
+        "moved into place at the end: a failed or interrupted build leaves the previous output as it "
+        "was (exit 1). DIR must be new, empty or an earlier build's output holding nothing else; the "
+        "current folder, the home folder and the folders of the input files are refused (exit 2).")
     p.add_argument("fleet", metavar="FLEET", help="fleet file (YAML)")
     p.add_argument("event", metavar="EVENT", help="event file (YAML)")
-    p.add_argument("--out", metavar="DIR", required=True, help="output folder (replaced when the build succeeds)")
+    p.add_argument("--out", metavar="DIR", required=True,
+                   help="output folder: new, empty, or an earlier build's (replaced when the build succeeds)")
     p.add_argument("--paper", choices=("a4", "letter"), default="a4", help="paper size of the PDFs (default a4)")
     p.add_argument("--quiet", action="store_true", help="no progress bar and no summary line")
     p.add_argument("--workers", type=int, default=2, metavar="N",
-                   help="notebook kernels rendering sheets in parallel (default 2)")
+                   help="notebook kernels rendering sheets in parallel, 1 to 8 (default 2)")
     p.set_defaults(func=cmd_build)
 
 
@@ -293,6 +307,47 @@ def cmd_build(args) -> int:
     return EXIT_OK
 
 
+# --- example ---------------------------------------------------------------------------
+def add_example_parser(sub) -> None:
+    p = sub.add_parser(
+        "example", help="copy the demo scenario's files into a folder, to try carbfleet or start from",
+        description="Write the invented demo scenario (a fleet file, an event file with its weather "
+        "table, an event with METAR reports) and the JSON Schemas of the two file kinds into DIR. "
+        "Existing files are never overwritten: the command stops, writing nothing, if any is there.")
+    p.add_argument("dir", metavar="DIR", help="folder to write the files into (created when missing)")
+    p.set_defaults(func=cmd_example)
+
+
+def cmd_example(args) -> int:
+    import json
+    from pathlib import Path
+
+    from tuning import resources
+    from tuning.config import event_schema, fleet_schema
+    from tuning.output import os_problem
+
+    folder = Path(args.dir)
+    files = {name: resources.demo_file(name).read_text(encoding="utf-8") for name in resources.DEMO_FILES}
+    for name, schema in (("fleet.schema.json", fleet_schema()), ("event.schema.json", event_schema())):
+        files[name] = json.dumps(schema, indent=2, ensure_ascii=False) + "\n"
+    there = [name for name in files if (folder / name).exists() or (folder / name).is_symlink()]
+    if there:
+        raise UserError(f"{folder / there[0]} exists; carbfleet example never overwrites a file: "
+                        "name a new or empty folder")
+    try:
+        folder.mkdir(parents=True, exist_ok=True)
+        for name, text in files.items():
+            with open(folder / name, "x", encoding="utf-8", newline="") as handle:
+                handle.write(text)
+    except OSError as exc:
+        raise os_problem("DIR", folder, exc) from None
+    print(f"wrote the demo scenario into {folder}:")
+    for name in files:
+        print(f"  {name}")
+    print(f"try: carbfleet build {folder / 'demo-fleet.yaml'} {folder / 'demo-event.yaml'} --out {folder / 'out'}")
+    return EXIT_OK
+
+
 # --- main ------------------------------------------------------------------------------
 def make_parser() -> argparse.ArgumentParser:
     parser = argparse.ArgumentParser(
@@ -301,26 +356,61 @@ def make_parser() -> argparse.ArgumentParser:
         "elevation and weather. Estimates only: confirm by a plug reading before hard riding.",
     )
     parser.add_argument("--debug", action="store_true", help="show tracebacks")
+    parser.add_argument("--version", action="version", version=f"carbfleet {__version__}")
     sub = parser.add_subparsers(dest="command", required=True, metavar="COMMAND")
     add_air_parser(sub)
     add_check_parsers(sub)
     add_plan_parser(sub)
     add_build_parser(sub)
+    add_example_parser(sub)
     return parser
+
+
+def _interrupt(signum, _frame):
+    """SIGTERM and SIGHUP stop carbfleet as Ctrl-C does: kernels stopped, temporary files removed."""
+    raise KeyboardInterrupt(signal.Signals(signum).name)
+
+
+@contextlib.contextmanager
+def _stop_signals_interrupt():
+    """Within the block, SIGTERM and SIGHUP raise KeyboardInterrupt (main thread only)."""
+    previous = {}
+    try:
+        for number in (signal.SIGTERM, signal.SIGHUP):
+            with contextlib.suppress(ValueError, OSError):  # not the main thread, or no such signal
+                previous[number] = signal.signal(number, _interrupt)
+        yield
+    finally:
+        for number, handler in previous.items():
+            signal.signal(number, handler)
+
+
+def _quiet_stdout() -> None:
+    """After a closed pipe (``carbfleet check ... | head``), send the rest of stdout nowhere."""
+    with contextlib.suppress(OSError, ValueError, AttributeError):
+        devnull = os.open(os.devnull, os.O_WRONLY)
+        os.dup2(devnull, sys.stdout.fileno())
 
 
 def main(argv: list[str] | None = None) -> int:
     parser = make_parser()
     args = parser.parse_args(argv)
     try:
-        return int(args.func(args) or EXIT_OK)
+        with _stop_signals_interrupt():
+            status = int(args.func(args) or EXIT_OK)
+            sys.stdout.flush()
+            return status
     except CarbfleetError as exc:
         if args.debug:
             raise
         print(f"carbfleet {args.command}: {exc}" if "\n" not in str(exc) else str(exc), file=sys.stderr)
         return exc.exit_code
-    except KeyboardInterrupt:
-        print(f"carbfleet {args.command}: interrupted", file=sys.stderr)
+    except BrokenPipeError:
+        _quiet_stdout()  # the reader stopped reading: not an error worth a traceback
+        return EXIT_BUILD
+    except KeyboardInterrupt as exc:
+        why = f" ({exc.args[0]})" if exc.args else ""
+        print(f"carbfleet {args.command}: interrupted{why}; nothing was changed", file=sys.stderr)
         return 130
 
 

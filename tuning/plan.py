@@ -70,8 +70,6 @@ from __future__ import annotations
 import csv
 import io
 import json
-import os
-import tempfile
 import warnings as pywarnings
 from datetime import datetime, timezone
 from pathlib import Path
@@ -79,9 +77,10 @@ from zoneinfo import ZoneInfo
 
 import numpy as np
 
-from tuning import air, carb, fuel
+from tuning import __version__, air, carb, fuel
 from tuning.errors import UserError
 from tuning.gcpause import gc_paused
+from tuning.output import write_file_set
 
 __all__ = [
     "FORMAT",
@@ -1242,6 +1241,7 @@ def make_plan(fleet, event) -> dict:
 
     return {
         "format": FORMAT,
+        "carbfleet_version": __version__,
         "fleet": fleet.name,
         "event": event.name,
         "site": {"name": event.site.name, "elevation_m": _r(event.site.elevation, 1), "time_zone": event.site.time_zone},
@@ -1358,19 +1358,6 @@ def _csv_text(header, rows) -> str:
     return buffer.getvalue()
 
 
-def _atomic_write(path: Path, text: str) -> None:
-    path.parent.mkdir(parents=True, exist_ok=True)
-    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=path.parent)
-    try:
-        with os.fdopen(fd, "w", encoding="utf-8", newline="") as handle:
-            handle.write(text)
-        os.replace(tmp, path)
-    except BaseException:
-        if os.path.exists(tmp):
-            os.unlink(tmp)
-        raise
-
-
 def plan_rows(plan: dict) -> list[list]:
     """The rows of ``recommendations.csv`` (one per bike × session), in :data:`CSV_COLUMNS` order."""
     rows = []
@@ -1395,7 +1382,11 @@ def plan_rows(plan: dict) -> list[list]:
 
 
 def write_plan_files(plan: dict, out_dir) -> list[Path]:
-    """Write ``recommendations.json``, ``recommendations.csv`` and ``pick-list.csv`` atomically.
+    """Write ``recommendations.json``, ``recommendations.csv`` and ``pick-list.csv`` as one set.
+
+    All three are new, or (when anything fails, a full disk included) all three are as they
+    were; an existing file of the same name is replaced only when carbfleet wrote it
+    (:func:`tuning.output.write_file_set`). Unwritable places raise a one-line error.
 
     Parameters
     ----------
@@ -1409,16 +1400,20 @@ def write_plan_files(plan: dict, out_dir) -> list[Path]:
     list of pathlib.Path
         The files written, in the order above.
     """
-    out_dir = Path(out_dir)
-    paths = [out_dir / "recommendations.json", out_dir / "recommendations.csv", out_dir / "pick-list.csv"]
-    texts = [
-        json.dumps(plan, sort_keys=False, indent=1, ensure_ascii=False, allow_nan=False) + "\n",
-        _csv_text(CSV_COLUMNS, plan_rows(plan)),
-        _csv_text(
+    texts = {
+        "recommendations.json": json.dumps(plan, sort_keys=False, indent=1, ensure_ascii=False, allow_nan=False) + "\n",
+        "recommendations.csv": _csv_text(CSV_COLUMNS, plan_rows(plan)),
+        "pick-list.csv": _csv_text(
             ("family", "size", "needed", "in_stock", "short"),
             [[p["family"], p["size"], p["needed"], p["in_stock"], p["short"]] for p in plan["pick_list"]],
         ),
-    ]
-    for path, text in zip(paths, texts):
-        _atomic_write(path, text)
-    return paths
+    }
+    return write_file_set(Path(out_dir), texts, PLAN_FILE_SIGNATURES)
+
+
+#: How each plan file begins, so that an existing file is overwritten only when carbfleet wrote it.
+PLAN_FILE_SIGNATURES = {
+    "recommendations.json": '"format": "carbfleet-plan/',
+    "recommendations.csv": "bike,model,session,",
+    "pick-list.csv": "family,size,",
+}

@@ -1,10 +1,15 @@
 """``carbfleet build``: plan -> papermill-run notebooks -> HTML, PDF, print pack, in one folder.
 
-The build runs one papermill execution of ``notebooks/fleet-report.ipynb`` and one of
-``notebooks/setup-sheets.ipynb`` per worker, each rendering a contiguous shard of the bikes
+The build runs one papermill execution of ``fleet-report.ipynb`` and one of ``setup-sheets.ipynb``
+per worker (both shipped in ``tuning/notebooks/``), each rendering a contiguous shard of the bikes
 in-kernel (one kernel start per shard, not per bike). Everything is written to a temporary folder
-beside the output and moved into place at the end, so a failed or interrupted build leaves the
-previous output as it was. Two builds of the same inputs give byte-identical files.
+beside the output and moved into place at the end, so a failed or interrupted build (Ctrl-C,
+SIGTERM, SIGHUP) leaves the previous output as it was. The output folder is replaced only when
+it is new, empty or holds nothing but an earlier build's files (:mod:`tuning.output`). Two builds
+of the same inputs give byte-identical files.
+
+The executed notebooks kept in ``notebooks/`` read ``../recommendations.json`` and write to
+``..``: opened in Jupyter from the output folder they run again as they are.
 """
 
 from __future__ import annotations
@@ -12,7 +17,6 @@ from __future__ import annotations
 import contextlib
 import copy
 import itertools
-import json
 import os
 import shutil
 import subprocess
@@ -25,12 +29,14 @@ from pathlib import Path
 import nbformat
 from jupyter_client.manager import AsyncKernelManager
 
+from tuning import output, resources
 from tuning.errors import BuildError, CarbfleetError, UserError
 from tuning.gcpause import gc_paused
 from tuning.report import render, tables
 from tuning.report.names import safe_file_names
 
-NOTEBOOKS = render.PROJECT_ROOT / "notebooks"
+#: The most notebook kernels a build runs at once (each holds about 150 MB).
+MAX_WORKERS = 8
 NB_TEMPLATE = Path(__file__).resolve().parent / "nbconvert_template" / "carbfleet.html.j2"
 _kernel_numbers = itertools.count(1)
 _live_kernels: set = set()  # kernel processes of running builds, stopped on an interrupt
@@ -51,8 +57,12 @@ class IpcKernelManager(AsyncKernelManager):
     def __init__(self, **kwargs):
         kwargs.setdefault("transport", "ipc")
         super().__init__(**kwargs)
-        folder = self.socket_dir or tempfile.gettempdir()
-        self.ip = os.path.join(folder, f"carbfleet-kernel-{os.getpid()}-{next(_kernel_numbers)}")
+        folder = self.socket_dir or socket_folder_base()
+        number = next(_kernel_numbers)
+        self.ip = os.path.join(folder, f"k{number}")  # sockets k<n>-<port>: short paths
+        # The connection file holds the kernel's key: keep it in the build's own folder too, so
+        # that it is removed with the folder (also after an interrupt), not left in ~/.local.
+        self.connection_file = os.path.join(folder, f"k{number}.json")
 
     kernel_cwd: str | None = None
 
@@ -67,6 +77,24 @@ class IpcKernelManager(AsyncKernelManager):
         if process is not None:
             _live_kernels.add(process)
         return result
+
+
+#: Longest path of a Unix socket on Linux is 107 bytes; the kernel's sockets are named
+#: ``<folder>/k<n>-<port>`` inside a ``carbfleet-XXXXXXXX`` folder, which needs about 30 of them.
+_SOCKET_PATH_ROOM = 107 - 30
+
+
+def socket_folder_base() -> str:
+    """A writable temporary folder short enough to hold the kernels' Unix sockets.
+
+    ``TMPDIR`` is used when it is short enough; else ``/tmp``, ``/var/tmp`` or ``/dev/shm``.
+    """
+    candidates = [tempfile.gettempdir(), "/tmp", "/var/tmp", "/dev/shm"]
+    for folder in candidates:
+        if len(os.fsencode(folder)) <= _SOCKET_PATH_ROOM and os.path.isdir(folder) and os.access(folder, os.W_OK | os.X_OK):
+            return folder
+    raise BuildError("no temporary folder with a path short enough for the notebook kernels' sockets; "
+                     "set TMPDIR to a short writable folder such as /tmp")
 
 
 def _manager_in(cwd: Path, socket_dir: Path | None = None) -> type:
@@ -115,16 +143,6 @@ def shards(items: list[str], n: int) -> list[list[str]]:
     return [chunk for chunk in out if chunk]
 
 
-def _write_plan_files(plan: dict, out_dir: Path) -> None:
-    try:
-        from tuning.plan import write_plan_files
-    except ImportError:  # tuning.plan not merged yet: JSON only, in the contract's format
-        (out_dir / "recommendations.json").write_text(
-            json.dumps(plan, sort_keys=False, indent=1, ensure_ascii=False) + "\n", encoding="utf-8")
-        return
-    write_plan_files(plan, out_dir)
-
-
 def _execute(notebook: str, output: Path, parameters: dict, cwd: Path, socket_dir: Path | None = None) -> None:
     """Run one notebook with papermill (Python API, IPC kernel, no timing records)."""
     import papermill
@@ -132,7 +150,7 @@ def _execute(notebook: str, output: Path, parameters: dict, cwd: Path, socket_di
 
     try:
         papermill.execute_notebook(
-            str(NOTEBOOKS / notebook), str(output), parameters=parameters, kernel_name="python3",
+            str(resources.notebook(notebook)), str(output), parameters=parameters, kernel_name="python3",
             progress_bar=False, log_output=False, request_save_on_cell_execute=False,
             kernel_manager_class=_manager_in(cwd, socket_dir), record_timing=False)
     except PapermillExecutionError as exc:
@@ -198,43 +216,71 @@ def _merge_pdfs(paths: list[Path], target: Path, stamp: str, title: str) -> int:
 
 def _check_options(paper: str, workers: int) -> None:
     render.page_css(paper, "")  # raises UserError on an unknown paper name
-    if not isinstance(workers, int) or workers < 1:
-        raise UserError(f"--workers: expected a whole number of at least 1, got {workers}; try --workers 2")
+    if not isinstance(workers, int) or not 1 <= workers <= MAX_WORKERS:
+        raise UserError(f"--workers: expected a whole number from 1 to {MAX_WORKERS}, got {workers}; try --workers 2")
 
 
 def build(fleet_path: str | Path, event_path: str | Path, out_dir: str | Path, paper: str = "a4",
           quiet: bool = False, workers: int = 2) -> BuildResult:
     """Plan ``fleet_path`` x ``event_path`` and build the whole output folder ``out_dir``.
 
-    Raises :class:`tuning.errors.UserError` for bad input files (exit 2) and
-    :class:`tuning.errors.BuildError` naming the failed bike or step (exit 1).
+    Raises :class:`tuning.errors.UserError` for bad input files or an output folder that is not
+    carbfleet's to replace (exit 2) and :class:`tuning.errors.BuildError` naming the failed bike
+    or step (exit 1).
     """
+    from tuning.config import load_event, load_fleet
+    from tuning.plan import make_plan
+
     _check_options(paper, workers)
-    plan = render.load_plan(str(fleet_path), str(event_path))
+    inputs = [str(fleet_path), str(event_path)]
+    output.safe_out_dir(str(out_dir), inputs)  # before the planning: fail fast
+    fleet = load_fleet(fleet_path)
+    event = load_event(event_path, fleet)
+    if event.weather.source and event.weather.source != "METAR":
+        inputs.append(event.weather.source)
+    plan = make_plan(fleet, event)
     return build_from_plan(plan, out_dir, paper=paper, quiet=quiet, workers=workers,
-                           fleet_path=str(fleet_path), event_path=str(event_path))
+                           fleet_path=str(fleet_path), event_path=str(event_path), inputs=inputs)
+
+
+def _prepare_out(out_dir: str | Path, inputs) -> tuple[Path, Path]:
+    """Check the output folder and make the temporary folder beside it; (out, tmp)."""
+    out = output.safe_out_dir(str(out_dir), inputs)
+    output.check_replaceable(out)
+    try:
+        out.parent.mkdir(parents=True, exist_ok=True)
+        tmp = Path(tempfile.mkdtemp(prefix=f".{out.name}.building-", dir=out.parent))
+    except OSError as exc:
+        raise output.os_problem("--out", out, exc) from None
+    output.apply_umask(tmp, folder=True)  # mkdtemp makes it 0700
+    return out, tmp
 
 
 def build_from_plan(plan: dict, out_dir: str | Path, paper: str = "a4", quiet: bool = False,
-                    workers: int = 2, fleet_path: str = "", event_path: str = "") -> BuildResult:
-    """Build the output folder from a plan document (format ``carbfleet-plan/1``)."""
+                    workers: int = 2, fleet_path: str = "", event_path: str = "",
+                    inputs=()) -> BuildResult:
+    """Build the output folder from a plan document (format ``carbfleet-plan/1``).
+
+    ``inputs`` are the paths of the files the plan was made from: the output folder may not
+    hold them. The folder gets :data:`tuning.output.MANIFEST`, the list of what was written.
+    """
+    from tuning.plan import write_plan_files
+
     started = time.perf_counter()
     _check_options(paper, workers)
-    out = Path(out_dir).resolve()
-    if out.exists() and not out.is_dir():
-        raise UserError(f"--out: {out} is a file; give a folder")
-    out.parent.mkdir(parents=True, exist_ok=True)
-    tmp = Path(tempfile.mkdtemp(prefix=f".{out.name}.building-", dir=out.parent))
+    output.umask()  # read it in this thread, before any worker thread starts
+    out, tmp = _prepare_out(out_dir, inputs)
     step = "plan files"
     try:
         bikes = list(tables.entries_by_bike(plan))
         names = safe_file_names(bikes)
-        _write_plan_files(plan, tmp)
-        (tmp / "_plan.json").write_text(json.dumps(plan, ensure_ascii=False), encoding="utf-8")
+        write_plan_files(plan, tmp)
         (tmp / "notebooks").mkdir()
         (tmp / "sheets").mkdir()
-        common = {"fleet_path": fleet_path, "event_path": event_path, "plan_path": "_plan.json",
-                  "out_dir": ".", "paper": paper}
+        # Relative to the notebooks' own folder, where the kernels start and where Jupyter runs
+        # them again later: the executed notebooks stay runnable in the finished output.
+        common = {"fleet_path": _absolute(fleet_path), "event_path": _absolute(event_path),
+                  "plan_path": "../recommendations.json", "out_dir": "..", "paper": paper}
         parts = shards(bikes, workers)
         sheet_notebooks = [f"setup-sheets-{i}.ipynb" for i in range(1, len(parts) + 1)]
         html_names = [n.replace(".ipynb", ".html") for n in ["fleet-report.ipynb", *sheet_notebooks]]
@@ -248,7 +294,6 @@ def build_from_plan(plan: dict, out_dir: str | Path, paper: str = "a4", quiet: b
             nb = _clean_notebook(tmp / "notebooks" / name)
             (tmp / "notebooks" / name.replace(".ipynb", ".html")).write_text(
                 exporter.export(nb, name.replace(".ipynb", "")), encoding="utf-8")
-        (tmp / "_plan.json").unlink()
         missing = [b for b in bikes if not (tmp / "sheets" / f"{names[b]}.pdf").exists()]
         if missing:
             raise BuildError(f"setup sheet of bike {missing[0]!r} was not written")
@@ -256,26 +301,34 @@ def build_from_plan(plan: dict, out_dir: str | Path, paper: str = "a4", quiet: b
         _merge_pdfs([tmp / "fleet-summary.pdf", *(tmp / "sheets" / f"{names[b]}.pdf" for b in bikes)],
                     tmp / "print-pack.pdf", plan["sessions"][0]["start"] if plan["sessions"] else "2000-01-01",
                     f"Print pack · {plan['event']}")
+        output.write_manifest(tmp, plan["event"])
         step = "moving the finished folder into place"
         _replace(tmp, out)
     except BaseException as exc:
         shutil.rmtree(tmp, ignore_errors=True)
         if isinstance(exc, CarbfleetError) or not isinstance(exc, Exception):
             raise
+        if isinstance(exc, OSError) and exc.errno is not None:
+            raise output.os_problem("--out", out, exc) from exc
         raise BuildError(f"build failed at step '{step}': {type(exc).__name__}: {exc}") from exc
     return BuildResult(out, len(bikes), int(plan.get("warnings_count", 0)),
                        time.perf_counter() - started, font_subsetter())
 
 
+def _absolute(path: str) -> str:
+    """An input path as an absolute path (empty stays empty: the notebook's own default)."""
+    return str(Path(path).resolve()) if path else ""
+
+
 def _run_jobs(jobs, tmp: Path, bikes: list[str], names: dict[str, str], quiet: bool) -> None:
     """Run the notebooks in threads (one kernel each); progress = sheet PDFs written so far."""
     errors: list[BaseException] = []
-    sockets = Path(tempfile.mkdtemp(prefix="carbfleet-kernels-"))
+    sockets = Path(tempfile.mkdtemp(prefix="carbfleet-", dir=socket_folder_base()))
 
     def run(job):
         src, name, params = job
         try:
-            _execute(src, tmp / "notebooks" / name, params, tmp, sockets)
+            _execute(src, tmp / "notebooks" / name, params, tmp / "notebooks", sockets)
         except BaseException as exc:  # reported after all threads stop
             errors.append(exc)
 
