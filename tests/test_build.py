@@ -177,3 +177,23 @@ def test_notebook_html_shows_outputs_and_hides_code(built):
     assert "setup sheets written" in sheets
     for page in (report, sheets):
         assert "load_plan" not in page and "render_fleet_report" not in page  # no code shown
+
+
+def test_output_gets_the_permissions_of_the_umask(plan, tmp_path):
+    # a folder served or shared with others must be readable as the umask says (not 0700/0600)
+    import os
+    import stat
+
+    from tuning import output
+
+    old = os.umask(0o022)
+    output.umask.cache_clear()
+    try:
+        out = tmp_path / "served"
+        pipeline.build_from_plan(report_fixtures.make_plan(n_bikes=1, n_sessions=1), out, quiet=True, workers=1)
+    finally:
+        os.umask(old)
+        output.umask.cache_clear()
+    assert stat.S_IMODE(out.stat().st_mode) == 0o755
+    for path in out.rglob("*"):
+        assert stat.S_IMODE(path.stat().st_mode) == (0o755 if path.is_dir() else 0o644), path
