@@ -224,6 +224,7 @@ def add_plan_parser(sub) -> None:
 def cmd_plan(args) -> int:
     from tuning.config import load_event, load_fleet
     from tuning.plan import make_plan, write_plan_files
+    from tuning.report import tables
 
     import warnings
 
@@ -241,9 +242,10 @@ def cmd_plan(args) -> int:
         or e["settings"]["mixture_screw"]["change_turns"]
     )
     short = sum(p["short"] or 0 for p in plan["pick_list"])
+    stock = f"{short} jets short" if tables.stock_kept(plan) else tables.NO_STOCK_LIST
     print(f"{plan['fleet']} at {plan['event']} ({plan['site']['name']}, {plan['site']['elevation_m']:g} m): "
           f"{len({e['bike'] for e in entries})} bikes x {len(plan['sessions'])} sessions, "
-          f"{changed} with changes, {plan['warnings_count']} warnings, {short} jets short")
+          f"{changed} with changes, {plan['warnings_count']} warnings, {stock}")
     for e in entries[:40]:
         m, pj = e["settings"]["main_jet"], e["settings"]["pilot_jet"]
         print(f"  {e['bike']:<10} {e['session']:<14} main {m['current']}->{m['recommended']}  "

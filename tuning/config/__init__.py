@@ -76,7 +76,8 @@ def summarize(fleet: model.Fleet, event: model.Event | None = None) -> str:
         on_shelf = {size: count for (f, size), count in fleet.stock.items() if f == name}
         sizes = f"{len(family.sizes)} sizes {family.sizes[0]:g}..{family.sizes[-1]:g}"
         stock = ", ".join(f"{s:g}×{c}" for s, c in sorted(on_shelf.items())) or "none listed"
-        lines.append(f"  jets {name} ({family.coding}-coded, {sizes}): in stock {stock}")
+        lines.append(f"  jets {name} ({family.coding}-coded, {sizes}): "
+                     + (f"in stock {stock}" if fleet.stock else "no stock list kept"))
     if event is None:
         return "\n".join(lines)
 
