@@ -244,7 +244,9 @@ def test_plan_runs_without_the_optional_part(edit, tmp_path, capsys):
     assert main(["check", fleet_path, event_path]) == 0, capsys.readouterr().err
     checked = capsys.readouterr().out
     assert main(["plan", fleet_path, event_path, "--out", str(tmp_path / "out")]) == 0, capsys.readouterr().err
-    planned = capsys.readouterr().out.splitlines()[0]
+    printed = capsys.readouterr().out
+    assert "None" not in checked + printed  # a value not on record is never shown as Python's None
+    planned = printed.splitlines()[0]
     if fleet.get("stock"):
         assert "jets short" in planned and "no stock list kept" not in checked + planned
     else:  # nothing can be short without a list of what is on the shelf

@@ -247,10 +247,10 @@ def cmd_plan(args) -> int:
           f"{len({e['bike'] for e in entries})} bikes x {len(plan['sessions'])} sessions, "
           f"{changed} with changes, {plan['warnings_count']} warnings, {stock}")
     for e in entries[:40]:
-        m, pj = e["settings"]["main_jet"], e["settings"]["pilot_jet"]
+        m, pj, c = e["settings"]["main_jet"], e["settings"]["pilot_jet"], e["settings"]["clip"]
+        clip = tables.number(None) if c["current"] is None else f"{c['current']}->{c['recommended']}"  # no needle on record
         print(f"  {e['bike']:<10} {e['session']:<14} main {m['current']}->{m['recommended']}  "
-              f"pilot {pj['current']}->{pj['recommended']}  clip {e['settings']['clip']['current']}->"
-              f"{e['settings']['clip']['recommended']}  factor {e['summary']['area_factor_mean']}"
+              f"pilot {pj['current']}->{pj['recommended']}  clip {clip}  factor {e['summary']['area_factor_mean']}"
               + (f"  [{', '.join(sorted({w['code'] for w in e['warnings']}))}]" if e["warnings"] else ""))
     if len(entries) > 40:
         print(f"  ... and {len(entries) - 40} more rows in recommendations.csv")
