@@ -105,3 +105,29 @@ def test_csv_cells_of_user_text_are_not_formulas(tmp_path):
         pick = list(csv.DictReader(handle))
     assert "'@round-main" in {p["family"] for p in pick}  # the demo's trail-250s need smaller main jets
     assert all(p["family"] in ("'@round-main", "hex-main") for p in pick)
+
+
+def test_control_characters_in_names_do_not_reach_the_terminal(tmp_path, capsys):
+    # Names are the user's text: an escape sequence, a carriage return or a bell in one is shown
+    # escaped by `carbfleet check` and `carbfleet plan` (as problem lines are), never sent raw.
+    import yaml
+
+    ids = ["\x1b[31mT01", "T0\r2", "T03\x07"]
+    fleet_path, event_path = _renamed_demo(tmp_path, ids, model=("trail-450-4s", "trail\x1b]0;x\x07450"),
+                                           session="Sat\rmorning", family=("round-main", "round\x1b[2Jmain"),
+                                           needle=("needle-f", "needle\x07f"))
+    for path, key, name in ((fleet_path, "fleet", "Fleet\x1b[1m"), (event_path, "event", "Event\r\x07")):
+        doc = yaml.safe_load(Path(path).read_text(encoding="utf-8"))
+        doc[key] = name
+        if key == "event":
+            doc["site"]["name"] = "Site\x1b[2J"
+        Path(path).write_text(yaml.safe_dump(doc, sort_keys=False, allow_unicode=True), encoding="utf-8")
+    assert main(["check", fleet_path, event_path]) == 0
+    checked = capsys.readouterr()
+    assert main(["plan", fleet_path, event_path, "--out", str(tmp_path / "out")]) == 0
+    planned = capsys.readouterr()
+    for text in (checked.out, checked.err, planned.out, planned.err):
+        assert not {"\x1b", "\r", "\x07"} & set(text)
+    assert r"\x1b[31mT01" in planned.out and r"Sat\rmorning" in planned.out  # shown, escaped
+    assert r"Fleet\x1b[1m" in checked.out and r"trail\x1b]0;x\x07450" in checked.out
+    assert r"Event\r\x07" in planned.out.splitlines()[0]
