@@ -13,10 +13,11 @@ These tests check what a user sees: the exit code, the files, the words on the s
 
 from __future__ import annotations
 
-import copy
 import csv
+import html
 import io
 import json
+import re
 from pathlib import Path
 
 import pypdf
@@ -33,7 +34,7 @@ WEATHER = ROOT / "fleet_configs" / "demo-weather.csv"
 
 pytestmark = pytest.mark.filterwarnings("ignore::UserWarning")
 
-HPA_PER_INHG = 33.8639  # 1 inHg at 0 degC (NIST SP 811, 2008, B.8: 3.386 389 kPa), rounded
+HPA_PER_INHG = 33.8639  # conventional inch of mercury, 3386.389 Pa (from memory); only to invent inputs
 SITE_OFFSET = "+02:00"  # the demo site's UTC offset in June (Europe/Vienna, CEST)
 
 
@@ -148,7 +149,7 @@ def no_site_time_zone(fleet, event, header, rows):
 
 
 def no_optional_model_fields(fleet, event, header, rows):
-    """Models without needle jet bore, screw range, float level or density exponent."""
+    """No fleet density exponent or reference AFR; models without needle-jet bore, screw range, float level."""
     for key in ("density_exponent", "reference_afr"):
         fleet.pop(key, None)
     for model in fleet["models"].values():
@@ -162,6 +163,11 @@ def _dew_point_f(header, rows):
     header[rh] = "dew_point [degF]"
     for row in rows:  # invented: a dew point 9 degF below the air, drier at noon
         row[rh] = f"{float(row[t]) - 9.0 - (100.0 - float(row[rh])) / 10.0:.1f}"
+
+
+def weather_fahrenheit_inhg(fleet, event, header, rows):
+    """The demo's own table: air temperature in degF, QNH in inHg (kept as it is)."""
+    assert {"air_temperature [degF]", "qnh [inHg]"} <= set(header), header
 
 
 def weather_dew_point(fleet, event, header, rows):
@@ -226,8 +232,9 @@ PLAN_CASES = [
     no_stock, empty_stock, no_needles, needles_without_geometry, reference_fuel_only, plain_gasoline,
     no_own_reference, no_overrides_or_notes, no_accelerator_pump, no_premix, four_strokes_only,
     single_bike_single_session, no_event_fuel, no_site_time_zone, no_optional_model_fields,
-    weather_dew_point, weather_station_pressure_hpa, weather_station_pressure_inhg, weather_sea_level_pressure,
-    weather_celsius_hpa, weather_default_units, reference_in_other_units, everything_optional_absent,
+    weather_fahrenheit_inhg, weather_dew_point, weather_station_pressure_hpa, weather_station_pressure_inhg,
+    weather_sea_level_pressure, weather_celsius_hpa, weather_default_units, reference_in_other_units,
+    everything_optional_absent,
 ]
 
 
@@ -261,13 +268,14 @@ def test_plan_runs_without_the_optional_part(edit, tmp_path, capsys):
 
 # --- end-to-end builds (a few: each takes several seconds) -----------------------------------
 def one_bike_per_model(fleet, event, header, rows):
-    """Keep the first bike of each model, preferring the ones with overrides or their own reference."""
-    chosen: dict[str, dict] = {}
-    for bike in fleet["bikes"]:
-        special = "settings" in bike or "reference" in bike
-        if bike["model"] not in chosen or (special and not ("settings" in chosen[bike["model"]] or "reference" in chosen[bike["model"]])):
-            chosen[bike["model"]] = bike
-    fleet["bikes"] = [b for b in fleet["bikes"] if b in chosen.values()]
+    """Keep one bike of each model: one with overrides or its own reference where there is one."""
+    def special(bike):
+        return "settings" in bike or "reference" in bike
+
+    models = {bike["model"] for bike in fleet["bikes"]}
+    chosen = [next((b for b in fleet["bikes"] if b["model"] == m and special(b)),
+                   next(b for b in fleet["bikes"] if b["model"] == m)) for m in models]
+    fleet["bikes"] = [b for b in fleet["bikes"] if any(b is c for c in chosen)]
 
 
 def both(*edits):
@@ -279,8 +287,7 @@ def both(*edits):
 
 
 BUILD_CASES = [
-    both(no_stock, one_bike_per_model),
-    both(empty_stock, one_bike_per_model),
+    both(no_stock, one_bike_per_model),  # `stock: []` takes the same path: planned above
     both(no_needles, one_bike_per_model),
     single_bike_single_session,
     everything_optional_absent,
@@ -289,9 +296,6 @@ BUILD_CASES = [
 
 def visible_text(page: str) -> str:
     """The words of an HTML page (no style, no chart, no tags, entities decoded)."""
-    import html
-    import re
-
     page = re.sub(r"<(style|svg)\b.*?</\1>", " ", page, flags=re.S)
     return html.unescape(re.sub(r"\s+", " ", re.sub(r"<[^>]+>", " ", page)))
 
@@ -308,6 +312,9 @@ def test_build_runs_without_the_optional_part(edit, tmp_path, capsys):
         assert len(pypdf.PdfReader(out / "sheets" / f"{names[bike]}.pdf").pages) == 1, bike
         assert bike in visible_text((out / "sheets" / f"{names[bike]}.html").read_text(encoding="utf-8"))
     summary = visible_text((out / "fleet-summary.html").read_text(encoding="utf-8"))
+    pages = [summary, visible_text((out / "index.html").read_text(encoding="utf-8"))]
+    pages += [visible_text((out / "sheets" / f"{names[b]}.html").read_text(encoding="utf-8")) for b in bikes]
+    assert not any(re.search(r"\bNone\b", page) for page in pages)  # nothing on record shows as a dash or in words
     doc = json.loads((out / "recommendations.json").read_text(encoding="utf-8"))
     if not fleet.get("stock"):
         # Without a stock list nothing can be called short: the summary says there is no list,
