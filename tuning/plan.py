@@ -1359,7 +1359,7 @@ def _csv_value(value):
 
 
 def _csv_text(header, rows) -> str:
-    """The CSV file: a header, then one record per row (cells by :func:`_csv_value`).
+    r"""The CSV file: a header, then one record per row (cells by :func:`_csv_value`).
 
     Python 3.11's writer quotes a cell holding a line feed but not one holding a lone carriage
     return (the line terminator is ``\n``); a reader would split that record in two. A row with a

@@ -72,7 +72,7 @@ class Context:
 
 
 def one_line(text: str) -> str:
-    """``text`` with control characters escaped (user text in a message stays on one line).
+    r"""``text`` with control characters escaped (user text in a message stays on one line).
 
     The one escaper of user text shown on a terminal or in a chart: ``\x1b``, ``\r``, ``\x07``,
     a line break or any other non-printable character is written as its Python escape.
