@@ -60,7 +60,8 @@ def read_cells(page: str) -> dict[tuple[str, str], str]:
     return reader.cells
 
 
-@pytest.mark.parametrize("bike_id", ["../x", "..", "a/b\\c", "<b>T1</b>", "CON", "nul.txt", "T:1?*|\"", " .hidden", "Ærø-7", ""])
+@pytest.mark.parametrize("bike_id", ["../x", "..", "a/b\\c", "<b>T1</b>", "CON", "nul.txt", "T:1?*|\"", " .hidden", "Ærø-7", "",
+                                     "\x1b[31mT01", "T0\r2\x07", "\x1b"])
 def test_safe_stem_is_a_plain_file_name(bike_id):
     stem = safe_stem(bike_id)
     assert stem and stem not in (".", "..") and ".." not in stem
@@ -142,6 +143,50 @@ def test_bike_id_is_escaped_everywhere(tmp_path):
     assert html.escape("<b>T1</b>") in page  # the reference escaper: Python's html.escape
     summary = render.summary_html(plan)
     assert "<b>T1</b>" not in summary and html.escape("<b>T1</b>") in summary
+
+
+def _renamed_plan(bike_ids: list[str], names: dict[str, str]) -> dict:
+    """The invented plan with awkward bike ids and fleet, event, site, model and session names."""
+    plan = report_fixtures.make_plan(bike_ids=bike_ids, n_sessions=2)
+    plan["fleet"], plan["event"], plan["site"]["name"] = names["fleet"], names["event"], names["site"]
+    renamed = {s["name"]: s["name"] + names["session"] for s in plan["sessions"]}
+    for s in plan["sessions"]:
+        s["name"] = renamed[s["name"]]
+    for e in plan["entries"]:
+        e["session"], e["model"] = renamed[e["session"]], names["model"]
+    return plan
+
+
+def test_every_name_is_escaped_on_sheet_and_summary():
+    names = {"fleet": "<i>F</i>", "event": "<b>E&amp;</b>", "site": "<u>S</u>", "model": "<s>M</s>",
+             "session": " <em>x</em>"}
+    plan = _renamed_plan(["<b>T1</b>"], names)
+    pages = {"sheet": render.sheet_html(plan, plan["entries"]), "summary": render.summary_html(plan),
+             "index": render.index_html(plan, [])}
+    for which, page in pages.items():
+        for key, name in names.items():
+            if which == "index" and key == "session":
+                continue  # the front page names no session
+            assert name.strip() not in page and html.escape(name.strip()) in page, (which, key)
+
+
+def test_control_characters_in_names_leave_the_chart_and_page_whole(tmp_path):
+    # XML cannot hold an ESC or a BEL: the chart shows such names escaped (as the terminal does)
+    # instead of the SVG converter aborting the process; the sheet and summary still print.
+    import base64
+
+    names = {"fleet": "F\x1b[1m", "event": "E\r\x07", "site": "S\x1b[2J", "model": "M\x07", "session": "\x1b[31m"}
+    plan = _renamed_plan(["\x1b[31mT01", "T0\r2\x07"], names)
+    for bike, entries in tables.entries_by_bike(plan).items():
+        assert render.write_sheet(plan, entries, tmp_path / "s.html", tmp_path / "s.pdf") == 1, bike
+        assert len(pypdf.PdfReader(tmp_path / "s.pdf").pages) == 1
+        page = (tmp_path / "s.html").read_text(encoding="utf-8")
+        chart = re.search(r'src="data:image/svg\+xml;base64,([^"]+)"', page).group(1)
+        svg = base64.b64decode(chart).decode("utf-8")
+        assert not {"\x1b", "\x07", "\r"} & set(svg)
+        assert r"Session A\x1b[31m" in svg  # the legend names the session, escaped
+    render.write_pdf(render.summary_html(plan, links=False), tmp_path / "summary.pdf", tmp_path)
+    assert len(pypdf.PdfReader(tmp_path / "summary.pdf").pages) >= 1
 
 
 def test_cautions_are_on_sheet_and_summary(plan4):

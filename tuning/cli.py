@@ -232,8 +232,14 @@ def cmd_plan(args) -> int:
     from pathlib import Path
 
     from tuning.config import load_event, load_fleet
+    from tuning.config.spec import one_line
     from tuning.output import check_file_set
     from tuning.plan import PLAN_FILE_SIGNATURES, make_plan, write_plan_files
+    from tuning.report import tables
+
+    def say(text: str, file=None) -> None:
+        """Print one line; control characters from the user's names are shown escaped."""
+        print(one_line(text), file=file or sys.stdout)
 
     if not args.out.strip():
         raise UserError("--out: the path is empty (an unset shell variable?); name a folder, e.g. --out plan")
@@ -245,26 +251,27 @@ def cmd_plan(args) -> int:
         plan = make_plan(fleet, event)
     paths = write_plan_files(plan, args.out)
     for note in dict.fromkeys(str(w.message) for w in caught):  # one line each, no source echo
-        print(f"carbfleet plan: note: {note}", file=sys.stderr)
+        say(f"carbfleet plan: note: {note}", file=sys.stderr)
     entries = plan["entries"]
     changed = sum(
         1 for e in entries if any(e["settings"][k]["steps"] for k in ("main_jet", "pilot_jet", "clip"))
         or e["settings"]["mixture_screw"]["change_turns"]
     )
     short = sum(p["short"] or 0 for p in plan["pick_list"])
-    print(f"{plan['fleet']} at {plan['event']} ({plan['site']['name']}, {plan['site']['elevation_m']:g} m): "
-          f"{len({e['bike'] for e in entries})} bikes x {len(plan['sessions'])} sessions, "
-          f"{changed} with changes, {plan['warnings_count']} warnings, {short} jets short")
+    stock = f"{short} jets short" if tables.stock_kept(plan) else tables.NO_STOCK_LIST
+    say(f"{plan['fleet']} at {plan['event']} ({plan['site']['name']}, {plan['site']['elevation_m']:g} m): "
+        f"{len({e['bike'] for e in entries})} bikes x {len(plan['sessions'])} sessions, "
+        f"{changed} with changes, {plan['warnings_count']} warnings, {stock}")
     for e in entries[:40]:
-        m, pj = e["settings"]["main_jet"], e["settings"]["pilot_jet"]
-        print(f"  {e['bike']:<10} {e['session']:<14} main {m['current']}->{m['recommended']}  "
-              f"pilot {pj['current']}->{pj['recommended']}  clip {e['settings']['clip']['current']}->"
-              f"{e['settings']['clip']['recommended']}  factor {e['summary']['area_factor_mean']}"
-              + (f"  [{', '.join(sorted({w['code'] for w in e['warnings']}))}]" if e["warnings"] else ""))
+        m, pj, c = e["settings"]["main_jet"], e["settings"]["pilot_jet"], e["settings"]["clip"]
+        clip = tables.number(None) if c["current"] is None else f"{c['current']}->{c['recommended']}"  # no needle on record
+        say(f"  {one_line(e['bike']):<10} {one_line(e['session']):<14} main {m['current']}->{m['recommended']}  "
+            f"pilot {pj['current']}->{pj['recommended']}  clip {clip}  factor {e['summary']['area_factor_mean']}"
+            + (f"  [{', '.join(sorted({w['code'] for w in e['warnings']}))}]" if e["warnings"] else ""))
     if len(entries) > 40:
-        print(f"  ... and {len(entries) - 40} more rows in recommendations.csv")
+        say(f"  ... and {len(entries) - 40} more rows in recommendations.csv")
     for path in paths:
-        print(f"wrote {path}")
+        say(f"wrote {path}")
     return EXIT_OK
 
 

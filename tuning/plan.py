@@ -1342,19 +1342,36 @@ CSV_COLUMNS = (
 
 
 def _csv_value(value):
+    """One CSV cell: null as empty, booleans as ``true``/``false``, numbers as they are.
+
+    Text that a spreadsheet would take for a formula (it begins with ``=``, ``+``, ``-``, ``@``,
+    a tab or a carriage return: a bike id, model, session or family name from the user's files)
+    gets a leading ``'``, which spreadsheets read as "this cell is text" (OWASP, "CSV Injection").
+    Numbers are never text here, so a negative number stays a number.
+    """
     if value is None:
         return ""
     if isinstance(value, bool):
         return "true" if value else "false"
+    if isinstance(value, str) and value.startswith(("=", "+", "-", "@", "\t", "\r")):
+        return "'" + value
     return value
 
 
 def _csv_text(header, rows) -> str:
+    r"""The CSV file: a header, then one record per row (cells by :func:`_csv_value`).
+
+    Python 3.11's writer quotes a cell holding a line feed but not one holding a lone carriage
+    return (the line terminator is ``\n``); a reader would split that record in two. A row with a
+    carriage return in any cell is therefore written with every cell quoted: still one record.
+    """
     buffer = io.StringIO()
     writer = csv.writer(buffer, lineterminator="\n")
+    quoted = csv.writer(buffer, lineterminator="\n", quoting=csv.QUOTE_ALL)
     writer.writerow(header)
     for row in rows:
-        writer.writerow([_csv_value(v) for v in row])
+        cells = [_csv_value(v) for v in row]
+        (quoted if any(isinstance(c, str) and "\r" in c for c in cells) else writer).writerow(cells)
     return buffer.getvalue()
 
 

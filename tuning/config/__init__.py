@@ -43,7 +43,13 @@ def _celsius(kelvin: float) -> float:
 
 
 def summarize(fleet: model.Fleet, event: model.Event | None = None) -> str:
-    """A short plain-text summary of a checked fleet (and event), as ``carbfleet check`` prints it."""
+    """A short plain-text summary of a checked fleet (and event), as ``carbfleet check`` prints it.
+
+    Names come from the user's files: control characters in them (an escape sequence, a carriage
+    return, a bell) are shown escaped, as in problem lines, so they cannot act on the terminal.
+    """
+    from tuning.config.spec import one_line  # the one escaper of user text for the terminal
+
     lines = [f"fleet: {fleet.name} — {len(fleet.bikes)} bikes, {len(fleet.models)} models"]
     ref = fleet.reference
     lines.append(
@@ -76,9 +82,10 @@ def summarize(fleet: model.Fleet, event: model.Event | None = None) -> str:
         on_shelf = {size: count for (f, size), count in fleet.stock.items() if f == name}
         sizes = f"{len(family.sizes)} sizes {family.sizes[0]:g}..{family.sizes[-1]:g}"
         stock = ", ".join(f"{s:g}×{c}" for s, c in sorted(on_shelf.items())) or "none listed"
-        lines.append(f"  jets {name} ({family.coding}-coded, {sizes}): in stock {stock}")
+        lines.append(f"  jets {name} ({family.coding}-coded, {sizes}): "
+                     + (f"in stock {stock}" if fleet.stock else "no stock list kept"))
     if event is None:
-        return "\n".join(lines)
+        return "\n".join(one_line(line) for line in lines)
 
     site = event.site
     zone = ZoneInfo(site.time_zone)
@@ -96,4 +103,4 @@ def summarize(fleet: model.Fleet, event: model.Event | None = None) -> str:
         f"  weather: {w.source}, {len(w.time)} samples {first:%Y-%m-%d %H:%M}..{last:%Y-%m-%d %H:%M} {last:%Z}, "
         f"air temperature {t.min():.1f}..{t.max():.1f} degC, pressure as {w.pressure_kind}; every session covered"
     )
-    return "\n".join(lines)
+    return "\n".join(one_line(line) for line in lines)

@@ -72,8 +72,15 @@ class Context:
 
 
 def one_line(text: str) -> str:
-    """``text`` with control characters escaped (user text in a message stays on one line)."""
-    return "".join(ch if ch.isprintable() or ch == " " else ch.encode("unicode_escape").decode("ascii") for ch in str(text))
+    r"""``text`` with control characters escaped (user text in a message stays on one line).
+
+    The one escaper of user text shown on a terminal or in a chart: ``\x1b``, ``\r``, ``\x07``,
+    a line break or any other non-printable character is written as its Python escape.
+    """
+    text = str(text)
+    if text.isprintable():  # the usual case, checked in C
+        return text
+    return "".join(ch if ch.isprintable() or ch == " " else ch.encode("unicode_escape").decode("ascii") for ch in text)
 
 
 def line_of(node: yaml.Node) -> int:

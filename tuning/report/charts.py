@@ -10,6 +10,8 @@ from functools import lru_cache
 import altair as alt
 import vl_convert
 
+from tuning.config.spec import one_line
+
 # Black-and-white readable: current and recommended differ by dash, not only by colour.
 _SETTING_DASH = alt.Scale(domain=["current", "recommended"], range=[[6, 3], [1, 0]])
 _GREYS = ["#111111", "#555555", "#888888", "#333333", "#777777", "#222222"]
@@ -97,10 +99,23 @@ def weather_chart(plan: dict, width: int = 560, height: int = 110) -> alt.VConca
 def to_svg(chart) -> str:
     """Static SVG of an Altair chart (or its Vega-Lite dict) via vl-convert (no browser, no network).
 
-    Identical specifications (bikes of one model with the same plan) are converted once.
+    Identical specifications (bikes of one model with the same plan) are converted once. Text in
+    the chart (session names come from the user's files) has its control characters escaped, as
+    on the terminal: XML cannot hold them, and vl-convert aborts the whole process on one.
     """
     spec = chart if isinstance(chart, dict) else chart.to_dict(validate=False)
-    return _svg_of(json.dumps(spec, sort_keys=True))
+    return _svg_of(json.dumps(_printable(spec), sort_keys=True))
+
+
+def _printable(value):
+    """``value`` (a chart specification) with control characters in every text escaped."""
+    if isinstance(value, str):
+        return one_line(value)
+    if isinstance(value, dict):
+        return {key: _printable(item) for key, item in value.items()}
+    if isinstance(value, list):
+        return [_printable(item) for item in value]
+    return value
 
 
 def svg_data_uri(svg: str) -> str:

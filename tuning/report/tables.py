@@ -17,6 +17,9 @@ _DAYS = ("Mon", "Tue", "Wed", "Thu", "Fri", "Sat", "Sun")
 _MONTHS = ("Jan", "Feb", "Mar", "Apr", "May", "Jun", "Jul", "Aug", "Sep", "Oct", "Nov", "Dec")
 _QUARTERS = {0: "", 1: "¼", 2: "½", 3: "¾"}
 
+#: What the sheets, the summary and ``carbfleet plan`` say where a fleet keeps no stock list.
+NO_STOCK_LIST = "no stock list kept"
+
 
 def number(value, digits: int = 0, unit: str = "", signed: bool = False) -> str:
     """Format a number for print with ``digits`` decimals; ``None`` shows as an en dash."""
@@ -66,6 +69,16 @@ def entries_by_bike(plan: dict) -> "OrderedDict[str, list[dict]]":
     return grouped
 
 
+def stock_kept(plan: dict) -> bool:
+    """Whether the fleet keeps a stock list (``stock:`` with at least one entry).
+
+    Without one the plan gives ``in_stock`` as null for every jet of every entry and in the pick
+    list; with one, every entry's ``in_stock`` is true or false.
+    """
+    return any(e["settings"][key].get("in_stock") is not None
+               for e in plan["entries"] for key in ("main_jet", "pilot_jet"))
+
+
 def _text(value) -> str:
     """A plan value for print; ``None`` (not on record) shows as an en dash."""
     return "–" if value is None else f"{value}"
@@ -86,7 +99,7 @@ def _stock_text(key: str, s: dict) -> str:
     if s.get("steps", 0) == 0:
         return ""
     if s.get("in_stock") is None:
-        return f"take {s['recommended']} (no stock list)"
+        return f"take {s['recommended']} ({NO_STOCK_LIST})"
     if s["in_stock"]:
         return f"take {s['recommended']} from stock"
     if s.get("stock_choice") is not None:
@@ -243,6 +256,11 @@ def summary_rows(plan: dict, file_names: dict[str, str]) -> dict:
         "icing_risk": f"{w['icing_risk']} ({ICING_RISK_NAMES[w['icing_risk']]})",
     } for w in plan["weather"] if session_of(w["time"])]
     sessions = [{"name": s["name"], "window": window(s["start"], s["end"])} for s in plan["sessions"]]
+    kept = stock_kept(plan)
+    shortages = sum(1 for r in plan["pick_list"] if (r["short"] or 0) > 0)
+    pick_list = [dict(p, in_stock_text=_text(p["in_stock"]),
+                      short_text="–" if p["short"] is None else f"{p['short']} SHORT" if p["short"] else "0")
+                 for p in plan["pick_list"]]
     return {"bikes": bikes, "batches": batch_rows, "warnings": warning_rows, "weather": weather,
-            "sessions": sessions, "pick_list": plan["pick_list"],
-            "shortages": sum(1 for r in plan["pick_list"] if r["short"] > 0)}
+            "sessions": sessions, "pick_list": pick_list, "stock_kept": kept, "shortages": shortages,
+            "stock_status": f"{shortages} jet sizes short" if kept else NO_STOCK_LIST}
