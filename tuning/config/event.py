@@ -166,8 +166,12 @@ def load_event(path, fleet: model.Fleet | None = None) -> model.Event:
         csv_path = Path(path).parent / source
         try:
             weather, weather_problems = read_weather_csv(csv_path, zone or None)
-        except ConfigError as exc:  # missing or unreadable table
-            weather_problems = exc.problems
+        except ConfigError as exc:  # missing or unreadable table: said at the line that names it
+            for p in exc.problems:
+                if p.line is None:
+                    ctx.at_path("weather", p.message)
+                else:
+                    weather_problems.append(p)
     elif isinstance(source, dict) and "metar" in source and zone is not False:
         if sessions:
             weather = read_metar(source["metar"], min(s.start for _, s in sessions), ctx, "weather.metar")
