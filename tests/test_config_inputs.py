@@ -130,3 +130,27 @@ def test_missing_weather_file_is_located_in_the_event_file(demo, capsys):
     line = plan_fails(capsys, demo)
     where = f"{demo / EVENT}:{line_of(text, 'weather: forecast.csv')}"
     assert line == f"{where}: weather: file not found (looked for {(demo / 'forecast.csv').resolve()})"
+
+
+# --- 1. relative humidity 0 % is valid: the dew point is undefined (null), never -inf ----------
+def test_dry_fleet_reference_plans(demo, capsys):
+    edit(demo / FLEET, "relative_humidity: 50 %", "relative_humidity: 0 %")
+    assert run(capsys, "check", demo / FLEET, demo / EVENT)[0] == 0
+    doc = plan_works(capsys, demo)
+    assert doc["reference"]["dew_point_C"] is None and doc["reference"]["relative_humidity_pct"] == 0.0
+
+
+def test_dry_bike_reference_plans(demo, capsys):
+    edit(demo / FLEET, "qnh: 1016 hPa, dew_point: 6 degC}", "qnh: 1016 hPa, relative_humidity: 0}")
+    doc = plan_works(capsys, demo)
+    own = [e["reference"] for e in doc["entries"] if e["bike"] == "E03"]
+    assert own and all(r["dew_point_C"] is None for r in own)
+
+
+def test_dry_weather_row_plans(demo, capsys):
+    text = (demo / WEATHER).read_text()
+    row = next(line for line in text.splitlines() if line.startswith("2026-06-13 10:00,"))
+    edit(demo / WEATHER, row, row.rsplit(",", 1)[0] + ",0")
+    doc = plan_works(capsys, demo)
+    dry = [w for w in doc["weather"] if w["time"].startswith("2026-06-13T10:00")]
+    assert dry and dry[0]["dew_point_C"] is None and dry[0]["relative_humidity_pct"] == 0.0
