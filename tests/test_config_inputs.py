@@ -154,3 +154,212 @@ def test_dry_weather_row_plans(demo, capsys):
     doc = plan_works(capsys, demo)
     dry = [w for w in doc["weather"] if w["time"].startswith("2026-06-13T10:00")]
     assert dry and dry[0]["dew_point_C"] is None and dry[0]["relative_humidity_pct"] == 0.0
+
+
+# --- 4. whatever check accepts, plan handles: the corners of every accepted range --------------
+ELEVATIONS = (-500.0, 5000.0)  # tuning.config.fleet.ELEVATION_RANGE [m]
+TEMPERATURES = (-40.0, 55.0)  # TEMPERATURE_RANGE [degC]
+PRESSURES = (300.0, 1100.0)  # PRESSURE_RANGE [hPa], every kind
+KINDS = {"station_pressure": "station", "qnh": "qnh", "sea_level_pressure": "sea_level"}
+
+
+def _lowest_accepted(kind, elevation, celsius):
+    """Lowest pressure [hPa] of ``kind`` that the loader accepts here: 300 hPa, or the value that
+    converts to a station pressure of 300 hPa (tuning.config.fleet.STATION_PRESSURE_MIN)."""
+    from tuning import air
+
+    def station(hpa):
+        return float(air.station_pressure(hpa * 100.0, KINDS[kind], elevation, 273.15 + celsius)) / 100.0
+
+    if station(PRESSURES[0]) >= 300.0:
+        return PRESSURES[0]
+    low, high = PRESSURES
+    for _ in range(60):
+        mid = 0.5 * (low + high)
+        low, high = (low, mid) if station(mid) >= 300.0 else (mid, high)
+    return round(high + 0.005, 2)  # printed to 0.01 hPa, rounded up into the accepted side
+
+
+def _corners(kind, humidity_kind, elevation):
+    """(degC, hPa, humidity) at every corner of the accepted ranges at this elevation."""
+    out = []
+    for celsius in TEMPERATURES:
+        pressures = sorted({_lowest_accepted(kind, elevation, celsius), PRESSURES[1]})
+        humidities = (0.0, 100.0) if humidity_kind == "relative_humidity" else (-60.0, celsius)  # DEW_POINT_RANGE, T
+        out += [(celsius, p, h) for p in pressures for h in humidities]
+    return out
+
+
+@pytest.mark.parametrize("humidity_kind", ["relative_humidity", "dew_point"])
+@pytest.mark.parametrize("kind", list(KINDS))
+@pytest.mark.parametrize("elevation", ELEVATIONS)
+def test_plan_handles_weather_at_every_corner(demo, capsys, elevation, kind, humidity_kind):
+    rows = _corners(kind, humidity_kind, elevation)
+    unit = "%" if humidity_kind == "relative_humidity" else "degC"
+    table = [f"time,air_temperature [degC],{kind} [hPa],{humidity_kind} [{unit}]"]
+    table += [f"2026-06-13 {hour:02d}:00,{t:g},{p:g},{h:g}" for hour, (t, p, h) in enumerate(rows)]
+    (demo / WEATHER).write_text("\n".join(table) + "\n")
+    edit(demo / EVENT, "elevation: 1650 m", f"elevation: {elevation:g} m")
+    text = (demo / EVENT).read_text()
+    sessions = text[text.index("sessions:"): text.index("fuel: e10")]
+    edit(demo / EVENT, sessions, f"sessions:\n  - {{name: all, start: 2026-06-13 00:00, end: 2026-06-13 {len(rows) - 1:02d}:00}}\n")
+    doc = plan_works(capsys, demo)
+    assert len(doc["weather"]) == len(rows)
+
+
+def test_plan_handles_references_at_every_corner(demo, capsys):
+    bikes = []
+    for elevation in ELEVATIONS:
+        for kind in KINDS:
+            for humidity_kind in ("relative_humidity", "dew_point"):
+                for t, p, h in _corners(kind, humidity_kind, elevation):
+                    reference = (f"{{elevation: {elevation:g} m, air_temperature: {t:g} degC, {kind}: {p:g} hPa, "
+                                 f"{humidity_kind}: {h:g}{' %' if humidity_kind == 'relative_humidity' else ' degC'}}}")
+                    bikes.append(f"  - {{id: X{len(bikes):03d}, model: trail-250-2s, reference: {reference}}}\n")
+    edit(demo / FLEET, "\nstock:\n", "".join(bikes) + "\nstock:\n")
+    doc = plan_works(capsys, demo)
+    assert len({e["bike"] for e in doc["entries"]}) == 14 + len(bikes)
+
+
+# The class of input that used to pass `check` and crash `plan`: a QNH or sea-level pressure that
+# converts, at the site's elevation, to less than 300 hPa (hot air there would be mostly vapour).
+def test_weather_row_below_the_station_pressure_floor_is_located(demo, capsys):
+    (demo / WEATHER).write_text("time,air_temperature [degC],qnh [hPa],relative_humidity [%]\n"
+                                + "".join(f"2026-06-13 {h:02d}:00,55,300,100\n" for h in range(24)))
+    edit(demo / EVENT, "elevation: 1650 m", "elevation: 5000 m")
+    lines = []
+    for command in ("check", "plan"):
+        code, out, err = run(capsys, command, demo / FLEET, demo / EVENT, *(["--out", demo / "out"] if command == "plan" else []))
+        assert code == 2 and "Traceback" not in "".join(err)
+        lines.append(err)
+    assert not (demo / "out").exists()
+    first = lines[0][0]
+    assert first == (f"{demo / WEATHER}:2: qnh: QNH 300 hPa at 5000 m elevation is a station pressure of 134 hPa, below "
+                     "the accepted 300 hPa (about that of the highest summits); check the value, its unit, which pressure "
+                     "it is and the elevation")
+
+
+def test_reference_below_the_station_pressure_floor_is_located(demo, capsys):
+    text = edit(demo / FLEET, "  qnh: 1013 hPa\n", "  sea_level_pressure: 300 hPa\n")
+    edit(demo / FLEET, "elevation: 150 m", "elevation: 5000 m")
+    line = check_fails(capsys, demo, FLEET)
+    assert line.startswith(f"{demo / FLEET}:{line_of(text, 'sea_level_pressure: 300')}: reference.sea_level_pressure: "
+                           "sea-level pressure 300 hPa at 5000 m elevation is a station pressure of ")
+
+
+def test_metar_below_the_station_pressure_floor_is_located(demo, capsys):
+    text = (demo / METAR).read_text().replace("elevation: 1650 m", "elevation: 5000 m").replace("Q1021", "Q0300")
+    (demo / METAR).write_text(text)
+    code, out, err = run(capsys, "check", demo / FLEET, demo / METAR)
+    assert code == 2 and len(err) == text.count("Q0300")  # one line for each report with Q0300
+    assert err[0].startswith(f"{demo / METAR}:{line_of(text, 'Q0300')}: weather.metar[0]: QNH 300 hPa at 5000 m")
+
+
+# --- 2. a dew point above the air temperature: located at load, in a table or a METAR report ---
+def test_dew_point_above_temperature_in_a_weather_row(demo, capsys):
+    table = ["time,air_temperature [degC],qnh [hPa],dew_point [degC]"]
+    table += [f"2026-06-13 {h:02d}:00,10.0,1015,{13.0 if h == 10 else 5.0}" for h in range(24)]
+    (demo / WEATHER).write_text("\n".join(table) + "\n")
+    line = plan_fails(capsys, demo)
+    assert line == (f"{demo / WEATHER}:12: dew_point: dew point 13.0 degC is above the air temperature 10.0 degC; "
+                    "check both values and their units")
+    assert check_fails(capsys, demo, FLEET, EVENT) == line
+
+
+def test_dew_point_within_rounding_of_the_temperature_plans(demo, capsys):
+    # tuning.air.DEW_POINT_ROUNDING_TOLERANCE (0.5 K): a dew point rounded above the temperature
+    table = ["time,air_temperature [degC],qnh [hPa],dew_point [degC]"]
+    table += [f"2026-06-{d} {h:02d}:00,10.0,1015,{10.4 if h == 10 else 5.0}" for d in (13, 14) for h in range(24)]
+    (demo / WEATHER).write_text("\n".join(table) + "\n")
+    plan_works(capsys, demo)
+
+
+def test_dew_point_above_temperature_in_a_metar_report(demo, capsys):
+    text = edit(demo / METAR, "FEW030 07/05 Q1021", "FEW030 05/13 Q1021")
+    line = user_error(capsys, "plan", demo / FLEET, demo / METAR, "--out", demo / "out")
+    assert not (demo / "out").exists()
+    assert line == (f"{demo / METAR}:{line_of(text, '05/13')}: weather.metar[0]: dew point 13 degC is above the air "
+                    "temperature 5 degC (the TT/TdTd group); check the report")
+
+
+# --- 15. clock changes: the repeated autumn hour, the skipped spring hour ----------------------
+def _event_on(demo, day, start, end, times):
+    """The demo event moved to one session on ``day`` with a weather row at each of ``times``."""
+    table = ["time,air_temperature [degC],qnh [hPa],relative_humidity [%]"]
+    table += [f"{t},{8.0 + 0.5 * i:g},1015,70" for i, t in enumerate(times)]
+    (demo / WEATHER).write_text("\n".join(table) + "\n")
+    text = (demo / EVENT).read_text()
+    sessions = text[text.index("sessions:"): text.index("fuel: e10")]
+    return edit(demo / EVENT, sessions, f"sessions:\n  - {{name: night, start: {day} {start}, end: {day} {end}}}\n"), table
+
+
+# Europe/Vienna leaves summer time on 2026-10-25 at 03:00 CEST (01:00 UTC): 02:00-02:59 comes
+# twice, first at UTC+02:00, then at UTC+01:00 (EU Directive 2000/84/EC: last Sunday of October,
+# 01:00 UTC; the tz database's Europe/Vienna follows it).
+AUTUMN = "2026-10-25"
+
+
+def test_repeated_autumn_hour_without_offsets_is_read_in_order(demo, capsys):
+    times = [f"{AUTUMN} {h}" for h in ("00:00", "01:00", "02:00", "02:00", "03:00", "04:00")]
+    _event_on(demo, AUTUMN, "01:30", "03:30", times)
+    doc = plan_works(capsys, demo)
+    assert [w["time"] for w in doc["weather"]] == [
+        f"{AUTUMN}T01:00:00+02:00", f"{AUTUMN}T02:00:00+02:00", f"{AUTUMN}T02:00:00+01:00", f"{AUTUMN}T03:00:00+01:00",
+        f"{AUTUMN}T04:00:00+01:00",
+    ]
+    hours = [h["time"] for h in doc["entries"][0]["hours"]]
+    assert hours == [f"{AUTUMN}T01:30:00+02:00", f"{AUTUMN}T02:00:00+02:00", f"{AUTUMN}T02:00:00+01:00",
+                     f"{AUTUMN}T03:00:00+01:00", f"{AUTUMN}T03:30:00+01:00"]
+
+
+def test_repeated_autumn_hour_with_offsets_is_read_as_written(demo, capsys):
+    times = [f"{AUTUMN} 00:00", f"{AUTUMN} 01:00", f"{AUTUMN} 02:00+02:00", f"{AUTUMN} 02:00+01:00", f"{AUTUMN} 03:00",
+             f"{AUTUMN} 04:00"]
+    _event_on(demo, AUTUMN, "01:30", "03:30", times)
+    doc = plan_works(capsys, demo)
+    assert f"{AUTUMN}T02:00:00+01:00" in [w["time"] for w in doc["weather"]]
+
+
+def test_rows_out_of_order_outside_a_clock_change_are_still_refused(demo, capsys):
+    times = [f"{AUTUMN} 00:00", f"{AUTUMN} 01:00", f"{AUTUMN} 04:00", f"{AUTUMN} 03:00", f"{AUTUMN} 05:00"]
+    _event_on(demo, AUTUMN, "01:30", "02:30", times)
+    line = plan_fails(capsys, demo)
+    assert line == (f"{demo / WEATHER}:5: time: {AUTUMN} 03:00 is not after the previous row's time; "
+                    "sort the rows, one per time")
+
+
+# Europe/Vienna starts summer time on 2026-03-29 at 02:00 CET (01:00 UTC): 02:00-02:59 does not
+# exist that day (same directive, last Sunday of March).
+def test_skipped_spring_hour_in_the_weather_is_one_located_line(demo, capsys):
+    times = [f"2026-03-29 {h}" for h in ("00:00", "01:00", "02:30", "03:00", "04:00")]
+    _event_on(demo, "2026-03-29", "03:00", "04:00", times)
+    line = plan_fails(capsys, demo)
+    assert line == (f"{demo / WEATHER}:4: time: time '2026-03-29 02:30' does not exist in Europe/Vienna (the clocks "
+                    "skip it); give it with an offset (+01:00 before the change, +02:00 after) or leave it out")
+
+
+def test_skipped_spring_hour_as_a_session_start_is_one_located_line(demo, capsys):
+    times = [f"2026-03-29 {h}" for h in ("00:00", "01:00", "03:00", "04:00")]
+    text, _ = _event_on(demo, "2026-03-29", "02:30", "04:00", times)
+    line = plan_fails(capsys, demo)
+    assert line.startswith(f"{demo / EVENT}:{line_of(text, 'name: night')}: sessions[0].start: time '2026-03-29 02:30' "
+                           "does not exist in Europe/Vienna")
+
+
+# --- 11. years far off: one located line (no overflow in time-zone arithmetic) -----------------
+@pytest.mark.parametrize("day", ["0001-01-01", "9999-12-31"])
+def test_session_in_a_far_year_is_one_located_line(demo, capsys, day):
+    text = edit(demo / EVENT, "start: 2026-06-13 09:00", f"start: {day} 00:30")
+    line = check_fails(capsys, demo, FLEET, EVENT)
+    year = int(day[:4])
+    assert line.startswith(f"{demo / EVENT}:{line_of(text, day)}: sessions[0].start: year {year} in '{day} 00:30' is "
+                           "outside the accepted 1900..2199; check the date")
+
+
+@pytest.mark.parametrize("stamp", ["0001-01-01 00:30", "9999-12-31 23:30", "9999-12-31T23:30-05:00"])
+def test_weather_row_in_a_far_year_is_one_located_line(demo, capsys, stamp):
+    text = (demo / WEATHER).read_text()
+    row = text.splitlines()[1]
+    edit(demo / WEATHER, row, stamp + row[len("2026-06-13 00:00"):])
+    line = check_fails(capsys, demo, FLEET, EVENT)
+    assert line.startswith(f"{demo / WEATHER}:2: time: year {int(stamp[:4])} in '{stamp}' is outside the accepted 1900..2199")

@@ -22,6 +22,7 @@ import numpy as np
 
 from tuning.config import model
 from tuning.config.fleet import ELEVATION_RANGE
+from tuning.config.limits import MAX_METAR_REPORTS
 from tuning.config.source import display_name, load_yaml
 from tuning.config.spec import (
     INVALID,
@@ -165,7 +166,7 @@ def load_event(path, fleet: model.Fleet | None = None) -> model.Event:
     if isinstance(source, str) and zone is not False:
         csv_path = Path(path).parent / source
         try:
-            weather, weather_problems = read_weather_csv(csv_path, zone or None)
+            weather, weather_problems = read_weather_csv(csv_path, zone or None, site.get("elevation"))
         except ConfigError as exc:  # missing or unreadable table: said at the line that names it
             for p in exc.problems:
                 if p.line is None:
@@ -173,8 +174,12 @@ def load_event(path, fleet: model.Fleet | None = None) -> model.Event:
                 else:
                     weather_problems.append(p)
     elif isinstance(source, dict) and "metar" in source and zone is not False:
-        if sessions:
-            weather = read_metar(source["metar"], min(s.start for _, s in sessions), ctx, "weather.metar")
+        if len(source["metar"]) > MAX_METAR_REPORTS:
+            ctx.at_path(f"weather.metar[{MAX_METAR_REPORTS}]", f"more than {MAX_METAR_REPORTS:,} METAR reports (the limit, "
+                        "see FORMATS.md); give the reports around the event's sessions only")
+        elif sessions:
+            weather = read_metar(source["metar"], min(s.start for _, s in sessions), ctx, "weather.metar",
+                                 site.get("elevation"))
         elif not ctx.problems:
             ctx.at_path("weather.metar", "METAR reports carry no month; it is taken from the sessions, which are missing")
 

@@ -18,7 +18,11 @@ sheet can say so):
 from __future__ import annotations
 
 import math
+import warnings
 
+import numpy as np
+
+from tuning import air
 from tuning.config import model
 from tuning.fuel import blend
 from tuning.config.source import display_name, load_yaml
@@ -64,6 +68,12 @@ PRESSURE_RANGE = (300.0, 1100.0)  # [hPa], for every pressure kind
 HUMIDITY_RANGE = (0.0, 100.0)  # [%]
 
 PRESSURE_KEYS = {"station_pressure": "station", "qnh": "qnh", "sea_level_pressure": "sea_level"}
+#: Lowest station pressure accepted once a QNH or sea-level pressure is converted with the
+#: elevation [hPa]: about that on the highest summits (8,849 m: about 330 hPa in the standard
+#: atmosphere). Below it the air of a hot day would be mostly water vapour (saturation at
+#: 55 degC is about 158 hPa) and the moist-air formulas no longer apply.
+STATION_PRESSURE_MIN = 300.0
+_PRESSURE_NAMES = {"station": "station pressure", "qnh": "QNH", "sea_level": "sea-level pressure"}
 
 
 # --- specs -------------------------------------------------------------------------------
@@ -296,11 +306,33 @@ def conditions_complete(raw) -> bool:
     )
 
 
+def station_pressures(pressure, kind: str, elevation: float, air_temperature) -> np.ndarray:
+    """Station pressure [Pa] of pressures [Pa] of ``kind`` at ``elevation`` [m] (no warnings)."""
+    with warnings.catch_warnings():  # range notes of the formulas: the plan gives them where due
+        warnings.simplefilter("ignore")
+        return np.asarray(air.station_pressure(pressure, kind, elevation, air_temperature), float)
+
+
+def station_pressure_problem(pressure: float, kind: str, elevation: float, station: float) -> str:
+    """The message for a station pressure below :data:`STATION_PRESSURE_MIN` (pressures in Pa)."""
+    return (
+        f"{_PRESSURE_NAMES[kind]} {pressure / 100:.6g} hPa at {elevation:.6g} m elevation is a station pressure of "
+        f"{station / 100:.0f} hPa, below the accepted {STATION_PRESSURE_MIN:g} hPa (about that of the highest summits); "
+        "check the value, its unit, which pressure it is and the elevation"
+    )
+
+
 def check_conditions(raw, path: str, fuels: dict, ctx: Context) -> None:
     if not isinstance(raw, dict):
         return
     if "dew_point" in raw and "air_temperature" in raw and raw["dew_point"] > raw["air_temperature"] + 1e-9:
         ctx.at_path(f"{path}.dew_point", "dew point above the air temperature; check the values and their units")
+    given = [k for k in PRESSURE_KEYS if k in raw]
+    if len(given) == 1 and {"elevation", "air_temperature"} <= raw.keys():
+        kind = PRESSURE_KEYS[given[0]]
+        station = float(station_pressures(raw[given[0]], kind, raw["elevation"], raw["air_temperature"]))
+        if not station >= STATION_PRESSURE_MIN * 100.0:
+            ctx.at_path(f"{path}.{given[0]}", station_pressure_problem(raw[given[0]], kind, raw["elevation"], station))
     fuel = raw.get("fuel")
     if fuel is not None and fuel not in fuels:
         ctx.at_path(f"{path}.fuel", f"unknown fuel '{fuel}'{did_you_mean(fuel, fuels)}; {known_list(fuels)}")
