@@ -363,3 +363,85 @@ def test_weather_row_in_a_far_year_is_one_located_line(demo, capsys, stamp):
     edit(demo / WEATHER, row, stamp + row[len("2026-06-13 00:00"):])
     line = check_fails(capsys, demo, FLEET, EVENT)
     assert line.startswith(f"{demo / WEATHER}:2: time: year {int(stamp[:4])} in '{stamp}' is outside the accepted 1900..2199")
+
+
+# --- 13. size limits, checked when loading (tuning.config.limits) -----------------------------
+def _with_bikes(demo, count):
+    text = (demo / FLEET).read_text()
+    bikes = "".join(f"  - {{id: G{i:06d}, model: trail-125-4s}}\n" for i in range(count))
+    return edit(demo / FLEET, "\nstock:\n", bikes + "\nstock:\n")
+
+
+def test_fleet_of_five_megabytes_is_refused_at_the_first_bike_over_the_limit(demo, capsys):
+    from tuning.config.limits import MAX_BIKES
+
+    text = _with_bikes(demo, 110_000)  # about 4.7 MB, under the file-size limit
+    assert (demo / FLEET).stat().st_size < 5_000_000
+    line = plan_fails(capsys, demo)
+    over = text.index(f"id: G{MAX_BIKES - 14:06d}")  # the demo has 14 bikes before these
+    assert line == (f"{demo / FLEET}:{text[:over].count(chr(10)) + 1}: bikes: more than {MAX_BIKES:,} bikes (the limit, "
+                    f"see FORMATS.md); split the file into parts of at most {MAX_BIKES:,}")
+
+
+def test_fleet_at_the_bike_limit_is_accepted(demo, capsys):
+    from tuning.config.limits import MAX_BIKES
+
+    _with_bikes(demo, MAX_BIKES - 14)
+    code, out, err = run(capsys, "check", demo / FLEET)
+    assert code == 0 and f"{MAX_BIKES} bikes" in out
+
+
+def test_too_many_sessions(demo, capsys):
+    from tuning.config.limits import MAX_SESSIONS
+
+    text = (demo / EVENT).read_text()
+    sessions = text[text.index("sessions:"): text.index("fuel: e10")]
+    many = "".join(f"  - {{name: s{i}, start: 2026-06-13 09:00, end: 2026-06-13 09:01}}\n" for i in range(MAX_SESSIONS + 1))
+    text = edit(demo / EVENT, sessions, "sessions:\n" + many)
+    line = check_fails(capsys, demo, FLEET, EVENT)
+    assert line == (f"{demo / EVENT}:{line_of(text, f'name: s{MAX_SESSIONS},')}: sessions: more than {MAX_SESSIONS} "
+                    f"sessions (the limit, see FORMATS.md); split the file into parts of at most {MAX_SESSIONS}")
+
+
+def test_too_many_bike_sessions(demo, capsys, monkeypatch):
+    from tuning.config import event
+
+    monkeypatch.setattr(event, "MAX_BIKE_SESSIONS", 50)  # the demo: 14 bikes x 4 sessions = 56
+    text = (demo / EVENT).read_text()
+    line = plan_fails(capsys, demo)
+    assert line == (f"{demo / EVENT}:{line_of(text, 'sessions:')}: sessions: 14 bikes × 4 sessions is 56 bike-sessions, "
+                    "more than the limit of 50 (see FORMATS.md); plan fewer bikes or sessions at a time")
+
+
+def test_too_many_bike_hours(demo, capsys, monkeypatch):
+    from tuning.config import event
+
+    # the demo's sessions 09:00-12:00, 13:30-17:00, 08:30-11:30, 13:00-16:30 count 4 + 5 + 5 + 5 hours
+    monkeypatch.setattr(event, "MAX_BIKE_HOURS", 14 * 19 - 1)
+    text = (demo / EVENT).read_text()
+    assert user_error(capsys, "check", demo / FLEET, demo / EVENT) == (
+        f"{demo / EVENT}:{line_of(text, 'sessions:')}: sessions: 14 bikes × 19 session hours is 266 bike-hours, more "
+        "than the limit of 265 (see FORMATS.md); plan fewer bikes or shorter sessions at a time")
+    monkeypatch.setattr(event, "MAX_BIKE_HOURS", 14 * 19)
+    assert run(capsys, "check", demo / FLEET, demo / EVENT)[0] == 0
+
+
+def test_too_many_weather_rows(demo, capsys):
+    from tuning.config.limits import MAX_WEATHER_ROWS
+
+    rows = "".join(f"2027-01-01 00:00,{i % 50},30.1,50\n" for i in range(MAX_WEATHER_ROWS))
+    (demo / WEATHER).write_text((demo / WEATHER).read_text() + rows)
+    line = check_fails(capsys, demo, FLEET, EVENT)
+    assert line == (f"{demo / WEATHER}:{MAX_WEATHER_ROWS + 2}: more than {MAX_WEATHER_ROWS:,} rows (the limit, see "
+                    "FORMATS.md); give the hours around the event's sessions only")
+
+
+def test_too_many_metar_reports(demo, capsys):
+    from tuning.config.limits import MAX_METAR_REPORTS
+
+    report = "    - XKSL 130650Z 27004KT 9999 FEW030 07/05 Q1021\n"
+    text = edit(demo / METAR, report, report * (MAX_METAR_REPORTS + 1))
+    line = check_fails(capsys, demo, FLEET, METAR)
+    assert line == (f"{demo / METAR}:{line_of(text, report) + MAX_METAR_REPORTS}: weather.metar[{MAX_METAR_REPORTS}]: "
+                    f"more than {MAX_METAR_REPORTS:,} METAR reports (the limit, see FORMATS.md); give the reports "
+                    "around the event's sessions only")

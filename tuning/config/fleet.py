@@ -24,6 +24,7 @@ import numpy as np
 
 from tuning import air
 from tuning.config import model
+from tuning.config.limits import MAX_BIKES
 from tuning.fuel import blend
 from tuning.config.source import display_name, load_yaml
 from tuning.config.spec import (
@@ -483,7 +484,7 @@ def load_fleet(path) -> model.Fleet:
         With every problem of the file, each ``file:line: field: problem``.
     """
     ctx = Context(display_name(path))
-    root = load_yaml(path)
+    root = load_yaml(path, {"bikes": (MAX_BIKES, "bikes")})
     ctx.lines[""] = root.start_mark.line + 1
     raw = fleet_spec().check(root, "", ctx)
     if raw is INVALID:

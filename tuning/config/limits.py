@@ -1,10 +1,11 @@
 """Size limits of the inputs, checked when the files are loaded (before any planning).
 
 A plan grows with bikes × sessions (one entry each) and with bikes × session hours (one hour
-record each): past these limits ``carbfleet plan`` would take minutes and gigabytes and then
-fail. Each limit is a round number below what was measured to fit in about 1 GB of memory and
-30 s on a 2-core machine (figures in DEVELOPERS.md). A fleet larger than this is planned in
-parts (one fleet file per workshop or per model).
+record each). Without limits a 5 MB fleet file (120,000 bikes) would be planned for minutes
+and then run out of memory. At these limits ``carbfleet plan`` took at most about 10 s and
+0.7 GB of memory on a 2-core machine (figures and commands in DEVELOPERS.md), within the
+1 GB and 30 s aimed at. A larger fleet is planned in parts (one fleet file per workshop or
+per model).
 """
 
 from __future__ import annotations

@@ -20,7 +20,7 @@ lines and lines starting with ``#`` are skipped. Years 1900 to 2199 are accepted
 A dew point may lie above the air temperature of its row by at most 0.5 K (rounding), and the
 station pressure (a QNH or sea-level pressure converted with the site elevation) must be at
 least 300 hPa, about that of the highest summits: below it the air of a hot row would be
-mostly water vapour. A table has at most 20,000 rows.
+mostly water vapour. The number of rows is limited (see Limits).
 
 Clock changes. In the hour that repeats when the clocks go back (e.g. 02:00–02:59 on
 2026-10-25 in Europe/Vienna) a time without offset is read as the first (summer-time) one,
@@ -40,7 +40,7 @@ keeps the reading nearest to that session (so a report of the 31st before a sess
 within the reports' times, as for a table. Temperature and dew point are
 read from the ``TT/TdTd`` group and the pressure from the altimeter setting (``Q1018`` hPa or
 ``A3012`` inHg), kept as QNH. The same checks as for a table apply (dew point, station
-pressure); a list has at most 2,000 reports.
+pressure); the number of reports is limited (see Limits).
 """
 
 from __future__ import annotations
