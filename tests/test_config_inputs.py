@@ -445,3 +445,84 @@ def test_too_many_metar_reports(demo, capsys):
     assert line == (f"{demo / METAR}:{line_of(text, report) + MAX_METAR_REPORTS}: weather.metar[{MAX_METAR_REPORTS}]: "
                     f"more than {MAX_METAR_REPORTS:,} METAR reports (the limit, see FORMATS.md); give the reports "
                     "around the event's sessions only")
+
+
+# --- 3. a needle at least as thick as its needle jet --------------------------------------------
+@pytest.mark.parametrize("thickness", ["2.80 mm", "3.1 mm"])  # trail-250-2s: needle jet 2.80 mm
+def test_needle_not_thinner_than_the_needle_jet_is_located(demo, capsys, thickness):
+    text = edit(demo / FLEET, "straight_diameter: 2.72 mm", f"straight_diameter: {thickness}")
+    line = plan_fails(capsys, demo)
+    where = line_of(text, "needle: {name: needle-a, clip: 3}")
+    assert line == (f"{demo / FLEET}:{where}: models.trail-250-2s.settings.needle.name: needle 'needle-a' is "
+                    f"{float(thickness.split()[0]):g} mm thick (needles.needle-a.straight_diameter), not thinner than "
+                    "this model's needle jet of 2.8 mm (carburetor.needle_jet); no fuel could pass: check both values")
+
+
+def test_bike_fitted_with_a_needle_too_thick_for_its_model_is_located(demo, capsys):
+    text = edit(demo / FLEET, "  needle-c: {}", "  needle-c: {}\n  needle-x: {straight_diameter: 2.9 mm}")
+    text = edit(demo / FLEET, "{id: E02, model: enduro-300-2s}", "{id: E02, model: enduro-300-2s, settings: {needle: {name: needle-x}}}")
+    line = plan_fails(capsys, demo)
+    assert line.startswith(f"{demo / FLEET}:{line_of(text, '{id: E02')}: bikes[7].settings.needle.name: needle 'needle-x' "
+                           "is 2.9 mm thick")
+
+
+# --- 7. a proven mixture-screw setting outside its own usable range -----------------------------
+def test_model_screw_outside_its_usable_range_is_located(demo, capsys):
+    text = edit(demo / FLEET, "{kind: air, turns: 1.5, usable_range: [1, 3]}", "{kind: air, turns: 3.5, usable_range: [1, 3]}")
+    line = plan_fails(capsys, demo)
+    assert line == (f"{demo / FLEET}:{line_of(text, 'turns: 3.5')}: models.trail-250-2s.settings.mixture_screw.turns: "
+                    "3.5 turns out is outside the screw's usable range 1..3 turns; a proven setting lies inside it: "
+                    "check the turns and the range (beyond it the pilot jet is changed)")
+
+
+def test_bike_screw_outside_its_usable_range_is_located(demo, capsys):
+    text = edit(demo / FLEET, "settings: {mixture_screw: {turns: 2.0}}", "settings: {mixture_screw: {turns: 0.5}}")
+    line = check_fails(capsys, demo, FLEET)
+    assert line.startswith(f"{demo / FLEET}:{line_of(text, 'turns: 0.5')}: bikes[11].settings.mixture_screw.turns: "
+                           "0.5 turns out is outside the screw's usable range 1..3 turns")
+
+
+def test_bike_range_that_excludes_the_model_turns_is_located_at_the_range(demo, capsys):
+    text = edit(demo / FLEET, "settings: {mixture_screw: {turns: 2.0}}", "settings: {mixture_screw: {usable_range: [2, 3]}}")
+    line = check_fails(capsys, demo, FLEET)  # trail-450-4s: 1.75 turns
+    assert line.startswith(f"{demo / FLEET}:{line_of(text, 'usable_range: [2, 3]')}: bikes[11].settings.mixture_screw."
+                           "usable_range: 1.75 turns out is outside the screw's usable range 2..3 turns")
+
+
+# --- 8. premix: 32:1 unquoted (YAML 1.1 reads it as the base-60 number 1921) -----------------------
+def test_unquoted_premix_ratio_is_read_as_written(demo, capsys):
+    edit(demo / FLEET, "    premix: 40           # fuel:oil 40:1", "    premix: 32:1")
+    code, out, err = run(capsys, "check", demo / FLEET)
+    assert code == 0 and "premix 32:1" in out and "1921" not in out
+    doc = plan_works(capsys, demo)
+    assert {e["premix_ratio"] for e in doc["entries"] if e["model"] == "trail-250-2s"} == {32.0}
+
+
+def test_premix_ratio_other_than_to_one_is_still_refused(demo, capsys):
+    text = edit(demo / FLEET, "    premix: 40           # fuel:oil 40:1", "    premix: 32:2")
+    line = check_fails(capsys, demo, FLEET)
+    assert line == (f"{demo / FLEET}:{line_of(text, 'premix: 32:2')}: models.trail-250-2s.premix: expected a fuel:oil "
+                    "ratio such as 40 or '40:1', got '32:2'")
+
+
+# --- 14. one malformed jet family (or fuel, model): one line, not one per reference --------------
+@pytest.mark.parametrize(
+    "old, new, field, message",
+    [
+        ("sizes: {from: 140, to: 200, step: 2.5}", "sizes: {from: 140, to: abc, step: 2.5}",
+         "jet_families.round-main.sizes.to", "expected a number, got 'abc'"),
+        ("sizes: {from: 140, to: 200, step: 2.5}", 'sizes: "big"',
+         "jet_families.round-main.sizes", "expected a list of sizes or a mapping {from, to, step}, got 'big'"),
+        ("sizes: {from: 140, to: 200, step: 2.5}", "sizes: {from: 200, to: 140, step: 2.5}",
+         "jet_families.round-main.sizes.to", "'to' (140) must be above 'from' (200)"),
+        ("  e5: {ethanol: 5 %}", "  e5: {ethanol: 95 %, methanol: 10 %}", "fuels.e5", "ethanol and methanol together exceed 100 %"),
+        ("  needle-a:              # measured in the workshop\n", "  needle-a: 12\n  needle-unused:\n", "needles.needle-a",
+         "expected a mapping with keys straight_diameter, taper_start, taper_angle, grooves, groove_pitch, got 12"),
+    ],
+    ids=["size-not-a-number", "sizes-a-word", "sizes-backwards", "fuel-blend", "needle-not-a-mapping"],
+)
+def test_one_malformed_entry_is_one_line(demo, capsys, old, new, field, message):
+    text = edit(demo / FLEET, old, new)
+    line = check_fails(capsys, demo, FLEET)
+    assert line.split(": ", 2)[1:] == [field, message]
+    assert line.startswith(f"{demo / FLEET}:{line_of(text, new.strip().splitlines()[0])}: ")
