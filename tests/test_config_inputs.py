@@ -526,3 +526,33 @@ def test_one_malformed_entry_is_one_line(demo, capsys, old, new, field, message)
     line = check_fails(capsys, demo, FLEET)
     assert line.split(": ", 2)[1:] == [field, message]
     assert line.startswith(f"{demo / FLEET}:{line_of(text, new.strip().splitlines()[0])}: ")
+
+
+# --- 6. the fleet and event files in the wrong order -------------------------------------------
+EVENT_FIRST = "looks like an event file (it has event, site, sessions, fuel, weather); the fleet file comes first, then the event file"
+
+
+@pytest.mark.parametrize("command", ["check", "plan"])
+def test_event_file_given_first_is_one_line(demo, capsys, command):
+    out = ["--out", demo / "out"] if command == "plan" else []
+    line = user_error(capsys, command, demo / EVENT, demo / FLEET, *out)
+    assert line == f"{demo / EVENT}: {EVENT_FIRST}"
+    assert not (demo / "out").exists()
+
+
+def test_fleet_file_given_second_is_one_line(demo, capsys):
+    line = user_error(capsys, "check", demo / FLEET, demo / FLEET)
+    assert line == (f"{demo / FLEET}: looks like a fleet file (it has fleet, reference, density_exponent, reference_afr, "
+                    "fuels, jet_families, needles, models, bikes, stock); the event file comes second, after the fleet file")
+
+
+def test_a_fleet_file_with_one_misplaced_event_key_is_not_called_an_event_file(demo, capsys):
+    text = edit(demo / FLEET, "fleet: Invented Riding School\n", "fleet: Invented Riding School\nsite: somewhere\n")
+    line = check_fails(capsys, demo, FLEET)
+    assert line.startswith(f"{demo / FLEET}:{line_of(text, 'site: somewhere')}: site: unknown key 'site'")
+
+
+def test_a_long_scalar_in_a_message_is_shortened(demo, capsys):
+    line = user_error(capsys, "check", demo / FLEET, demo / WEATHER)
+    assert line.startswith(f"{demo / WEATHER}:1: expected a mapping with keys event, site, sessions, fuel, weather, got ")
+    assert line.endswith(" characters)") and len(line) < 300

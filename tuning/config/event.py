@@ -21,7 +21,7 @@ from pathlib import Path
 import numpy as np
 
 from tuning.config import model
-from tuning.config.fleet import ELEVATION_RANGE
+from tuning.config.fleet import ELEVATION_RANGE, refuse_other_kind
 from tuning.config.limits import MAX_BIKE_HOURS, MAX_BIKE_SESSIONS, MAX_METAR_REPORTS, MAX_SESSIONS
 from tuning.config.source import display_name, load_yaml
 from tuning.config.spec import (
@@ -123,6 +123,7 @@ def load_event(path, fleet: model.Fleet | None = None) -> model.Event:
     """
     ctx = Context(display_name(path))
     root = load_yaml(path, {"sessions": (MAX_SESSIONS, "sessions")})
+    refuse_other_kind(root, ctx.file, "event")
     ctx.lines[""] = root.start_mark.line + 1
     raw = event_spec().check(root, "", ctx)
     if raw is INVALID:

@@ -44,8 +44,9 @@ from tuning.config.spec import (
     Text,
     did_you_mean,
     known_list,
+    top_level_keys,
 )
-from tuning.errors import ConfigError
+from tuning.errors import ConfigError, Problem, WrongFileError
 
 __all__ = ["load_fleet", "fleet_spec", "DEFAULT_NEEDLE", "DEFAULT_SCREW_RANGE"]
 
@@ -286,6 +287,25 @@ def fleet_spec() -> Obj:
     )
 
 
+#: Top-level keys that only an event file has (tuning.config.event.event_spec), and only a fleet file.
+EVENT_KEYS = ("event", "site", "sessions", "weather", "fuel")
+FLEET_KEYS = ("fleet", "reference", "density_exponent", "reference_afr", "premix", "fuels", "jet_families", "needles",
+              "models", "bikes", "stock")
+
+
+def refuse_other_kind(root, file: str, kind: str) -> None:
+    """Raise WrongFileError where ``root`` has more keys of the other kind of file than of its own."""
+    keys = top_level_keys(root)
+    own, other = (FLEET_KEYS, EVENT_KEYS) if kind == "fleet" else (EVENT_KEYS, FLEET_KEYS)
+    theirs = [k for k in keys if k in other]
+    if len(theirs) > sum(k in own for k in keys):
+        if kind == "fleet":
+            message = f"looks like an event file (it has {', '.join(theirs)}); the fleet file comes first, then the event file"
+        else:
+            message = f"looks like a fleet file (it has {', '.join(theirs)}); the event file comes second, after the fleet file"
+        raise WrongFileError(Problem(file, None, "", message))
+
+
 # --- resolution --------------------------------------------------------------------------
 def make_conditions(raw: dict, default_fuel: str | None) -> model.Conditions:
     (pressure_key,) = [k for k in PRESSURE_KEYS if k in raw]
@@ -523,6 +543,7 @@ def load_fleet(path) -> model.Fleet:
     """
     ctx = Context(display_name(path))
     root = load_yaml(path, {"bikes": (MAX_BIKES, "bikes")})
+    refuse_other_kind(root, ctx.file, "fleet")
     ctx.lines[""] = root.start_mark.line + 1
     raw = fleet_spec().check(root, "", ctx)
     if raw is INVALID:

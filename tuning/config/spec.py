@@ -74,6 +74,13 @@ class Context:
         self.add(self.line(path), path, message)
 
 
+def top_level_keys(node: yaml.Node) -> list[str]:
+    """The plain keys of a top-level mapping node (empty for anything else)."""
+    if not isinstance(node, yaml.MappingNode):
+        return []
+    return [k.value for k, _ in node.value if isinstance(k, yaml.ScalarNode)]
+
+
 def one_line(text: str) -> str:
     """``text`` with control characters escaped (user text in a message stays on one line)."""
     return "".join(ch if ch.isprintable() or ch == " " else ch.encode("unicode_escape").decode("ascii") for ch in str(text))
@@ -128,7 +135,8 @@ def _type_name(node: yaml.Node) -> str:
     value = scalar_value(node)
     if value is None:
         return "nothing (null)"
-    return f"{value!r}"
+    text = repr(value)
+    return text if len(text) <= 80 else f"{text[:60]}… ({len(node.value):,} characters)"
 
 
 class Spec:

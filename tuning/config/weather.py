@@ -274,9 +274,11 @@ def read_weather_csv(path, zone: zoneinfo.ZoneInfo | None, elevation: float | No
             good[i] = False
     if elevation is not None and good.any():
         kind = PRESSURE_COLUMNS[pressure[0]]
-        station = station_pressures(values[pressure[0]], kind, elevation, temperature)
-        for i in np.flatnonzero(good & ~(station >= STATION_PRESSURE_MIN * 100.0)):
-            ctx.add(lines[i], pressure[0], station_pressure_problem(values[pressure[0]][i], kind, elevation, float(station[i])))
+        rows_ok = np.flatnonzero(good)  # rows whose values are in range (converting others could fail)
+        station = station_pressures(values[pressure[0]][rows_ok], kind, elevation, temperature[rows_ok])
+        for i, p in zip(rows_ok, station):
+            if not p >= STATION_PRESSURE_MIN * 100.0:
+                ctx.add(lines[i], pressure[0], station_pressure_problem(values[pressure[0]][i], kind, elevation, float(p)))
     if ctx.problems:
         return None, ctx.problems
     weather = model.Weather(
