@@ -59,18 +59,11 @@ def _air_option(args, dest, default_unit, low=None, high=None, shown_unit=None):
         raise UserError(f"{option}: {problem}{hint}") from None
     if low is not None and not low <= shown <= high:
         raise UserError(f"{option}: expected {low:g} to {high:g} {unit}, got {text!r}; check the value and its unit")
-    if dest == "relative_humidity" and 0.0 < shown < 1.0 and _bare_number(text):
+    bare = text.strip().lstrip("+-").replace(".", "", 1).isdigit()  # a number without unit
+    if dest == "relative_humidity" and 0.0 < shown < 1.0 and bare:
         print(f"carbfleet air: note: {option} {text.strip()} was read as {shown:g} %; "
               f"for a fraction of {shown:g} write {shown * 100:g}", file=sys.stderr)
     return value
-
-
-def _bare_number(text: str) -> bool:
-    try:
-        float(text)
-    except ValueError:
-        return False
-    return True
 
 
 def cmd_air(args) -> int:

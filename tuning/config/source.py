@@ -41,6 +41,16 @@ def _refuse(name: str, message: str, line: int | None = None) -> ConfigError:
     return ConfigError([Problem(name, line, "", message)])
 
 
+def _kind(mode: int) -> str:
+    if stat.S_ISFIFO(mode):
+        return "a named pipe"
+    if stat.S_ISCHR(mode) or stat.S_ISBLK(mode):
+        return "a device"
+    if stat.S_ISSOCK(mode):
+        return "a socket"
+    return "a special file"
+
+
 def read_text(path) -> str:
     """Text of a UTF-8 regular file, or ConfigError naming the path.
 
@@ -54,11 +64,12 @@ def read_text(path) -> str:
         if stat.S_ISDIR(mode):
             raise _refuse(name, "is a folder; give the path of a file")
         if not stat.S_ISREG(mode):
-            kind = "a named pipe" if stat.S_ISFIFO(mode) else "a device" if stat.S_ISCHR(mode) or stat.S_ISBLK(mode) else "a socket" if stat.S_ISSOCK(mode) else "not a regular file"
-            raise _refuse(name, f"is {kind}, not a regular file; save the data to a file and give its path")
-        with open(p, "rb") as handle:
-            if not stat.S_ISREG(os.fstat(handle.fileno()).st_mode):  # replaced since the check above
-                raise _refuse(name, "is not a regular file; save the data to a file and give its path")
+            raise _refuse(name, f"is {_kind(mode)}, not a regular file; save the data to a file and give its path")
+        # O_NONBLOCK: should the path become a named pipe after the check, open() does not wait
+        with os.fdopen(os.open(p, os.O_RDONLY | getattr(os, "O_NONBLOCK", 0)), "rb") as handle:
+            mode = os.fstat(handle.fileno()).st_mode
+            if not stat.S_ISREG(mode):
+                raise _refuse(name, f"is {_kind(mode)}, not a regular file; save the data to a file and give its path")
             data = handle.read(MAX_FILE_BYTES + 1)
     except FileNotFoundError:
         raise _refuse(name, f"file not found (looked for {p.resolve()})") from None
