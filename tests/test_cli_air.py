@@ -144,3 +144,40 @@ def test_bad_value_is_one_line_and_exit_2(capsys, options):
     lines = captured.err.strip().splitlines()
     assert len(lines) == 1, captured.err
     assert lines[0].startswith("carbfleet air: ")
+
+
+@pytest.mark.parametrize(
+    "option, value, expected",
+    [
+        ("--relative-humidity", "50 %%", "carbfleet air: --relative-humidity: '50 %%' is not a plain number or "
+                                          "percentage; write it as '50 %'"),
+        ("--temperature", "20 delta_degC", "carbfleet air: --temperature: '20 delta_degC' is a temperature "
+                                           "difference, not a temperature; give a temperature such as '20 degC'"),
+        ("--dew-point", "5 delta_degF", "carbfleet air: --dew-point: '5 delta_degF' is a temperature difference, "
+                                        "not a temperature; give a temperature such as '5 degC'"),
+    ],
+)
+def test_unit_of_the_wrong_kind_is_one_line(capsys, option, value, expected):
+    options = {"--elevation": "1340", "--temperature": "24", "--qnh": "1016", "--relative-humidity": "40"}
+    if option == "--dew-point":
+        del options["--relative-humidity"]
+    options[option] = value
+    code = main(["air", *[x for pair in options.items() for x in pair]])
+    captured = capsys.readouterr()
+    assert code == 2 and captured.out == ""
+    assert captured.err.splitlines() == [expected]
+
+
+def test_bare_relative_humidity_below_one_is_read_as_percent_with_a_note(capsys):
+    result = run_json(capsys, "--elevation", "1340", "--temperature", "24", "--qnh", "1016", "--relative-humidity", "0.4")
+    assert result["relative_humidity_pct"] == pytest.approx(0.4)  # read as 0.4 %, as documented
+    main(["air", "--elevation", "1340", "--temperature", "24", "--qnh", "1016", "--relative-humidity", "0.4"])
+    assert capsys.readouterr().err.splitlines() == [
+        "carbfleet air: note: --relative-humidity 0.4 was read as 0.4 %; for a fraction of 0.4 write 40"
+    ]
+
+
+@pytest.mark.parametrize("value", ["40", "0.4 %", "0", "1"])
+def test_no_note_for_a_percentage_given_as_such(capsys, value):
+    main(["air", "--elevation", "1340", "--temperature", "24", "--qnh", "1016", "--relative-humidity", value])
+    assert capsys.readouterr().err == ""

@@ -369,9 +369,10 @@ def test_missing_file(tmp_path, loader):
 
 
 def test_missing_weather_table(demo):
-    edit(demo / EVENT, "weather: demo-weather.csv", "weather: forecast.csv")
+    text = edit(demo / EVENT, "weather: demo-weather.csv", "weather: forecast.csv")
     p = problems(load_event, demo / EVENT)[0]
-    assert p.file == str(demo / "forecast.csv") and "file not found" in p.message
+    assert p.file == str(demo / EVENT) and p.line == line_of(text, "weather: forecast.csv") and p.field == "weather"
+    assert p.message == f"file not found (looked for {(demo / 'forecast.csv').resolve()})"
 
 
 def test_metar_report_unreadable(demo):

@@ -57,6 +57,12 @@ def test_agrees_with_pint_definitions(unit, si):
         (None, "m", "expected a number"),
         (float("nan"), "m", "finite"),
         ([1, 2], "m", "expected a number"),
+        # pint reads "%%" as percent squared (50 %% = 0.005) and delta_degC as a temperature
+        # dimension (20 delta_degC = 20 K): both would be wrong values, not errors
+        ("50 %%", "percent", "'50 %%' is not a plain number or percentage; write it as '50 %'"),
+        ("20 delta_degC", "degC", "is a temperature difference, not a temperature"),
+        ("68 delta_degF", "degC", "is a temperature difference, not a temperature"),
+        ("3 %", "deg", "is not an angle"),
     ],
 )
 def test_problems(value, default_unit, message):

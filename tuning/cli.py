@@ -58,10 +58,15 @@ def _air_option(args, dest, default_unit, low=None, high=None, shown_unit=None):
         shown = parse_quantity(text.strip(), default_unit, shown_unit or default_unit)
     except UnitProblem as problem:
         example = {"elevation": "1340 m", "temperature": "24 degC", "relative_humidity": "40 %", "dew_point": "10 degC"}
-        hint = "" if "give it in" in str(problem) else f"; give a number and a unit, e.g. '{example.get(dest, '1016 hPa')}'"
+        told = any(words in str(problem) for words in ("give it in", "write it as", "such as"))
+        hint = "" if told else f"; give a number and a unit, e.g. '{example.get(dest, '1016 hPa')}'"
         raise UserError(f"{option}: {problem}{hint}") from None
     if low is not None and not low <= shown <= high:
         raise UserError(f"{option}: expected {low:g} to {high:g} {unit}, got {text!r}; check the value and its unit")
+    bare = text.strip().lstrip("+-").replace(".", "", 1).isdigit()  # a number without unit
+    if dest == "relative_humidity" and 0.0 < shown < 1.0 and bare:
+        print(f"carbfleet air: note: {option} {text.strip()} was read as {shown:g} %; "
+              f"for a fraction of {shown:g} write {shown * 100:g}", file=sys.stderr)
     return value
 
 

@@ -47,3 +47,16 @@ class BuildError(CarbfleetError):
     """A build step failed (exit 1); the message names the bike or step."""
 
     exit_code = 1
+
+
+class WrongFileError(UserError):
+    """A file of the other kind where one kind was expected (the fleet and event files swapped).
+
+    Not a :class:`ConfigError`: once a file is the wrong kind, nothing else about the files is
+    worth saying, so ``carbfleet check`` stops at this one line instead of also reading the
+    other file in the wrong role.
+    """
+
+    def __init__(self, problem: Problem):
+        self.problem = problem
+        super().__init__(str(problem))

@@ -134,14 +134,17 @@ _HOUR = 3600
 
 # --- small helpers ----------------------------------------------------------------------------
 def _r(values, digits):
-    """Round an array (NaN -> None) and return plain Python objects."""
+    """Round an array and return plain Python objects; NaN and ±inf become None.
+
+    A value that is not finite is undefined for the reader (the dew point of perfectly dry
+    air is -inf): JSON has no such numbers, so it is written as null.
+    """
     arr = np.round(np.asarray(values, float), digits)
-    out = arr.tolist()
-    if np.isnan(arr).any():
-        if arr.ndim == 0:
-            return None
-        out = [None if v != v else v for v in out] if arr.ndim == 1 else out
-    return out
+    if np.isfinite(arr).all():
+        return arr.tolist()
+    if arr.ndim == 0:
+        return None
+    return np.where(np.isfinite(arr), arr, None).tolist()
 
 
 def _num(value):

@@ -5,7 +5,7 @@
 
 from __future__ import annotations
 
-from tuning.config import weather
+from tuning.config import limits, weather
 from tuning.config.event import event_spec
 from tuning.config.fleet import fleet_spec
 from tuning.config.spec import Either, Mapping, Obj, Sequence, Spec
@@ -48,6 +48,7 @@ def field_reference() -> str:
         out.append("")
     out += ["## Weather table (CSV)", "", weather.__doc__.split("CSV table\n---------\n", 1)[1].split("METAR\n-----")[0].strip(), ""]
     out += ["## METAR list", "", weather.__doc__.split("METAR\n-----\n", 1)[1].strip(), ""]
+    out += ["## Limits", "", " ".join(limits.__doc__.split("\n\n", 1)[1].split()), "", limits.limits_text(), ""]
     return "\n".join(out)
 
 

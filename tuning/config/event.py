@@ -21,7 +21,8 @@ from pathlib import Path
 import numpy as np
 
 from tuning.config import model
-from tuning.config.fleet import ELEVATION_RANGE
+from tuning.config.fleet import ELEVATION_RANGE, refuse_other_kind
+from tuning.config.limits import MAX_BIKE_HOURS, MAX_BIKE_SESSIONS, MAX_METAR_REPORTS, MAX_SESSIONS
 from tuning.config.source import display_name, load_yaml
 from tuning.config.spec import (
     INVALID,
@@ -121,7 +122,8 @@ def load_event(path, fleet: model.Fleet | None = None) -> model.Event:
         Every problem of the event file and of its weather table, each ``file:line: field: problem``.
     """
     ctx = Context(display_name(path))
-    root = load_yaml(path)
+    root = load_yaml(path, {"sessions": (MAX_SESSIONS, "sessions")})
+    refuse_other_kind(root, ctx.file, "event")
     ctx.lines[""] = root.start_mark.line + 1
     raw = event_spec().check(root, "", ctx)
     if raw is INVALID:
@@ -156,6 +158,9 @@ def load_event(path, fleet: model.Fleet | None = None) -> model.Event:
             later = max(i0, i1)
             ctx.at_path(f"sessions[{later}].start", f"sessions '{a.name}' and '{b.name}' overlap ({_fmt(b.start)} is before {_fmt(a.end)})")
 
+    if fleet is not None and sessions:
+        _check_size(len(fleet.bikes), [s for _, s in sessions], ctx)
+
     fuel = raw.get("fuel")
     if fuel is not None and fleet is not None and fuel not in fleet.fuels:
         ctx.at_path("fuel", f"unknown fuel '{fuel}'{did_you_mean(fuel, fleet.fuels)}; {known_list(fleet.fuels)}")
@@ -165,12 +170,20 @@ def load_event(path, fleet: model.Fleet | None = None) -> model.Event:
     if isinstance(source, str) and zone is not False:
         csv_path = Path(path).parent / source
         try:
-            weather, weather_problems = read_weather_csv(csv_path, zone or None)
-        except ConfigError as exc:  # missing or unreadable table
-            weather_problems = exc.problems
+            weather, weather_problems = read_weather_csv(csv_path, zone or None, site.get("elevation"))
+        except ConfigError as exc:  # missing or unreadable table: said at the line that names it
+            for p in exc.problems:
+                if p.line is None:
+                    ctx.at_path("weather", p.message)
+                else:
+                    weather_problems.append(p)
     elif isinstance(source, dict) and "metar" in source and zone is not False:
-        if sessions:
-            weather = read_metar(source["metar"], min(s.start for _, s in sessions), ctx, "weather.metar")
+        if len(source["metar"]) > MAX_METAR_REPORTS:
+            ctx.at_path(f"weather.metar[{MAX_METAR_REPORTS}]", f"more than {MAX_METAR_REPORTS:,} METAR reports (the limit, "
+                        "see FORMATS.md); give the reports around the event's sessions only")
+        elif sessions:
+            weather = read_metar(source["metar"], min(s.start for _, s in sessions), ctx, "weather.metar",
+                                 site.get("elevation"))
         elif not ctx.problems:
             ctx.at_path("weather.metar", "METAR reports carry no month; it is taken from the sessions, which are missing")
 
@@ -188,6 +201,25 @@ def load_event(path, fleet: model.Fleet | None = None) -> model.Event:
         fuel=fuel,
         source=Path(path),
     )
+
+
+def _session_hours(session: model.Session) -> int:
+    """How many hours the plan computes for a session: start, every whole hour between, end."""
+    start, end = int(round(session.start.timestamp())), int(round(session.end.timestamp()))
+    return 2 + max(0, (end - 1) // 3600 - start // 3600)
+
+
+def _check_size(bikes: int, sessions: list[model.Session], ctx: Context) -> None:
+    """The plan's size limits (tuning.config.limits), said at the ``sessions`` line."""
+    entries = bikes * len(sessions)
+    if entries > MAX_BIKE_SESSIONS:
+        ctx.at_path("sessions", f"{bikes:,} bikes × {len(sessions):,} sessions is {entries:,} bike-sessions, more than "
+                    f"the limit of {MAX_BIKE_SESSIONS:,} (see FORMATS.md); plan fewer bikes or sessions at a time")
+        return
+    hours = sum(_session_hours(s) for s in sessions)
+    if bikes * hours > MAX_BIKE_HOURS:
+        ctx.at_path("sessions", f"{bikes:,} bikes × {hours:,} session hours is {bikes * hours:,} bike-hours, more than "
+                    f"the limit of {MAX_BIKE_HOURS:,} (see FORMATS.md); plan fewer bikes or shorter sessions at a time")
 
 
 def _line_key(problem) -> int:

@@ -18,8 +18,13 @@ sheet can say so):
 from __future__ import annotations
 
 import math
+import warnings
 
+import numpy as np
+
+from tuning import air
 from tuning.config import model
+from tuning.config.limits import MAX_BIKES
 from tuning.fuel import blend
 from tuning.config.source import display_name, load_yaml
 from tuning.config.spec import (
@@ -39,8 +44,9 @@ from tuning.config.spec import (
     Text,
     did_you_mean,
     known_list,
+    top_level_keys,
 )
-from tuning.errors import ConfigError
+from tuning.errors import ConfigError, Problem, WrongFileError
 
 __all__ = ["load_fleet", "fleet_spec", "DEFAULT_NEEDLE", "DEFAULT_SCREW_RANGE"]
 
@@ -64,6 +70,12 @@ PRESSURE_RANGE = (300.0, 1100.0)  # [hPa], for every pressure kind
 HUMIDITY_RANGE = (0.0, 100.0)  # [%]
 
 PRESSURE_KEYS = {"station_pressure": "station", "qnh": "qnh", "sea_level_pressure": "sea_level"}
+#: Lowest station pressure accepted once a QNH or sea-level pressure is converted with the
+#: elevation [hPa]: about that on the highest summits (8,849 m: about 330 hPa in the standard
+#: atmosphere). Below it the air of a hot day would be mostly water vapour (saturation at
+#: 55 degC is about 158 hPa) and the moist-air formulas no longer apply.
+STATION_PRESSURE_MIN = 300.0
+_PRESSURE_NAMES = {"station": "station pressure", "qnh": "QNH", "sea_level": "sea-level pressure"}
 
 
 # --- specs -------------------------------------------------------------------------------
@@ -112,8 +124,10 @@ def _read_premix(value) -> float:
 PREMIX = Custom(
     _read_premix,
     {"anyOf": [{"type": "number", "minimum": 10, "maximum": 200}, {"type": "string", "pattern": r"^\s*\d+(\.\d+)?\s*(:\s*1\s*)?$"}]},
-    "Two-stroke premix, fuel:oil by volume: 40 or \"40:1\" (10..200). A bike's value wins over its model's, "
-    "a model's over the fleet's; a two-stroke with none is taken as oil-injected. Not allowed on four-strokes.",
+    "Two-stroke premix, fuel:oil by volume: 40 or \"40:1\" (10..200); an unquoted 40:1 is read as written too. "
+    "A bike's value wins over its model's, a model's over the fleet's; a two-stroke with none is taken as "
+    "oil-injected. Not allowed on four-strokes.",
+    colon_as_text=True,
 )
 DENSITY_EXPONENT = Number(
     "Exponent on the air-density ratio (0 < n <= 1.5); 0.5 is the metering law, workshop rules correct harder. "
@@ -273,6 +287,25 @@ def fleet_spec() -> Obj:
     )
 
 
+#: Top-level keys that only an event file has (tuning.config.event.event_spec), and only a fleet file.
+EVENT_KEYS = ("event", "site", "sessions", "weather", "fuel")
+FLEET_KEYS = ("fleet", "reference", "density_exponent", "reference_afr", "premix", "fuels", "jet_families", "needles",
+              "models", "bikes", "stock")
+
+
+def refuse_other_kind(root, file: str, kind: str) -> None:
+    """Raise WrongFileError where ``root`` has more keys of the other kind of file than of its own."""
+    keys = top_level_keys(root)
+    own, other = (FLEET_KEYS, EVENT_KEYS) if kind == "fleet" else (EVENT_KEYS, FLEET_KEYS)
+    theirs = [k for k in keys if k in other]
+    if len(theirs) > sum(k in own for k in keys):
+        if kind == "fleet":
+            message = f"looks like an event file (it has {', '.join(theirs)}); the fleet file comes first, then the event file"
+        else:
+            message = f"looks like a fleet file (it has {', '.join(theirs)}); the event file comes second, after the fleet file"
+        raise WrongFileError(Problem(file, None, "", message))
+
+
 # --- resolution --------------------------------------------------------------------------
 def make_conditions(raw: dict, default_fuel: str | None) -> model.Conditions:
     (pressure_key,) = [k for k in PRESSURE_KEYS if k in raw]
@@ -296,13 +329,35 @@ def conditions_complete(raw) -> bool:
     )
 
 
+def station_pressures(pressure, kind: str, elevation: float, air_temperature) -> np.ndarray:
+    """Station pressure [Pa] of pressures [Pa] of ``kind`` at ``elevation`` [m] (no warnings)."""
+    with warnings.catch_warnings():  # range notes of the formulas: the plan gives them where due
+        warnings.simplefilter("ignore")
+        return np.asarray(air.station_pressure(pressure, kind, elevation, air_temperature), float)
+
+
+def station_pressure_problem(pressure: float, kind: str, elevation: float, station: float) -> str:
+    """The message for a station pressure below :data:`STATION_PRESSURE_MIN` (pressures in Pa)."""
+    return (
+        f"{_PRESSURE_NAMES[kind]} {pressure / 100:.6g} hPa at {elevation:.6g} m elevation is a station pressure of "
+        f"{station / 100:.0f} hPa, below the accepted {STATION_PRESSURE_MIN:g} hPa (about that of the highest summits); "
+        "check the value, its unit, which pressure it is and the elevation"
+    )
+
+
 def check_conditions(raw, path: str, fuels: dict, ctx: Context) -> None:
     if not isinstance(raw, dict):
         return
     if "dew_point" in raw and "air_temperature" in raw and raw["dew_point"] > raw["air_temperature"] + 1e-9:
         ctx.at_path(f"{path}.dew_point", "dew point above the air temperature; check the values and their units")
+    given = [k for k in PRESSURE_KEYS if k in raw]
+    if len(given) == 1 and {"elevation", "air_temperature"} <= raw.keys():
+        kind = PRESSURE_KEYS[given[0]]
+        station = float(station_pressures(raw[given[0]], kind, raw["elevation"], raw["air_temperature"]))
+        if not station >= STATION_PRESSURE_MIN * 100.0:
+            ctx.at_path(f"{path}.{given[0]}", station_pressure_problem(raw[given[0]], kind, raw["elevation"], station))
     fuel = raw.get("fuel")
-    if fuel is not None and fuel not in fuels:
+    if fuel is not None and fuel not in fuels and fuel not in ctx.names.get("fuels", ()):
         ctx.at_path(f"{path}.fuel", f"unknown fuel '{fuel}'{did_you_mean(fuel, fuels)}; {known_list(fuels)}")
 
 
@@ -369,6 +424,8 @@ def check_jet(raw, path, families, ctx) -> None:
         return
     family = families.get(family_name)
     if family is None:
+        if family_name in ctx.names.get("jet_families", ()):  # given, but with a problem said there
+            return
         ctx.at_path(f"{path}.family", f"unknown jet family '{family_name}'{did_you_mean(family_name, families)}; {known_list(families)}")
         return
     if size is not None:
@@ -398,6 +455,8 @@ def check_settings(settings: dict, given: dict, path: str, families, needles, ct
         if name is None and clip is not None:
             ctx.at_path(f"{path}.needle", "a clip is given but no needle name (the model has none)")
         elif name is not None and name not in needles:
+            if name in ctx.names.get("needles", ()):  # given, but with a problem said there
+                return
             ctx.at_path(f"{path}.needle.name", f"unknown needle '{name}'{did_you_mean(name, needles)}; {known_list(needles)}")
         elif name is not None and clip is not None and clip > needles[name].grooves:
             ctx.at_path(
@@ -406,9 +465,41 @@ def check_settings(settings: dict, given: dict, path: str, families, needles, ct
             )
     screw = settings.get("mixture_screw")
     if "mixture_screw" in given and isinstance(screw, dict):
-        usable = screw.get("usable_range")
+        usable, turns = screw.get("usable_range"), screw.get("turns")
+        own = given["mixture_screw"] if isinstance(given["mixture_screw"], dict) else {}
         if isinstance(usable, list) and INVALID not in usable and usable[0] >= usable[1]:
             ctx.at_path(f"{path}.mixture_screw.usable_range", f"expected [min, max] with min below max, got {usable}")
+        elif isinstance(usable, list) and INVALID not in usable and turns is not None and not usable[0] <= turns <= usable[1]:
+            where = "turns" if "turns" in own else "usable_range" if "usable_range" in own else None
+            if where is not None:  # else both come from the model, said there
+                ctx.at_path(
+                    f"{path}.mixture_screw.{where}",
+                    f"{turns:g} turns out is outside the screw's usable range {usable[0]:g}..{usable[1]:g} turns; "
+                    "a proven setting lies inside it: check the turns and the range (beyond it the pilot jet is changed)",
+                )
+
+
+def check_needle_fit(settings: dict, given: dict, model_raw: dict, needles_raw: dict, path: str, ctx: Context) -> None:
+    """The needle's straight part must be thinner than the model's needle-jet bore (else no fuel passes).
+
+    Checked where both are given in the file (an assumed default diameter is not the user's
+    value); reported where ``given`` names the needle, so a model's problem is said once.
+    """
+    needle = settings.get("needle") if isinstance(settings, dict) else None
+    own = given.get("needle") if isinstance(given, dict) else None
+    carburetor = model_raw.get("carburetor") if isinstance(model_raw, dict) else None
+    if not (isinstance(needle, dict) and isinstance(own, dict) and "name" in own and isinstance(carburetor, dict)):
+        return
+    name, bore = needle.get("name"), carburetor.get("needle_jet")
+    geometry = needles_raw.get(name)
+    diameter = geometry.get("straight_diameter") if isinstance(geometry, dict) else None
+    if bore is None or diameter is None or diameter < bore:
+        return
+    ctx.at_path(
+        f"{path}.needle.name",
+        f"needle '{name}' is {diameter * 1000:g} mm thick (needles.{name}.straight_diameter), not thinner than this "
+        f"model's needle jet of {bore * 1000:g} mm (carburetor.needle_jet); no fuel could pass: check both values",
+    )
 
 
 def make_settings(raw: dict, needles) -> model.Settings:
@@ -451,7 +542,8 @@ def load_fleet(path) -> model.Fleet:
         With every problem of the file, each ``file:line: field: problem``.
     """
     ctx = Context(display_name(path))
-    root = load_yaml(path)
+    root = load_yaml(path, {"bikes": (MAX_BIKES, "bikes")})
+    refuse_other_kind(root, ctx.file, "fleet")
     ctx.lines[""] = root.start_mark.line + 1
     raw = fleet_spec().check(root, "", ctx)
     if raw is INVALID:
@@ -467,6 +559,7 @@ def load_fleet(path) -> model.Fleet:
         path_m = f"models.{name}"
         settings = m.get("settings", {})
         check_settings(settings, settings, f"{path_m}.settings", families, needles, ctx)
+        check_needle_fit(settings, settings, m, raw.get("needles", {}), f"{path_m}.settings", ctx)
         if m.get("strokes") == 4 and "premix" in m:
             ctx.at_path(f"{path_m}.premix", "a four-stroke takes no premix; remove it")
 
@@ -484,11 +577,14 @@ def load_fleet(path) -> model.Fleet:
                 seen_ids[bike_id] = i
         model_name = b.get("model")
         if model_name is not None and model_name not in models_raw:
-            ctx.at_path(f"{path_b}.model", f"unknown model '{model_name}'{did_you_mean(model_name, models_raw)}; {known_list(models_raw)}")
+            if model_name not in ctx.names.get("models", ()):  # else given, with a problem said there
+                ctx.at_path(f"{path_b}.model", f"unknown model '{model_name}'{did_you_mean(model_name, models_raw)}; {known_list(models_raw)}")
             continue
         base = models_raw.get(model_name, {}).get("settings", {})
         override = b.get("settings", {})
-        check_settings(merge_settings(base, override), override, f"{path_b}.settings", families, needles, ctx)
+        merged = merge_settings(base, override)
+        check_settings(merged, override, f"{path_b}.settings", families, needles, ctx)
+        check_needle_fit(merged, override, models_raw.get(model_name, {}), raw.get("needles", {}), f"{path_b}.settings", ctx)
         check_conditions(b.get("reference"), f"{path_b}.reference", fuels, ctx)
         if "premix" in b and models_raw.get(model_name, {}).get("strokes") == 4:
             ctx.at_path(f"{path_b}.premix", "this bike's model is a four-stroke, which takes no premix; remove it")

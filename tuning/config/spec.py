@@ -51,6 +51,9 @@ class Context:
         self.file = file
         self.problems: list[Problem] = []
         self.lines: dict[str, int] = {}
+        #: every name given in a :class:`Mapping`, by the mapping's path, valid or not (so a
+        #: reference to a name whose entry has a problem is not also called unknown)
+        self.names: dict[str, set[str]] = {}
 
     def add(self, line: int | None, path: str, message: str) -> None:
         self.problems.append(Problem(self.file, line, one_line(path), one_line(message)))
@@ -69,6 +72,13 @@ class Context:
 
     def at_path(self, path: str, message: str) -> None:
         self.add(self.line(path), path, message)
+
+
+def top_level_keys(node: yaml.Node) -> list[str]:
+    """The plain keys of a top-level mapping node (empty for anything else)."""
+    if not isinstance(node, yaml.MappingNode):
+        return []
+    return [k.value for k, _ in node.value if isinstance(k, yaml.ScalarNode)]
 
 
 def one_line(text: str) -> str:
@@ -132,7 +142,8 @@ def _type_name(node: yaml.Node) -> str:
     value = scalar_value(node)
     if value is None:
         return "nothing (null)"
-    return f"{value!r}"
+    text = repr(value)
+    return text if len(text) <= 80 else f"{text[:60]}… ({len(node.value):,} characters)"
 
 
 class Spec:
@@ -404,11 +415,13 @@ class Mapping(Spec):
             ctx.at(node, path, f"expected a mapping of names, got {_type_name(node)}")
             return INVALID
         result: dict[str, Any] = {}
+        names = ctx.names.setdefault(path, set())
         for key_node, value_node in node.value:
             if not isinstance(key_node, yaml.ScalarNode) or not key_node.value.strip():
                 ctx.at(key_node, path, "expected a plain name as key")
                 continue
             key = key_node.value
+            names.add(key)
             sub = join(path, key)
             ctx.lines[sub] = line_of(key_node)
             if key in result:
@@ -491,13 +504,17 @@ class Custom(Spec):
     read: Callable[[Any], Any]
     schema_dict: dict = field(default_factory=dict)
     description: str = ""
+    #: an unquoted scalar with a colon is passed as its text: YAML 1.1 reads ``32:1`` as the
+    #: base-60 integer 1921, YAML 1.2 (editors, the JSON Schema) as the text "32:1"
+    colon_as_text: bool = False
 
     def check(self, node, path, ctx):
         if not isinstance(node, yaml.ScalarNode):
             ctx.at(node, path, f"expected a single value, got {_type_name(node)}")
             return INVALID
+        plain_with_colon = self.colon_as_text and node.style is None and ":" in node.value
         try:
-            return self.read(scalar_value(node))
+            return self.read(node.value if plain_with_colon else scalar_value(node))
         except ValueError as exc:
             ctx.at(node, path, str(exc))
             return INVALID

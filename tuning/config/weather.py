@@ -15,7 +15,21 @@ when the brackets are left out):
 * exactly one humidity: ``relative_humidity [%]`` or ``dew_point [degC]``.
 
 Cells are bare numbers in the column's unit. Times must increase from row to row. Blank
-lines and lines starting with ``#`` are skipped.
+lines and lines starting with ``#`` are skipped. Years 1900 to 2199 are accepted.
+
+A dew point may lie above the air temperature of its row by at most 0.5 K (rounding), and the
+station pressure (a QNH or sea-level pressure converted with the site elevation) must be at
+least 300 hPa, about that of the highest summits: below it the air of a hot row would be
+mostly water vapour. The number of rows is limited (see Limits).
+
+Clock changes. In the hour that repeats when the clocks go back (e.g. 02:00–02:59 on
+2026-10-25 in Europe/Vienna) a time without offset is read as the first (summer-time) one,
+unless the row before is already at or after it: then it is the second. So a forecast that
+lists 01:00, 02:00, 02:00, 03:00 in local time is read in order, as are rows with offsets
+(``2026-10-25 02:00+02:00``, then ``2026-10-25 02:00+01:00``). A time that the clocks skip
+when they go forward (02:00–02:59 on 2026-03-29 in Europe/Vienna) does not exist: leave the
+row out or give it with its offset. Session times in the repeated hour are read as the first
+one; give an offset to mean the second.
 
 METAR
 -----
@@ -25,13 +39,15 @@ keeps the reading nearest to that session (so a report of the 31st before a sess
 1st is read in the previous month, and across a year end likewise). The sessions must lie
 within the reports' times, as for a table. Temperature and dew point are
 read from the ``TT/TdTd`` group and the pressure from the altimeter setting (``Q1018`` hPa or
-``A3012`` inHg), kept as QNH.
+``A3012`` inHg), kept as QNH. The same checks as for a table apply (dew point, station
+pressure); the number of reports is limited (see Limits).
 """
 
 from __future__ import annotations
 
 import csv
 import io
+import math
 import re
 import warnings
 import zoneinfo
@@ -39,17 +55,31 @@ from datetime import datetime, timedelta, timezone
 
 import numpy as np
 
+from tuning.air import DEW_POINT_ROUNDING_TOLERANCE
 from tuning.config import model
-from tuning.config.fleet import DEW_POINT_RANGE, HUMIDITY_RANGE, PRESSURE_RANGE, TEMPERATURE_RANGE
+from tuning.config.fleet import (
+    DEW_POINT_RANGE,
+    HUMIDITY_RANGE,
+    PRESSURE_RANGE,
+    STATION_PRESSURE_MIN,
+    TEMPERATURE_RANGE,
+    station_pressures,
+    station_pressure_problem,
+)
+from tuning.config.limits import MAX_METAR_REPORTS, MAX_WEATHER_ROWS
 from tuning.config.source import display_name, read_text
 from tuning.config.spec import Context, did_you_mean
-from tuning.config.units import UnitProblem, parse_quantity
+from tuning.config.units import UnitProblem, convert_numbers, parse_quantity
 
-__all__ = ["read_weather_csv", "read_metar", "parse_local_time", "MAX_GAP", "COLUMNS"]
+__all__ = ["read_weather_csv", "read_metar", "parse_local_time", "MAX_GAP", "COLUMNS", "YEAR_RANGE"]
 
 #: Longest accepted gap between two weather samples inside a session. Beyond it the
 #: interpolated temperature can miss a real swing by several kelvin (a front, a shower).
 MAX_GAP = timedelta(hours=3)
+
+#: Years accepted in session and weather times (outside them the time-zone and calendar
+#: arithmetic overflows, and no forecast exists).
+YEAR_RANGE = (1900, 2199)
 
 #: Known columns: name -> (default unit, pint unit of the range, accepted range).
 COLUMNS = {
@@ -69,13 +99,16 @@ _HEADER = re.compile(r"^\s*([A-Za-z_][A-Za-z0-9_]*)\s*(?:\[\s*(.*?)\s*\])?\s*$")
 def parse_local_time(text: str, zone: zoneinfo.ZoneInfo | None) -> datetime:
     """ISO 8601 text -> aware datetime; a time without offset is taken in ``zone``.
 
-    Raises ValueError with a one-line message (bad text, no zone, a time skipped by a
-    clock change).
+    Raises ValueError with a one-line message (bad text, a year outside :data:`YEAR_RANGE`,
+    no zone, a time skipped by a clock change). A time repeated by a clock change is the
+    first of the two (``fold=0``).
     """
     try:
         value = datetime.fromisoformat(str(text).strip())
     except ValueError:
         raise ValueError(f"expected an ISO 8601 date and time such as '2026-06-13 09:00', got {text!r}") from None
+    if not YEAR_RANGE[0] <= value.year <= YEAR_RANGE[1]:
+        raise ValueError(f"year {value.year} in {text!r} is outside the accepted {YEAR_RANGE[0]}..{YEAR_RANGE[1]}; check the date")
     if value.tzinfo is not None:
         return value
     if zone is None:
@@ -86,16 +119,48 @@ def parse_local_time(text: str, zone: zoneinfo.ZoneInfo | None) -> datetime:
     local = value.replace(tzinfo=zone)
     back = local.astimezone(timezone.utc).astimezone(zone)
     if back.replace(tzinfo=None) != value:
-        raise ValueError(f"time {text!r} does not exist in {zone.key} (the clocks skip it); give an offset")
+        before = (local - timedelta(hours=12)).utcoffset()
+        after = (local + timedelta(hours=12)).utcoffset()
+        raise ValueError(
+            f"time {text!r} does not exist in {zone.key} (the clocks skip it); "
+            f"give it with an offset ({_offset(before)} before the change, {_offset(after)} after) or leave it out"
+        )
     return local
+
+
+def _offset(delta) -> str:
+    minutes = int(delta.total_seconds() // 60)
+    sign = "+" if minutes >= 0 else "-"
+    return f"{sign}{abs(minutes) // 60:02d}:{abs(minutes) % 60:02d}"
+
+
+def _second_of_repeated(when: datetime, previous: datetime | None) -> datetime:
+    """``when`` as the second occurrence of a repeated wall-clock time, where that puts it in order.
+
+    For a time without offset inside the hour that a clock change repeats: when the row before
+    is at or after its first occurrence, the second occurrence (``fold=1``) is meant.
+    """
+    if previous is None or when.tzinfo is None or not isinstance(when.tzinfo, zoneinfo.ZoneInfo):
+        return when
+    second = when.replace(fold=1)
+    if second.utcoffset() == when.utcoffset():  # not a repeated time
+        return when
+    if when.astimezone(timezone.utc) <= previous < second.astimezone(timezone.utc):
+        return second
+    return when
 
 
 def _to_kelvin_range(unit: str, limits: tuple[float, float]) -> tuple[float, float]:
     return parse_quantity(limits[0], unit), parse_quantity(limits[1], unit)
 
 
-def read_weather_csv(path, zone: zoneinfo.ZoneInfo | None) -> tuple[model.Weather | None, list]:
-    """Read a weather table. Returns (weather or None, problems of the table)."""
+def read_weather_csv(path, zone: zoneinfo.ZoneInfo | None, elevation: float | None = None) -> tuple[model.Weather | None, list]:
+    """Read a weather table. Returns (weather or None, problems of the table).
+
+    ``elevation`` is the site's [m]; with it, every row's station pressure is checked (QNH and
+    sea-level pressure are converted with it). Without it (the site's elevation has a
+    problem of its own) that check is left out.
+    """
     name = display_name(path)
     ctx = Context(name)
     text = read_text(path)
@@ -106,6 +171,10 @@ def read_weather_csv(path, zone: zoneinfo.ZoneInfo | None) -> tuple[model.Weathe
         return None, ctx.problems
     if not rows:
         ctx.add(1, "", "the table is empty; expected a header row and one row per hour")
+        return None, ctx.problems
+    if len(rows) - 1 > MAX_WEATHER_ROWS:
+        ctx.add(rows[MAX_WEATHER_ROWS + 1][0], "", f"more than {MAX_WEATHER_ROWS:,} rows (the limit, see FORMATS.md); "
+                "give the hours around the event's sessions only")
         return None, ctx.problems
     header_line, header = rows[0]
     columns: dict[str, tuple[int, str]] = {}
@@ -145,8 +214,10 @@ def read_weather_csv(path, zone: zoneinfo.ZoneInfo | None) -> tuple[model.Weathe
         return None, ctx.problems
 
     wanted = ["air_temperature", pressure[0], humidity[0]]
-    times: list[datetime] = []
-    values: dict[str, list[float]] = {k: [] for k in wanted}
+    lines: list[int] = []
+    times: list[datetime] = []  # UTC
+    cells: dict[str, list[str]] = {k: [] for k in wanted}
+    numbers: dict[str, list[float]] = {k: [] for k in wanted}
     for line, row in rows[1:]:
         if len(row) != len(header):
             ctx.add(line, "", f"expected {len(header)} cells as in the header, got {len(row)}")
@@ -156,6 +227,7 @@ def read_weather_csv(path, zone: zoneinfo.ZoneInfo | None) -> tuple[model.Weathe
         except ValueError as exc:
             ctx.add(line, "time", str(exc))
             continue
+        when = _second_of_repeated(when, times[-1] if times else None).astimezone(timezone.utc)
         if times and when <= times[-1]:
             ctx.add(line, "time", f"{row[columns['time'][0]]} is not after the previous row's time; sort the rows, one per time")
             continue
@@ -166,32 +238,55 @@ def read_weather_csv(path, zone: zoneinfo.ZoneInfo | None) -> tuple[model.Weathe
             cell = row[index].strip()
             try:
                 number = float(cell)
-                si = parse_quantity(number, unit)
-            except (ValueError, UnitProblem):
+            except ValueError:
+                number = math.nan
+            if not math.isfinite(number):
                 ctx.add(line, key, f"expected a number in {unit}, got {cell!r}")
                 row_ok = False
                 continue
-            default_unit, limits = COLUMNS[key]
-            low, high = _to_kelvin_range(default_unit, limits)
-            if not low <= si <= high:
-                ctx.add(line, key, f"{cell} {unit} is outside the accepted range {limits[0]:g}..{limits[1]:g} {default_unit}")
-                row_ok = False
-                continue
-            parsed[key] = si
+            parsed[key] = (cell, number)
         if row_ok:
+            lines.append(line)
             times.append(when)
             for key in wanted:
-                values[key].append(parsed[key])
+                cells[key].append(parsed[key][0])
+                numbers[key].append(parsed[key][1])
     if not times and not ctx.problems:
         ctx.add(header_line, "", "the table has a header but no rows")
+    if not times:
+        return None, ctx.problems
+
+    values = {key: convert_numbers(numbers[key], columns[key][1], COLUMNS[key][0]) for key in wanted}
+    good = np.ones(len(times), bool)
+    for key in wanted:  # accepted ranges, per row
+        default_unit, limits = COLUMNS[key]
+        low, high = _to_kelvin_range(default_unit, limits)
+        unit = columns[key][1]
+        for i in np.flatnonzero(~((values[key] >= low) & (values[key] <= high))):
+            ctx.add(lines[i], key, f"{cells[key][i]} {unit} is outside the accepted range {limits[0]:g}..{limits[1]:g} {default_unit}")
+            good[i] = False
+    temperature, humidity_values = values["air_temperature"], values[humidity[0]]
+    if humidity[0] == "dew_point":
+        t_unit, d_unit = columns["air_temperature"][1], columns["dew_point"][1]
+        for i in np.flatnonzero(good & (humidity_values > temperature + DEW_POINT_ROUNDING_TOLERANCE)):
+            ctx.add(lines[i], "dew_point", f"dew point {cells['dew_point'][i]} {d_unit} is above the air temperature "
+                    f"{cells['air_temperature'][i]} {t_unit}; check both values and their units")
+            good[i] = False
+    if elevation is not None and good.any():
+        kind = PRESSURE_COLUMNS[pressure[0]]
+        rows_ok = np.flatnonzero(good)  # rows whose values are in range (converting others could fail)
+        station = station_pressures(values[pressure[0]][rows_ok], kind, elevation, temperature[rows_ok])
+        for i, p in zip(rows_ok, station):
+            if not p >= STATION_PRESSURE_MIN * 100.0:
+                ctx.add(lines[i], pressure[0], station_pressure_problem(values[pressure[0]][i], kind, elevation, float(p)))
     if ctx.problems:
         return None, ctx.problems
     weather = model.Weather(
         time=_utc_array(times),
-        air_temperature=np.array(values["air_temperature"]),
-        pressure=np.array(values[pressure[0]]),
+        air_temperature=values["air_temperature"],
+        pressure=values[pressure[0]],
         pressure_kind=PRESSURE_COLUMNS[pressure[0]],
-        humidity=np.array(values[humidity[0]]),
+        humidity=humidity_values,
         humidity_kind=HUMIDITY_COLUMNS[humidity[0]],
         source=name,
     )
@@ -214,10 +309,12 @@ def _utc_array(times: list[datetime]) -> np.ndarray:
     return np.array([t.astimezone(timezone.utc).replace(tzinfo=None) for t in times], dtype="datetime64[s]")
 
 
-def read_metar(reports: list[str], near: datetime, ctx: Context, path: str) -> model.Weather | None:
+def read_metar(reports: list[str], near: datetime, ctx: Context, path: str, elevation: float | None = None) -> model.Weather | None:
     """Read METAR reports; month and year from ``near`` (the first session start).
 
     Problems go to ``ctx`` at ``path[i]``; returns None when any report has a problem.
+    ``elevation`` is the site's [m]: with it, each report's QNH is checked to give a station
+    pressure of at least :data:`~tuning.config.fleet.STATION_PRESSURE_MIN`.
     """
     from metar import Metar  # imported here: only needed for METAR lists
 
@@ -267,6 +364,18 @@ def read_metar(reports: list[str], near: datetime, ctx: Context, path: str) -> m
         if not TEMPERATURE_RANGE[0] <= temperature <= TEMPERATURE_RANGE[1]:
             ctx.at_path(sub, f"temperature {temperature:g} degC is outside the accepted range {TEMPERATURE_RANGE[0]:g}..{TEMPERATURE_RANGE[1]:g} degC")
             continue
+        if not DEW_POINT_RANGE[0] <= dew_point <= DEW_POINT_RANGE[1]:
+            ctx.at_path(sub, f"dew point {dew_point:g} degC is outside the accepted range {DEW_POINT_RANGE[0]:g}..{DEW_POINT_RANGE[1]:g} degC")
+            continue
+        if dew_point > temperature + DEW_POINT_ROUNDING_TOLERANCE:
+            ctx.at_path(sub, f"dew point {dew_point:g} degC is above the air temperature {temperature:g} degC "
+                        "(the TT/TdTd group); check the report")
+            continue
+        if elevation is not None:
+            station = float(station_pressures(pressure * 100.0, "qnh", elevation, None))
+            if not station >= STATION_PRESSURE_MIN * 100.0:
+                ctx.at_path(sub, station_pressure_problem(pressure * 100.0, "qnh", elevation, station))
+                continue
         samples.append((when, i, temperature, dew_point, pressure))
     if len(samples) != len(reports):
         return None
