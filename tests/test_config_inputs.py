@@ -19,7 +19,7 @@ import pytest
 
 from tuning.cli import main
 
-DEMO = Path(__file__).resolve().parent.parent / "fleet_configs"
+DEMO = Path(__file__).resolve().parent.parent / "tuning" / "demo"
 FLEET, EVENT, WEATHER, METAR = "demo-fleet.yaml", "demo-event.yaml", "demo-weather.csv", "demo-event-metar.yaml"
 
 pytestmark = pytest.mark.filterwarnings("ignore::UserWarning")
