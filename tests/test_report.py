@@ -265,3 +265,14 @@ def test_fixture_plan_keeps_the_plan_contract():
 
     schema = json.loads((Path(__file__).parents[1] / "tuning/schemas/recommendations.schema.json").read_text())
     jsonschema.Draft202012Validator(schema).validate(report_fixtures.make_plan(3, 4))
+
+
+def test_control_characters_in_names_never_reach_the_page():
+    # an ESC or BEL in a bike id garbles the PDF's text; the page shows them escaped
+    from tuning.report import render as render_module
+
+    plan = report_fixtures.make_plan(n_bikes=1, n_sessions=1, bike_ids=["T\x1b[31m1\x07"])
+    entries = plan["entries"]
+    page = render_module.sheet_html(plan, entries)
+    assert "\x1b" not in page and "\x07" not in page
+    assert "T\\x1b[31m1\\x07" in page

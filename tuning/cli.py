@@ -305,6 +305,8 @@ def add_build_parser(sub) -> None:
 def cmd_build(args) -> int:
     import warnings
 
+    from tuning.config.spec import one_line
+
     from tuning.report import build
 
     with warnings.catch_warnings(record=True) as caught:
@@ -313,9 +315,9 @@ def cmd_build(args) -> int:
                        workers=args.workers)
     for note in dict.fromkeys(str(w.message) for w in caught
                               if not issubclass(w.category, (DeprecationWarning, ResourceWarning))):
-        print(f"carbfleet build: note: {note}", file=sys.stderr)  # one line each, no source echo
+        print(one_line(f"carbfleet build: note: {note}"), file=sys.stderr)  # one line each, no source echo
     if not args.quiet:
-        print(result.summary_line())
+        print(one_line(result.summary_line()))
     return EXIT_OK
 
 

@@ -79,10 +79,22 @@ def install_font_subset_cache() -> None:
     wp_fonts.Font._fonttools_subset = cached
 
 
+_CONTROL = {c: f"\\x{c:02x}" for c in (*range(0x00, 0x09), 0x0B, 0x0C, *range(0x0E, 0x20), 0x7F)}
+
+
+def _no_control_characters(value):
+    """Template output with control characters (other than tab and line breaks) escaped: an
+    ESC in a bike id must not reach the page, where it garbles the PDF's text."""
+    if isinstance(value, str) and not value.isprintable():
+        return value.translate(_CONTROL)
+    return value
+
+
 @lru_cache(maxsize=1)
 def environment() -> jinja2.Environment:
     """The Jinja environment: autoescaping for every ``.html.j2`` template (bike ids are escaped)."""
     return jinja2.Environment(
+        finalize=_no_control_characters,
         loader=jinja2.FileSystemLoader(str(TEMPLATES)),
         autoescape=jinja2.select_autoescape(enabled_extensions=("html", "html.j2", "j2"), default_for_string=True),
         undefined=jinja2.StrictUndefined, trim_blocks=False, keep_trailing_newline=True,
