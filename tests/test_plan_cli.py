@@ -13,7 +13,7 @@ from tuning.cli import main
 ROOT = Path(__file__).resolve().parents[1]
 FLEET = ROOT / "tuning" / "demo" / "demo-fleet.yaml"
 EVENT = ROOT / "tuning" / "demo" / "demo-event.yaml"
-SCHEMA = json.loads((Path(plan.__file__).parent / "schemas" / "recommendations.schema.json").read_text())
+SCHEMA = json.loads((Path(plan.__file__).parents[1] / "schemas" / "recommendations.schema.json").read_text())
 
 pytestmark = [
     pytest.mark.filterwarnings("ignore::UserWarning"),

@@ -1,0 +1,483 @@
+"""The plan document (``carbfleet-plan/2``): the stages' records put into words and numbers.
+
+JSON-ready: only str, int, float, bool, None, list and dict; floats rounded to their printed
+precision; no clock. Described field by field in ``tuning/schemas/recommendations.schema.json``.
+"""
+
+from __future__ import annotations
+
+import warnings as pywarnings
+from datetime import datetime, timezone
+from zoneinfo import ZoneInfo
+
+import numpy as np
+
+from tuning import __version__, air, carb
+from tuning.gcpause import gc_paused
+from tuning.plan.clip import MODE_ASSUMED, MODE_NONE, THROTTLE
+from tuning.plan.hours import air_at, epoch
+from tuning.plan.notices import BIKE_CODES, severity_rank, warning
+from tuning.plan.policy import WORK_MINUTES
+from tuning.plan.pool import KINDS
+from tuning.plan.window import LEAN_GUARD
+
+__all__ = ["FORMAT", "TARGET_BAND", "assemble", "rounded", "jet_number"]
+
+FORMAT = "carbfleet-plan/2"
+#: Acceptable mixture, × reference AFR: 5 % rich .. the lean guard (our choice).
+TARGET_BAND = (0.95, 1.0 + LEAN_GUARD)
+FACTOR_RANGE = (0.80, 1.15)  #: area factors the model is trusted in (our choice)
+COLD_START_K = 273.15 + 5.0  #: below this at the session start: cold-start warning
+CHOKE_K = 273.15 + 10.0  #: below this during the session: choke check
+HOT_FUEL_K = 273.15 + 30.0  #: above this: hot-fuel warning (from memory)
+ICING_WARN_LEVEL = 2  #: icing-risk band from which a warning is given
+
+_SOURCE_WORDS = {
+    "own": "its own jet, kept from before", "bike": "off bike {origin}", "shelf": "from the shelf",
+    "spare": "spare, came off bike {origin}", "order": "to order", "shelf-or-order": "from the shelf or to order",
+    "fitted": "already fitted",
+}
+_PART_WORDS = {"main_jet": "main jet", "pilot_jet": "pilot jet", "clip": "needle clip", "mixture_screw": "mixture screw"}
+
+
+def rounded(values, digits):
+    """Round an array and return plain Python objects; NaN and ±inf become None."""
+    arr = np.round(np.asarray(values, float), digits)
+    if np.isfinite(arr).all():
+        return arr.tolist()
+    if arr.ndim == 0:
+        return None
+    return np.where(np.isfinite(arr), arr, None).tolist()
+
+
+def jet_number(value):
+    """A jet size for output: int when integral, else rounded to 2 decimals; None stays."""
+    if value is None or value != value:
+        return None
+    value = float(value)
+    return int(value) if value.is_integer() else round(value, 2)
+
+
+def _iso(seconds, zone):
+    return datetime.fromtimestamp(int(seconds), timezone.utc).astimezone(zone).isoformat()
+
+
+def _air_fields(state, index=None):
+    pick = (lambda a: np.asarray(a, float)[index]) if index is not None else (lambda a: np.asarray(a, float))
+    return {
+        "air_temperature_C": rounded(pick(state.air_temperature) - 273.15, 2),
+        "station_pressure_hPa": rounded(pick(state.station_pressure) / 100.0, 2),
+        "relative_humidity_pct": rounded(pick(state.relative_humidity) * 100.0, 1),
+        "dew_point_C": rounded(pick(state.dew_point) - 273.15, 2),
+        "moist_air_density_kg_m3": rounded(pick(state.moist_air_density), 4),
+        "dry_air_density_kg_m3": rounded(pick(state.dry_air_density), 4),
+        "density_altitude_m": rounded(pick(state.density_altitude), 0),
+    }
+
+
+def _reference_dict(conditions, state):
+    fields = _air_fields(state, 0)
+    return {"elevation_m": rounded(conditions.elevation, 1), **{k: fields[k] for k in (
+        "air_temperature_C", "station_pressure_hPa", "relative_humidity_pct", "dew_point_C",
+        "moist_air_density_kg_m3", "dry_air_density_kg_m3", "density_altitude_m")}, "fuel": conditions.fuel}
+
+
+def _jet_words(steps):
+    if steps == 0:
+        return "no change", "no change"
+    n = abs(steps)
+    word = "size" if n == 1 else "sizes"
+    return ("richer", f"{n} {word} larger: richer") if steps > 0 else ("leaner", f"{n} {word} smaller: leaner")
+
+
+def _turns_words(turns):
+    quarters = int(round(abs(turns) * 4))
+    whole, rest = divmod(quarters, 4)
+    text = (str(whole) if whole else "") + {0: "", 1: "¼", 2: "½", 3: "¾"}[rest]
+    return f"{text or '0'} {'turn' if quarters <= 4 else 'turns'}"
+
+
+def _steps(fleet, plan):
+    """Family steps from the fitted to the recommended size, per row."""
+    steps = np.zeros(len(plan.family), np.int64)
+    for name in set(plan.family.tolist()):
+        r = np.flatnonzero(plan.family == name)
+        sizes = np.asarray(fleet.jet_families[name].sizes, float)
+        cur, rec = plan.current[r], plan.recommended[r]
+        up = np.searchsorted(sizes, rec, "right") - np.searchsorted(sizes, cur, "right")
+        down = np.searchsorted(sizes, rec, "left") - np.searchsorted(sizes, cur, "left")
+        steps[r] = np.where(rec > cur, up, np.where(rec < cur, down, 0))
+    return steps
+
+
+def _throttle_span(mask):
+    """'1/4–3/8 throttle' for the openings of THROTTLE where ``mask`` holds (first run)."""
+    idx = np.flatnonzero(mask)
+    lo, hi = THROTTLE[idx[0]], THROTTLE[idx[-1]]
+    return f"{lo:.0%}–{hi:.0%} throttle" if hi > lo else f"{lo:.0%} throttle"
+
+
+def assemble(fleet, event, rows, hours, refs, main, idle, clip, curves, rejet, allocation, pick_list,
+             policy_name, threshold) -> dict:
+    """The plan document from the stages' records (see the schema for every field)."""
+    zone = ZoneInfo(event.site.time_zone)
+    sessions = list(event.sessions)
+    n, s_count = len(rows.bike), rows.n_sessions
+    reference_afr = float(fleet.reference_afr)
+    has_stock = bool(fleet.stock)
+    settings = [fleet.bikes[b].settings for b in rows.bike]
+    ref_dicts = [_reference_dict(c, s) for c, s in zip(refs.conditions, refs.states)]
+    session_dicts = [{"name": s.name, "start": _iso(epoch(s.start), zone), "end": _iso(epoch(s.end), zone)} for s in sessions]
+    hour_iso = [_iso(t, zone) for t in hours.times]
+    hour_air = _air_fields(hours.air) if s_count else {}
+    hour_base = [{"time": hour_iso[i], **{k: hour_air[k][i] for k in (
+        "air_temperature_C", "station_pressure_hPa", "relative_humidity_pct", "moist_air_density_kg_m3",
+        "dry_air_density_kg_m3", "density_altitude_m")}} for i in range(len(hours.times))]
+    stats = _session_stats(hours, s_count)
+    pilot = idle.pilot
+    main_steps, pilot_steps = _steps(fleet, main), _steps(fleet, pilot)
+    req_r = np.round(rows.required, 4)
+    f_min = rounded(np.nanmin(rows.required, axis=1), 4) if n else []
+    f_mean = rounded(np.nanmean(rows.required, axis=1), 4) if n else []
+    f_max = rounded(np.nanmax(rows.required, axis=1), 4) if n else []
+    power = rounded(curves["power"], 1) if n else []
+    cur_afr = np.round(curves["current_afr"], 2).tolist()
+    rec_afr = np.round(curves["recommended_afr"], 2).tolist()
+    band = [round(reference_afr * TARGET_BAND[0], 2), round(reference_afr * TARGET_BAND[1], 2)]
+    sources = _sources(allocation, rows, fleet)
+    bike_ids = [b.id for b in fleet.bikes]
+
+    with gc_paused():  # many small dicts, no cycles
+        entries, bike_notices, in_danger = [], {bid: {} for bid in bike_ids}, set()
+        for r in range(n):
+            b, s = int(rows.bike[r]), int(rows.session[r])
+            bike, st, stat = fleet.bikes[b], settings[r], stats[s]
+            model = fleet.models[bike.model]
+            n_h = int(rows.valid[r].sum())
+            base = hours.offsets[s]
+            hours_out = [dict(h, area_factor=f) for h, f in zip(hour_base[base: base + n_h], req_r[r, :n_h].tolist())]
+            found = []  # warnings of this entry, bike-level ones set aside
+            main_out = _jet_dict(fleet, main, r, main_steps, "main jet", sources, has_stock, sessions[s].name, found,
+                                 rows, curves)
+            pilot_out = _jet_dict(fleet, pilot, r, pilot_steps, "pilot jet", sources, has_stock, sessions[s].name, found,
+                                  rows, curves)
+            if curves["factor_min"][r] < FACTOR_RANGE[0] or curves["factor_max"][r] > FACTOR_RANGE[1]:
+                found.append(warning("factor-out-of-range", f"Required area factor {f_min[r]}..{f_max[r]} is outside the "
+                             f"model's range {FACTOR_RANGE[0]}..{FACTOR_RANGE[1]}: treat the settings as a starting point "
+                             "and make a test run with a plug reading first."))
+            clip_out = _clip_dict(clip, r, st, found)
+            screw_out = _screw_dict(idle, r, st, found)
+            _lean_check(curves, r, found)
+            _weather_notes(stat, model, found)
+            checks = _checks(st, model, stat)
+            for w in found:
+                if w["code"] in BIKE_CODES:
+                    bike_notices[bike.id].setdefault(w["code"], w)
+            session_warnings = sorted((w for w in found if w["code"] not in BIKE_CODES),
+                                      key=lambda w: severity_rank(w["severity"]))
+            if any(w["severity"] == "danger" for w in session_warnings):
+                in_danger.add(bike.id)
+            entries.append({
+                "bike": bike.id, "model": bike.model, "session": sessions[s].name,
+                "start": session_dicts[s]["start"], "end": session_dicts[s]["end"], "notes": bike.notes,
+                "strokes": int(model.strokes),
+                "premix_ratio": None if bike.premix_ratio is None else round(float(bike.premix_ratio), 2),
+                "density_exponent": round(float(bike.density_exponent), 4),
+                "reference": ref_dicts[int(refs.of_bike[b])],
+                "hours": hours_out,
+                "summary": {
+                    "air_temperature_C_min": stat["air_temperature_C_min"], "air_temperature_C_max": stat["air_temperature_C_max"],
+                    "station_pressure_hPa_mean": stat["station_pressure_hPa_mean"],
+                    "relative_humidity_pct_mean": stat["relative_humidity_pct_mean"],
+                    "density_altitude_m_min": stat["density_altitude_m_min"], "density_altitude_m_max": stat["density_altitude_m_max"],
+                    "area_factor_min": f_min[r], "area_factor_mean": f_mean[r], "area_factor_max": f_max[r],
+                    "power_vs_reference_pct": power[r],
+                },
+                "settings": {"main_jet": main_out, "pilot_jet": pilot_out, "clip": clip_out, "mixture_screw": screw_out,
+                             "float_level_mm": None if st.float_level is None else round(st.float_level * 1000.0, 2)},
+                "mixture_curve": {
+                    "throttle": THROTTLE.tolist(), "current_afr": cur_afr[r], "recommended_afr": rec_afr[r],
+                    "reference_afr": round(reference_afr, 2), "target_band_afr": band,
+                    "time": hour_iso[base + int(curves["worst_hour"][r])],
+                    "basis": "leanest hour of the session (largest required area factor)",
+                },
+                "rejet_temperatures_C": {k: rejet[k][r] for k in ("below", "below_jet", "above", "above_jet")},
+                "power_vs_reference_pct": power[r],
+                "checks": checks,
+                "warnings": session_warnings,
+            })
+
+    bikes_out = []
+    for bike in fleet.bikes:
+        notices = list(bike_notices[bike.id].values())
+        bikes_out.append({"bike": bike.id, "model": bike.model, "danger": bike.id in in_danger, "notices": notices})
+    work_orders = _work_orders(fleet, rows, main, idle, clip, allocation, sessions, bike_ids)
+    warnings_count = sum(len(e["warnings"]) for e in entries) + sum(len(b["notices"]) for b in bikes_out)
+    return {
+        "format": FORMAT,
+        "carbfleet_version": __version__,
+        "fleet": fleet.name,
+        "event": event.name,
+        "site": {"name": event.site.name, "elevation_m": rounded(event.site.elevation, 1), "time_zone": event.site.time_zone},
+        "reference": ref_dicts[refs.fleet],
+        "policy": {"name": policy_name, "change_threshold": threshold, "lean_guard": LEAN_GUARD,
+                   "work_minutes": dict(WORK_MINUTES)},
+        "sessions": session_dicts,
+        "weather": _weather_rows(event, hours, refs, zone),
+        "pick_list": [dict(p, size=jet_number(p["size"])) for p in pick_list],
+        "work_orders": work_orders,
+        "bikes": bikes_out,
+        "warnings_count": warnings_count,
+        "entries": entries,
+    }
+
+
+def _session_stats(hours, s_count):
+    out = []
+    if not s_count:
+        return out
+    t_all = np.asarray(hours.air.air_temperature, float)
+    icing = np.asarray(hours.air.icing_risk)
+    for s in range(s_count):
+        sl = slice(hours.offsets[s], hours.offsets[s + 1])
+        out.append({
+            "t_min": float(t_all[sl].min()), "t_max": float(t_all[sl].max()), "t_start": float(t_all[hours.offsets[s]]),
+            "icing": int(np.max(icing[sl])),
+            "air_temperature_C_min": rounded(t_all[sl].min() - 273.15, 2),
+            "air_temperature_C_max": rounded(t_all[sl].max() - 273.15, 2),
+            "station_pressure_hPa_mean": rounded(np.mean(hours.air.station_pressure[sl]) / 100.0, 2),
+            "relative_humidity_pct_mean": rounded(np.mean(hours.air.relative_humidity[sl]) * 100.0, 1),
+            "density_altitude_m_min": rounded(np.min(hours.air.density_altitude[sl]), 0),
+            "density_altitude_m_max": rounded(np.max(hours.air.density_altitude[sl]), 0),
+        })
+    return out
+
+
+def _sources(allocation, rows, fleet):
+    """(kind, row) -> (source, origin): where each session's jet comes from."""
+    moves_by_t, _ordered = allocation
+    s_count = rows.n_sessions
+    last = {}
+    out = {}
+    for t in range(s_count):
+        for m in moves_by_t[t]:
+            last[(m.kind, m.bike)] = (m.source, m.origin)
+        for b in range(rows.n_bikes):
+            for kind in KINDS:
+                out[(kind, b * s_count + t)] = last.get((kind, b), ("fitted", None))
+    return out
+
+
+def _source_dict(source, origin):
+    return {"kind": source, "origin": origin, "text": _SOURCE_WORDS[source].format(origin=origin)}
+
+
+def _jet_dict(fleet, plan, r, steps, label, sources, has_stock, session_name, found, rows, curves):
+    kind = "main_jet" if label == "main jet" else "pilot_jet"
+    family = plan.family[r]
+    sizes = fleet.jet_families[family].sizes
+    rec, cur = jet_number(plan.recommended[r]), jet_number(plan.current[r])
+    source, origin = sources[(kind, r)]
+    at_hand = source not in ("order", "shelf-or-order")
+    fitted_lean = float(rows.largest[r] - 1.0)  # the proven jet's leanest deviation in this session
+    if source == "order":
+        if fitted_lean > LEAN_GUARD:
+            found.append(warning("no-safe-jet", f"Fit {label} {rec} ({family}) before riding hard: none is at hand, so "
+                         f"order it now. The {label} fitted today ({cur}) would run about {fitted_lean:.0%} lean in "
+                         f"{session_name} — a lean engine can seize."))
+        else:
+            found.append(warning("stock-shortage", f"{label.capitalize()} {rec} ({family}) is neither on the shelf nor "
+                         f"coming off another bike: order it; until it comes, the fitted {cur} stays safe (not leaner "
+                         "than the guard)."))
+    if plan.unsafe[r]:
+        found.append(warning("no-safe-jet", f"No {label} of the {family} sizes ({jet_number(sizes[0])}..{jet_number(sizes[-1])}) "
+                     f"is rich enough for {session_name}: {rec}, the richest planned, is still leaner than the guard. Get a "
+                     f"{label} of about {jet_number(round(float(plan.ideal_max[r]), 1))} before riding hard."))
+    elif plan.out_of_family[r]:
+        found.append(warning("ideal-outside-family", f"The ideal {label} ({rounded(plan.ideal_min[r], 1)}.."
+                     f"{rounded(plan.ideal_max[r], 1)}) lies outside the {family} sizes ({jet_number(sizes[0])}.."
+                     f"{jet_number(sizes[-1])}); {rec} is the nearest safe one — read the plug before riding hard."))
+    if plan.too_wide[r] and kind == "main_jet":
+        found.append(warning("window-too-wide", f"The ideal main jet changes by more than one size across {session_name}; "
+                     f"{rec} is safe (rich enough) for its leanest hour and richer in the others."))
+    direction, change = _jet_words(int(steps[r]))
+    return {
+        "family": family, "coding": plan.coding[r], "current": cur, "ideal": rounded(plan.ideal_mean[r], 1),
+        "ideal_range": [rounded(plan.ideal_min[r], 1), rounded(plan.ideal_max[r], 1)],
+        "recommended": rec, "in_stock": (at_hand if has_stock else None),
+        "stock_choice": (rec if at_hand else cur if fitted_lean <= LEAN_GUARD else None) if has_stock else None,
+        "steps": int(steps[r]), "direction": direction, "change": change,
+        "source": _source_dict(source, origin),
+    }
+
+
+def _clip_dict(clip, r, st, found):
+    if clip.mode[r] == MODE_NONE:
+        found.append(warning("no-needle", "No needle or clip position on record: the clip is not planned; record the "
+                             "needle and clip in the fleet file."))
+        return {"needle": st.needle, "current": st.clip, "recommended": st.clip, "steps": 0, "direction": "no change",
+                "change": "no needle or clip on record: not planned", "assumed_geometry": True, "grooves": None}
+    c_now, c_new = int(clip.current[r]), int(clip.recommended[r])
+    d = c_new - c_now
+    if d == 0:
+        direction, change = "no change", "no change"
+    else:
+        word = "groove" if abs(d) == 1 else "grooves"
+        direction = "richer" if d > 0 else "leaner"
+        change = (f"clip {abs(d)} {word} lower (groove {c_now} → {c_new}, needle up): richer" if d > 0
+                  else f"clip {abs(d)} {word} higher (groove {c_now} → {c_new}, needle down): leaner")
+    if clip.mode[r] == MODE_ASSUMED:
+        found.append(warning("assumed-needle-geometry", "Needle geometry or needle-jet bore not on record: the clip is "
+                             f"judged with an assumed {int(carb.ASSUMED_GROOVE_AREA_STEP * 100)} % annulus area per groove "
+                             "(from memory) and only ever moved richer; confirm mid-throttle by feel and plug reading."))
+    return {"needle": st.needle, "current": c_now, "recommended": c_new, "steps": d, "direction": direction,
+            "change": change, "assumed_geometry": bool(clip.mode[r] == MODE_ASSUMED), "grooves": int(clip.grooves[r])}
+
+
+def _screw_dict(idle, r, st, found):
+    ms = st.mixture_screw
+    ch = float(idle.screw_new[r] - idle.screw_now[r])
+    if abs(ch) < 1e-9:
+        s_dir, s_change = "no change", "no change"
+    else:
+        richer = (ch > 0) == (ms.kind == "fuel")
+        s_dir = "richer" if richer else "leaner"
+        s_change = f"{ms.kind} screw {_turns_words(ch)} {'out' if ch > 0 else 'in'}: {s_dir}"
+    if idle.pilot.recommended[r] != idle.pilot.current[r]:
+        found.append(warning("screw-out-of-range", f"The {ms.kind} screw alone would leave the middle of its usable range "
+                             f"({ms.usable_range[0]:g}..{ms.usable_range[1]:g} turns) or not be safe: the pilot jet is "
+                             "changed instead."))
+    if ms.range_assumed:
+        found.append(warning("assumed-screw-range", f"The screw's usable range is the default {ms.usable_range[0]:g}.."
+                             f"{ms.usable_range[1]:g} turns out (common practice); record the service manual's range."))
+    return {"kind": ms.kind, "current_turns": round(float(idle.screw_now[r]), 2),
+            "recommended_turns": round(float(idle.screw_new[r]), 2), "change_turns": round(ch, 2), "direction": s_dir,
+            "change": s_change, "usable_range": [round(float(ms.usable_range[0]), 2), round(float(ms.usable_range[1]), 2)],
+            "range_assumed": bool(ms.range_assumed)}
+
+
+def _lean_check(curves, r, found):
+    """``predicted-lean`` where the predicted mixture at some opening and hour leaves the band's lean edge."""
+    lean = curves["leanest_by_throttle"][r]  # (T,) largest lean deviation over the hours
+    bad = lean > LEAN_GUARD + 1e-9
+    if not bad.any():
+        return
+    weights = carb.circuit_weights(THROTTLE[bad])  # which circuit meters most there
+    circuit = ("pilot jet or mixture screw (richer)", "needle clip (lower groove: richer)", "main jet (larger)")[
+        int(np.argmax(weights.sum(axis=0)))]
+    found.append(warning("predicted-lean", f"Predicted mixture up to {float(lean.max()):.0%} leaner than the proven one at "
+                         f"{_throttle_span(bad)} in the session's densest hour: richen the {circuit} before riding hard."))
+
+
+def _weather_notes(stat, model, found):
+    if stat["icing"] >= ICING_WARN_LEVEL:
+        found.append(warning("icing-risk", f"Carburetor icing risk (band {stat['icing']} of 3) in cool, humid air: watch for "
+                             "rough running or loss of power at part throttle."))
+    if stat["t_start"] < COLD_START_K:
+        pump = " Accelerator-pump model: check the pump squirt before the first start." if model.carburetor.accelerator_pump else ""
+        found.append(warning("cold-start", f"Cold start ({stat['t_start'] - 273.15:.1f} °C at the session start): use the "
+                             f"choke and warm the engine before riding.{pump}"))
+    if stat["t_max"] > HOT_FUEL_K:
+        found.append(warning("hot-fuel", f"Hot session (air up to {stat['t_max'] - 273.15:.1f} °C): fuel above about 30 °C "
+                             "can percolate or vapour-lock (threshold from memory); keep fuel and bikes shaded."))
+
+
+def _checks(st, model, stat):
+    checks = [f"Float level: check {st.float_level * 1000.0:.1f} mm (value from the settings)." if st.float_level is not None
+              else "Float level: not on record; check it against the service manual.",
+              "Plug reading after the first run, before riding hard."]
+    if model.carburetor.accelerator_pump:
+        checks.append("Accelerator pump: check the squirt (timing and amount).")
+    if stat["t_min"] < CHOKE_K:
+        checks.append(f"Choke: cold air ({stat['t_min'] - 273.15:.1f} °C minimum): choke for the first start.")
+    if stat["t_max"] > HOT_FUEL_K:
+        checks.append("Hot fuel: keep cans and bikes in the shade; if it stalls hot or will not restart, suspect "
+                      "vapour in the fuel (from memory: above about 30 °C).")
+    return checks
+
+
+def _work_orders(fleet, rows, main, idle, clip, allocation, sessions, bike_ids):
+    """Per transition, the changes of every bike with the time they take."""
+    moves_by_t, _ordered = allocation
+    s_count = rows.n_sessions
+    if not s_count:
+        return []
+    b_count = rows.n_bikes
+    shape = (b_count, s_count)
+    proven = {
+        "main_jet": main.current.reshape(shape)[:, 0], "pilot_jet": idle.pilot.current.reshape(shape)[:, 0],
+        "clip": clip.current.reshape(shape)[:, 0], "mixture_screw": idle.screw_now.reshape(shape)[:, 0],
+    }
+    planned = {"main_jet": main.recommended.reshape(shape), "pilot_jet": idle.pilot.recommended.reshape(shape),
+               "clip": clip.recommended.reshape(shape), "mixture_screw": idle.screw_new.reshape(shape)}
+    screw_kind = [fleet.bikes[b].settings.mixture_screw.kind for b in range(b_count)]
+    orders = []
+    for t in range(s_count + 1):
+        if t == 0:
+            label, before, after = f"before {sessions[0].name}", None, sessions[0].name
+        elif t == s_count:
+            label, before, after = "after the event: back to the proven settings", sessions[-1].name, None
+        else:
+            label, before, after = f"between {sessions[t - 1].name} and {sessions[t].name}", sessions[t - 1].name, sessions[t].name
+        jet_moves = {(m.bike, m.kind): m for m in moves_by_t[t]}
+        bikes = []
+        for b in range(b_count):
+            changes = []
+            for part in ("main_jet", "pilot_jet", "clip", "mixture_screw"):
+                old = proven[part][b] if t == 0 else planned[part][b, t - 1]
+                new = proven[part][b] if t == s_count else planned[part][b, t]
+                if part == "clip" and (old < 0 or new < 0):
+                    continue
+                if abs(float(new) - float(old)) < 1e-9:
+                    continue
+                changes.append(_change(part, old, new, jet_moves.get((b, part)), screw_kind[b]))
+            if changes:
+                bikes.append({"bike": bike_ids[b], "minutes": sum(c["minutes"] for c in changes), "changes": changes})
+        orders.append({"transition": t, "label": label, "after_session": before, "before_session": after,
+                       "minutes": sum(x["minutes"] for x in bikes), "bikes": bikes})
+    return orders
+
+
+def _change(part, old, new, move, screw_kind):
+    if part in ("main_jet", "pilot_jet"):
+        old_v, new_v = jet_number(old), jet_number(new)
+        direction = "richer" if new > old else "leaner"
+        source = _source_dict(move.source, move.origin) if move is not None else None
+        text = f"{_PART_WORDS[part]} {old_v} → {new_v} ({direction})" + (f", {source['text']}" if source else "")
+    elif part == "clip":
+        old_v, new_v = int(old), int(new)
+        direction = "richer" if new > old else "leaner"
+        source = None
+        text = f"needle clip groove {old_v} → {new_v} ({direction})"
+    else:
+        old_v, new_v = round(float(old), 2), round(float(new), 2)
+        turned = new - old
+        direction = "richer" if (turned > 0) == (screw_kind == "fuel") else "leaner"
+        source = None
+        text = f"{screw_kind} screw {_turns_words(turned)} {'out' if turned > 0 else 'in'} to {new_v:g} turns ({direction})"
+    return {"part": part, "from": old_v, "to": new_v, "direction": direction, "minutes": WORK_MINUTES[part],
+            "source": source, "text": text}
+
+
+def _weather_rows(event, hours, refs, zone):
+    """The forecast rows spanning the sessions, with the air-only area factor against the fleet's reference."""
+    if not len(hours.times):
+        return []
+    wt = np.asarray(event.weather.time).astype("datetime64[s]").astype(np.int64)
+    first = np.searchsorted(wt, hours.times.min(), side="right") - 1
+    last = np.searchsorted(wt, hours.times.max(), side="left")
+    idx = np.arange(max(first, 0), min(last, len(wt) - 1) + 1)
+    with pywarnings.catch_warnings():  # the same air as the session hours: warned there already
+        pywarnings.simplefilter("ignore", air.OutOfRangeWarning)
+        w_air = air_at(event.weather, event.site.elevation, wt[idx], str(event.source or event.name))
+    w_factor = carb.area_factor(w_air.dry_air_density, refs.dry[refs.fleet], w_air.moist_air_density,
+                                refs.moist[refs.fleet], density_exponent=0.5)
+    fields = _air_fields(w_air)
+    fac, cf = rounded(w_factor, 4), rounded(w_air.sae_j1349_cf, 4)
+    icing = np.asarray(w_air.icing_risk).astype(int).tolist()
+    out = []
+    for i, t in enumerate(wt[idx]):
+        row = {"time": _iso(t, zone), **{k: v[i] for k, v in fields.items()}}
+        row.update({"area_factor": fac[i], "sae_j1349_cf": cf[i], "icing_risk": icing[i]})
+        out.append(row)
+    return out
