@@ -1,6 +1,6 @@
 """Benchmark: plan 10,000 bikes x 48 hours and write the plan files. Prints figures only.
 
-Run: ``.venv/bin/python benchmarks/plan_bench.py [--bikes N] [--hours H] [--repeat R]``.
+Run: ``.venv/bin/python benchmarks/plan_bench.py [--bikes N] [--hours H] [--sessions S] [--repeat R]``.
 The fleet is generated in memory (invented models, random state fixed for repeatability).
 """
 
@@ -23,7 +23,7 @@ from tuning.config import model as m
 from tuning.plan import make_plan, write_plan_files
 
 
-def build(n_bikes: int, n_hours: int, random_state: int = 7):
+def build(n_bikes: int, n_hours: int, random_state: int = 7, n_sessions: int = 1):
     rng = np.random.default_rng(random_state)
     reference = m.Conditions(300.0, 293.15, 101325.0, "qnh", 0.5, None, "E0")
     fuels = {"E0": m.Fuel("E0", 14.7, 745.0), "E10": m.Fuel("E10", 14.08, 749.4, 0.10)}
@@ -62,8 +62,10 @@ def build(n_bikes: int, n_hours: int, random_state: int = 7):
     temperature = 283.15 + 8.0 * np.sin(np.arange(n_hours + 2) / 24 * 2 * np.pi)
     weather = m.Weather(times, temperature, np.full(n_hours + 2, 101500.0), "qnh",
                         np.full(n_hours + 2, 0.6), "relative", "bench")
-    session = m.Session("all", start, start + timedelta(hours=n_hours - 1))
-    event = m.Event("bench", m.Site("Bench Hill", 1800.0, "Europe/Vienna"), (session,), weather, "E10")
+    length = n_hours // n_sessions  # the hours split into sessions back to back
+    sessions = tuple(m.Session(f"s{i + 1}", start + timedelta(hours=i * length),
+                               start + timedelta(hours=(i + 1) * length - 1)) for i in range(n_sessions))
+    event = m.Event("bench", m.Site("Bench Hill", 1800.0, "Europe/Vienna"), sessions, weather, "E10")
     return fleet, event
 
 
@@ -71,9 +73,10 @@ def main(argv=None) -> int:
     parser = argparse.ArgumentParser(description=__doc__)
     parser.add_argument("--bikes", type=int, default=10_000)
     parser.add_argument("--hours", type=int, default=48)
+    parser.add_argument("--sessions", type=int, default=1, help="split the hours into this many sessions")
     parser.add_argument("--repeat", type=int, default=5)
     args = parser.parse_args(argv)
-    fleet, event = build(args.bikes, args.hours)
+    fleet, event = build(args.bikes, args.hours, n_sessions=args.sessions)
     warnings.simplefilter("ignore")
     compute = []
     for _ in range(args.repeat):
@@ -86,7 +89,7 @@ def main(argv=None) -> int:
         write = time.perf_counter() - t1
         size = sum(Path(p).stat().st_size for p in paths)
     hours = len(plan["entries"][0]["hours"]) if plan["entries"] else 0
-    print(f"bikes={args.bikes} sessions=1 hours/session={hours} entries={len(plan['entries'])}")
+    print(f"bikes={args.bikes} sessions={args.sessions} hours/session={hours} entries={len(plan['entries'])}")
     print(f"make_plan: best {min(compute):.3f} s, median {sorted(compute)[len(compute) // 2]:.3f} s")
     print(f"write_plan_files: {write:.3f} s ({size / 1e6:.1f} MB, JSON indent=1)")
     return 0

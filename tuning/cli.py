@@ -229,7 +229,16 @@ def add_plan_parser(sub) -> None:
     p.add_argument("--out", metavar="DIR", required=True,
                    help="output folder (created when missing); only the three plan files are written in it, "
                    "all new or all old, and an existing file of those names only when carbfleet wrote it")
+    add_policy_option(p)
     p.set_defaults(func=cmd_plan)
+
+
+def add_policy_option(p) -> None:
+    from tuning.config.model import CHANGE_POLICIES
+
+    p.add_argument("--policy", choices=CHANGE_POLICIES, default=None,
+                   help="event: one setting per bike for the event unless a change pays for its work (default); "
+                   "session: the best setting for each session (race teams). Wins over change_policy in the files.")
 
 
 def cmd_plan(args) -> int:
@@ -253,7 +262,7 @@ def cmd_plan(args) -> int:
     event = load_event(args.event, fleet)
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
-        plan = make_plan(fleet, event)
+        plan = make_plan(fleet, event, policy_name=args.policy)
     paths = write_plan_files(plan, args.out)
     for note in dict.fromkeys(str(w.message) for w in caught):  # one line each, no source echo
         say(f"carbfleet plan: note: {note}", file=sys.stderr)
@@ -262,7 +271,7 @@ def cmd_plan(args) -> int:
         1 for e in entries if any(e["settings"][k]["steps"] for k in ("main_jet", "pilot_jet", "clip"))
         or e["settings"]["mixture_screw"]["change_turns"]
     )
-    short = sum(p["short"] or 0 for p in plan["pick_list"])
+    short = sum(p["to_order"] or 0 for p in plan["pick_list"])
     stock = f"{short} jets short" if tables.stock_kept(plan) else tables.NO_STOCK_LIST
     say(f"{plan['fleet']} at {plan['event']} ({plan['site']['name']}, {plan['site']['elevation_m']:g} m): "
         f"{len({e['bike'] for e in entries})} bikes x {len(plan['sessions'])} sessions, "
@@ -299,6 +308,7 @@ def add_build_parser(sub) -> None:
     p.add_argument("--quiet", action="store_true", help="no progress bar and no summary line")
     p.add_argument("--workers", type=int, default=2, metavar="N",
                    help="notebook kernels rendering sheets in parallel, 1 to 8 (default 2)")
+    add_policy_option(p)
     p.set_defaults(func=cmd_build)
 
 
@@ -312,7 +322,7 @@ def cmd_build(args) -> int:
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
         result = build(args.fleet, args.event, args.out, paper=args.paper, quiet=args.quiet,
-                       workers=args.workers)
+                       workers=args.workers, policy=args.policy)
     for note in dict.fromkeys(str(w.message) for w in caught
                               if not issubclass(w.category, (DeprecationWarning, ResourceWarning))):
         print(one_line(f"carbfleet build: note: {note}"), file=sys.stderr)  # one line each, no source echo

@@ -21,7 +21,7 @@ from pathlib import Path
 import numpy as np
 
 from tuning.config import model
-from tuning.config.fleet import ELEVATION_RANGE, refuse_other_kind
+from tuning.config.fleet import CHANGE_POLICY, CHANGE_THRESHOLD, ELEVATION_RANGE, refuse_other_kind
 from tuning.config.limits import MAX_BIKE_HOURS, MAX_BIKE_SESSIONS, MAX_METAR_REPORTS, MAX_SESSIONS
 from tuning.config.source import display_name, load_yaml
 from tuning.config.spec import (
@@ -69,6 +69,8 @@ def event_spec() -> Obj:
             ),
             "sessions": Field(Sequence(SESSION, "Sessions; they may not overlap.", 1), True),
             "fuel": Field(Text("Fuel used at the event (a name under the fleet's `fuels`); the reference fuel when left out.")),
+            "change_policy": Field(CHANGE_POLICY),
+            "change_threshold": Field(CHANGE_THRESHOLD),
             "weather": Field(
                 Either(
                     scalar=Text("Path of the weather CSV table, relative to this file."),
@@ -200,6 +202,8 @@ def load_event(path, fleet: model.Fleet | None = None) -> model.Event:
         weather=weather,
         fuel=fuel,
         source=Path(path),
+        change_policy=raw.get("change_policy"),
+        change_threshold=raw.get("change_threshold"),
     )
 
 

@@ -132,6 +132,10 @@ PREMIX = Custom(
 DENSITY_EXPONENT = Number(
     "Exponent on the air-density ratio (0 < n <= 1.5); 0.5 is the metering law, workshop rules correct harder. "
     "A bike's value wins over its model's, a model's over the fleet's; 0.5 when none is given.", 0.0, 1.5, exclusive_minimum=True)
+CHANGE_POLICY = Choice(model.CHANGE_POLICIES, "How often settings change over an event: event (one setting per "
+                       "bike unless a change pays for its work; the default) or session (the best per session).")
+CHANGE_THRESHOLD = Number("Mixture improvement a main-jet change between sessions must bring, as a fraction "
+                          "(default 0.03, about one main-jet step); other changes are scaled by their work.", 0.0, 0.5)
 JET_SIZE = Number("Jet number as stamped (diameter-coded: orifice in 0.01 mm; flow-coded: proportional to flow).", 0.0, exclusive_minimum=True)
 SCREW_TURNS = Number("Turns out from lightly seated.", 0.0, 10.0)
 
@@ -275,6 +279,8 @@ def fleet_spec() -> Obj:
             "reference": Field(conditions_spec(True, "Conditions under which the recorded settings were proven."), True),
             "density_exponent": Field(DENSITY_EXPONENT),
             "reference_afr": Field(Number("Air-fuel mass ratio the proven settings are assumed to give (default 12.0).", 8.0, 20.0)),
+            "change_policy": Field(CHANGE_POLICY),
+            "change_threshold": Field(CHANGE_THRESHOLD),
             "premix": Field(PREMIX),
             "fuels": Field(Mapping(FUEL, "Fuels by name.", 1), True),
             "jet_families": Field(Mapping(JET_FAMILY, "Jet families by name.", 1), True),
@@ -290,7 +296,7 @@ def fleet_spec() -> Obj:
 #: Top-level keys that only an event file has (tuning.config.event.event_spec), and only a fleet file.
 EVENT_KEYS = ("event", "site", "sessions", "weather", "fuel")
 FLEET_KEYS = ("fleet", "reference", "density_exponent", "reference_afr", "premix", "fuels", "jet_families", "needles",
-              "models", "bikes", "stock")
+              "models", "bikes", "stock")  # change_policy and change_threshold belong to both kinds
 
 
 def refuse_other_kind(root, file: str, kind: str) -> None:
@@ -648,7 +654,7 @@ def _build(raw, fuels, families, needles, stock, path) -> model.Fleet:
                 own_reference=own,
             )
         )
-    extra = {"reference_afr": raw["reference_afr"]} if "reference_afr" in raw else {}
+    extra = {key: raw[key] for key in ("reference_afr", "change_policy", "change_threshold") if key in raw}
     return model.Fleet(
         name=raw["fleet"],
         reference=reference,

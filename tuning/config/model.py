@@ -142,6 +142,11 @@ class Bike:
     own_reference: bool = False  # True when the bike's reference is its own
 
 
+#: How often settings change over an event: ``event`` keeps one setting per bike unless a change
+#: pays for its work (the default); ``session`` gives the best setting per session (race teams).
+CHANGE_POLICIES = ("event", "session")
+
+
 @dataclass(frozen=True)
 class Fleet:
     """A whole fleet file, resolved."""
@@ -157,6 +162,8 @@ class Fleet:
     density_exponent: float = 0.5
     source: Path | None = None
     reference_afr: float = 12.0  # [1] air-fuel mass ratio the proven settings are assumed to give
+    change_policy: str | None = None  # one of CHANGE_POLICIES; None: the default (event)
+    change_threshold: float | None = None  # [1] mixture gain a main-jet change must bring; None: default
 
 
 @dataclass(frozen=True)
@@ -198,3 +205,5 @@ class Event:
     weather: Weather
     fuel: str | None = None  # overrides the reference fuel for every bike
     source: Path | None = None
+    change_policy: str | None = None  # overrides the fleet's
+    change_threshold: float | None = None  # overrides the fleet's

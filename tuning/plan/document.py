@@ -146,6 +146,7 @@ def assemble(fleet, event, rows, hours, refs, main, idle, clip, curves, rejet, a
     band = [round(reference_afr * TARGET_BAND[0], 2), round(reference_afr * TARGET_BAND[1], 2)]
     sources = _sources(allocation, rows, fleet)
     bike_ids = [b.id for b in fleet.bikes]
+    main_cols, pilot_cols = _jet_columns(main, main_steps, rows), _jet_columns(pilot, pilot_steps, rows)
 
     with gc_paused():  # many small dicts, no cycles
         entries, bike_notices, in_danger = [], {bid: {} for bid in bike_ids}, set()
@@ -157,17 +158,15 @@ def assemble(fleet, event, rows, hours, refs, main, idle, clip, curves, rejet, a
             base = hours.offsets[s]
             hours_out = [dict(h, area_factor=f) for h, f in zip(hour_base[base: base + n_h], req_r[r, :n_h].tolist())]
             found = []  # warnings of this entry, bike-level ones set aside
-            main_out = _jet_dict(fleet, main, r, main_steps, "main jet", sources, has_stock, sessions[s].name, found,
-                                 rows, curves)
-            pilot_out = _jet_dict(fleet, pilot, r, pilot_steps, "pilot jet", sources, has_stock, sessions[s].name, found,
-                                  rows, curves)
+            main_out = _jet_dict(fleet, main, main_cols, r, "main jet", sources, has_stock, sessions[s].name, found)
+            pilot_out = _jet_dict(fleet, pilot, pilot_cols, r, "pilot jet", sources, has_stock, sessions[s].name, found)
             if curves["factor_min"][r] < FACTOR_RANGE[0] or curves["factor_max"][r] > FACTOR_RANGE[1]:
                 found.append(warning("factor-out-of-range", f"Required area factor {f_min[r]}..{f_max[r]} is outside the "
                              f"model's range {FACTOR_RANGE[0]}..{FACTOR_RANGE[1]}: treat the settings as a starting point "
                              "and make a test run with a plug reading first."))
             clip_out = _clip_dict(clip, r, st, found)
             screw_out = _screw_dict(idle, r, st, found)
-            _lean_check(curves, r, found)
+            _lean_check(curves, r, found, idle, clip)
             _weather_notes(stat, model, found)
             checks = _checks(st, model, stat)
             for w in found:
@@ -272,14 +271,30 @@ def _source_dict(source, origin):
     return {"kind": source, "origin": origin, "text": _SOURCE_WORDS[source].format(origin=origin)}
 
 
-def _jet_dict(fleet, plan, r, steps, label, sources, has_stock, session_name, found, rows, curves):
+def _jet_columns(plan, steps, rows) -> dict:
+    """The per-row values of a jet plan as plain lists (rounded once, not row by row)."""
+    return {
+        "current": [jet_number(v) for v in plan.current.tolist()],
+        "recommended": [jet_number(v) for v in plan.recommended.tolist()],
+        "ideal": rounded(plan.ideal_mean, 1), "ideal_min": rounded(plan.ideal_min, 1),
+        "ideal_max": rounded(plan.ideal_max, 1), "steps": steps.tolist(),
+        "fitted_lean": (rows.largest - 1.0).tolist(),  # the proven jet's leanest deviation per session
+        "unsafe": plan.unsafe.tolist(), "out_of_family": plan.out_of_family.tolist(), "too_wide": plan.too_wide.tolist(),
+    }
+
+
+def _jet_dict(fleet, plan, cols, r, label, sources, has_stock, session_name, found):
     kind = "main_jet" if label == "main jet" else "pilot_jet"
     family = plan.family[r]
     sizes = fleet.jet_families[family].sizes
-    rec, cur = jet_number(plan.recommended[r]), jet_number(plan.current[r])
+    rec, cur = cols["recommended"][r], cols["current"][r]
     source, origin = sources[(kind, r)]
     at_hand = source not in ("order", "shelf-or-order")
-    fitted_lean = float(rows.largest[r] - 1.0)  # the proven jet's leanest deviation in this session
+    fitted_lean = cols["fitted_lean"][r]
+    if source == "shelf-or-order" and fitted_lean > LEAN_GUARD:
+        found.append(warning("no-safe-jet", f"Fit {label} {rec} ({family}) before riding hard, from the shelf or "
+                     f"ordered (the fleet keeps no stock list): the {label} fitted today ({cur}) would run about "
+                     f"{fitted_lean:.0%} lean in {session_name} — a lean engine can seize."))
     if source == "order":
         if fitted_lean > LEAN_GUARD:
             found.append(warning("no-safe-jet", f"Fit {label} {rec} ({family}) before riding hard: none is at hand, so "
@@ -289,24 +304,25 @@ def _jet_dict(fleet, plan, r, steps, label, sources, has_stock, session_name, fo
             found.append(warning("stock-shortage", f"{label.capitalize()} {rec} ({family}) is neither on the shelf nor "
                          f"coming off another bike: order it; until it comes, the fitted {cur} stays safe (not leaner "
                          "than the guard)."))
-    if plan.unsafe[r]:
+    if cols["unsafe"][r]:
         found.append(warning("no-safe-jet", f"No {label} of the {family} sizes ({jet_number(sizes[0])}..{jet_number(sizes[-1])}) "
                      f"is rich enough for {session_name}: {rec}, the richest planned, is still leaner than the guard. Get a "
-                     f"{label} of about {jet_number(round(float(plan.ideal_max[r]), 1))} before riding hard."))
-    elif plan.out_of_family[r]:
-        found.append(warning("ideal-outside-family", f"The ideal {label} ({rounded(plan.ideal_min[r], 1)}.."
-                     f"{rounded(plan.ideal_max[r], 1)}) lies outside the {family} sizes ({jet_number(sizes[0])}.."
-                     f"{jet_number(sizes[-1])}); {rec} is the nearest safe one — read the plug before riding hard."))
-    if plan.too_wide[r] and kind == "main_jet":
+                     f"{label} of about {cols['ideal_max'][r]} before riding hard."))
+    elif cols["out_of_family"][r]:
+        found.append(warning("ideal-outside-family", f"The ideal {label} ({cols['ideal_min'][r]}..{cols['ideal_max'][r]}) "
+                     f"lies outside the {family} sizes ({jet_number(sizes[0])}..{jet_number(sizes[-1])}); {rec} is the "
+                     "nearest safe one — read the plug before riding hard."))
+    if cols["too_wide"][r] and kind == "main_jet":
         found.append(warning("window-too-wide", f"The ideal main jet changes by more than one size across {session_name}; "
                      f"{rec} is safe (rich enough) for its leanest hour and richer in the others."))
-    direction, change = _jet_words(int(steps[r]))
+    steps = cols["steps"][r]
+    direction, change = _jet_words(steps)
     return {
-        "family": family, "coding": plan.coding[r], "current": cur, "ideal": rounded(plan.ideal_mean[r], 1),
-        "ideal_range": [rounded(plan.ideal_min[r], 1), rounded(plan.ideal_max[r], 1)],
+        "family": family, "coding": plan.coding[r], "current": cur, "ideal": cols["ideal"][r],
+        "ideal_range": [cols["ideal_min"][r], cols["ideal_max"][r]],
         "recommended": rec, "in_stock": (at_hand if has_stock else None),
         "stock_choice": (rec if at_hand else cur if fitted_lean <= LEAN_GUARD else None) if has_stock else None,
-        "steps": int(steps[r]), "direction": direction, "change": change,
+        "steps": steps, "direction": direction, "change": change,
         "source": _source_dict(source, origin),
     }
 
@@ -356,17 +372,25 @@ def _screw_dict(idle, r, st, found):
             "range_assumed": bool(ms.range_assumed)}
 
 
-def _lean_check(curves, r, found):
-    """``predicted-lean`` where the predicted mixture at some opening and hour leaves the band's lean edge."""
+def _lean_check(curves, r, found, idle, clip):
+    """``predicted-lean`` where the predicted mixture at some opening and hour leaves the band's lean edge,
+    naming the throttle range and the cure."""
     lean = curves["leanest_by_throttle"][r]  # (T,) largest lean deviation over the hours
     bad = lean > LEAN_GUARD + 1e-9
     if not bad.any():
         return
     weights = carb.circuit_weights(THROTTLE[bad])  # which circuit meters most there
-    circuit = ("pilot jet or mixture screw (richer)", "needle clip (lower groove: richer)", "main jet (larger)")[
-        int(np.argmax(weights.sum(axis=0)))]
+    circuit = int(np.argmax(weights.sum(axis=0)))
+    if circuit == 0:
+        cure = ("fit a larger pilot jet than the planned ones (none within reach is rich enough)" if idle.unsafe[r]
+                else "richen the idle circuit (larger pilot jet or the screw richer)")
+    elif circuit == 1:
+        cure = ("the clip is already in its richest groove: fit a richer needle or a larger needle jet"
+                if clip.unsafe[r] else "move the needle clip one groove lower (richer)")
+    else:
+        cure = "fit a larger main jet"
     found.append(warning("predicted-lean", f"Predicted mixture up to {float(lean.max()):.0%} leaner than the proven one at "
-                         f"{_throttle_span(bad)} in the session's densest hour: richen the {circuit} before riding hard."))
+                         f"{_throttle_span(bad)} in the session's densest hour: {cure} before riding hard."))
 
 
 def _weather_notes(stat, model, found):

@@ -17,7 +17,7 @@ from tuning.errors import UserError
 from tuning.plan.policy import flat_sequence
 from tuning.plan.window import LEAN_GUARD
 
-__all__ = ["JetPlan", "family_of", "jet_factor", "jet_ideals", "plan_main", "size_index"]
+__all__ = ["JetPlan", "family_of", "jet_factor", "jet_ideals", "nearest_index", "plan_main"]
 
 
 def family_of(fleet, name, where):
@@ -32,9 +32,13 @@ def family_of(fleet, name, where):
     return family
 
 
-def size_index(sizes, size) -> int:
-    """Index of ``size`` among ``sizes`` (the nearest one; fitted sizes are checked at load)."""
-    return int(np.argmin(np.abs(np.asarray(sizes, float) - float(size))))
+def nearest_index(sizes, values) -> np.ndarray:
+    """Index of the nearest of the ascending ``sizes`` for each of ``values`` (ties to the smaller)."""
+    sizes = np.asarray(sizes, float)
+    j = np.clip(np.searchsorted(sizes, values), 1, max(len(sizes) - 1, 1)) if len(sizes) > 1 else np.zeros(len(values), int)
+    if len(sizes) == 1:
+        return j
+    return np.where(np.abs(sizes[j - 1] - values) <= np.abs(sizes[j] - values), j - 1, j)
 
 
 @dataclass
@@ -90,7 +94,7 @@ def jet_ideals(fleet, rows, settings, family_attr, size_attr) -> JetPlan:
         lo = np.searchsorted(sizes, ideal_min[r])
         hi = np.searchsorted(sizes, ideal_max[r])
         too_wide[r] = (hi - lo) > 1
-        index[r] = [size_index(sizes, c) for c in current[r]]
+        index[r] = nearest_index(sizes, current[r])
     return JetPlan(family, coding, current, current.copy(), index, np.zeros(n, bool), ideal_mean, ideal_min,
                    ideal_max, out_of_family, too_wide, np.ones(n))
 

@@ -18,21 +18,24 @@ from __future__ import annotations
 
 import numpy as np
 
+from tuning.config.model import CHANGE_POLICIES
+
 __all__ = [
     "POLICIES", "DEFAULT_POLICY", "DEFAULT_CHANGE_THRESHOLD", "WORK_MINUTES", "SCREW_MIN_MOVE",
     "penalties", "flat_sequence", "idle_sequence",
 ]
 
-POLICIES = ("event", "session")  #: ``event``: few changes (default); ``session``: best per session
+POLICIES = CHANGE_POLICIES  #: ``event``: few changes (default); ``session``: best per session
 DEFAULT_POLICY = "event"
 #: A change between sessions must lower the mixture deviation it serves by more than this
 #: fraction, scaled by its work (our choice: about one main-jet step, 2.5 on a 170 diameter-coded
 #: jet is 2.9 % of area).
 DEFAULT_CHANGE_THRESHOLD = 0.03
-#: Workshop minutes per change on a warm bike in the pits (FROM MEMORY, not measured; a mechanic's
-#: rough figures): turning the mixture screw, moving the needle clip (slide out), a main jet
-#: (float bowl or bowl plug off), a pilot jet (float bowl off, deeper in the body).
-WORK_MINUTES = {"mixture_screw": 2, "clip": 15, "main_jet": 10, "pilot_jet": 15}
+#: Workshop minutes per change in the pits (FROM MEMORY, not measured; a mechanic's rough
+#: figures, added up when several changes fall together): the mixture screw (turn it, warm
+#: idle check), the needle clip (slide out), a main jet (float bowl or bowl plug off), a pilot
+#: jet (float bowl off, deeper in the body).
+WORK_MINUTES = {"mixture_screw": 5, "clip": 15, "main_jet": 10, "pilot_jet": 15}
 SCREW_MIN_MOVE = 0.5  #: smallest planned screw move [turns]; quarter-turn fiddling is not planned
 _BIG = 1.0e6  # cost standing in for "unsafe, but nothing else"
 

@@ -221,7 +221,7 @@ def _check_options(paper: str, workers: int) -> None:
 
 
 def build(fleet_path: str | Path, event_path: str | Path, out_dir: str | Path, paper: str = "a4",
-          quiet: bool = False, workers: int = 2) -> BuildResult:
+          quiet: bool = False, workers: int = 2, policy: str | None = None) -> BuildResult:
     """Plan ``fleet_path`` x ``event_path`` and build the whole output folder ``out_dir``.
 
     Raises :class:`tuning.errors.UserError` for bad input files or an output folder that is not
@@ -238,7 +238,7 @@ def build(fleet_path: str | Path, event_path: str | Path, out_dir: str | Path, p
     event = load_event(event_path, fleet)
     if event.weather.source and event.weather.source != "METAR":
         inputs.append(event.weather.source)
-    plan = make_plan(fleet, event)
+    plan = make_plan(fleet, event, policy_name=policy)
     return build_from_plan(plan, out_dir, paper=paper, quiet=quiet, workers=workers,
                            fleet_path=str(fleet_path), event_path=str(event_path), inputs=inputs)
 
