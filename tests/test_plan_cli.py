@@ -32,7 +32,7 @@ def test_plan_command_writes_the_three_files(tmp_path, capsys):
     csv_rows = (tmp_path / "recommendations.csv").read_text(encoding="utf-8").splitlines()
     assert len(csv_rows) == 1 + len(doc["entries"])
     pick = (tmp_path / "pick-list.csv").read_text(encoding="utf-8").splitlines()
-    assert pick[0] == "family,size,needed,in_stock,short"
+    assert pick[0] == "family,size,fitted_now,in_stock,needed,to_order"
     assert len(pick) == 1 + len(doc["pick_list"])
 
 
@@ -104,7 +104,7 @@ def test_csv_cells_of_user_text_are_not_formulas(tmp_path):
     with open(tmp_path / "out" / "pick-list.csv", encoding="utf-8", newline="") as handle:
         pick = list(csv.DictReader(handle))
     assert "'@round-main" in {p["family"] for p in pick}  # the demo's trail-250s need smaller main jets
-    assert all(p["family"] in ("'@round-main", "hex-main") for p in pick)
+    assert all(p["family"] in ("'@round-main", "hex-main", "pilot-a") for p in pick)
 
 
 def test_control_characters_in_names_do_not_reach_the_terminal(tmp_path, capsys):

@@ -30,7 +30,10 @@ FACTOR_RANGE = (0.80, 1.15)  #: area factors the model is trusted in (our choice
 COLD_START_K = 273.15 + 5.0  #: below this at the session start: cold-start warning
 CHOKE_K = 273.15 + 10.0  #: below this during the session: choke check
 HOT_FUEL_K = 273.15 + 30.0  #: above this: hot-fuel warning (from memory)
-ICING_WARN_LEVEL = 2  #: icing-risk band from which a warning is given
+#: Icing band from which a note is given: only the serious one. The bands (tuning.air.ICING_BANDS)
+#: are drawn from memory after light-aircraft charts, whose carburetors sit far from engine heat;
+#: a motorcycle carburetor beside a warm engine ices less, so light and moderate are no warning.
+ICING_WARN_LEVEL = 3
 
 _SOURCE_WORDS = {
     "own": "its own jet, kept from before", "bike": "off bike {origin}", "shelf": "from the shelf",
@@ -395,8 +398,9 @@ def _lean_check(curves, r, found, idle, clip):
 
 def _weather_notes(stat, model, found):
     if stat["icing"] >= ICING_WARN_LEVEL:
-        found.append(warning("icing-risk", f"Carburetor icing risk (band {stat['icing']} of 3) in cool, humid air: watch for "
-                             "rough running or loss of power at part throttle."))
+        found.append(warning("icing-risk", "Carburetor icing possible in cool, humid air (the serious band of charts "
+                             "made for aircraft, from memory): if it runs rough or loses power at part throttle, "
+                             "let it idle warm before riding on."))
     if stat["t_start"] < COLD_START_K:
         pump = " Accelerator-pump model: check the pump squirt before the first start." if model.carburetor.accelerator_pump else ""
         found.append(warning("cold-start", f"Cold start ({stat['t_start'] - 273.15:.1f} °C at the session start): use the "
