@@ -7,7 +7,6 @@ Each problem test edits the demo files in a temporary folder and checks the mess
 from __future__ import annotations
 
 import math
-import shutil
 from datetime import datetime, timezone
 from pathlib import Path
 
@@ -23,14 +22,6 @@ DEMO = Path(__file__).resolve().parent.parent / "tuning" / "demo"
 @pytest.fixture(scope="module")
 def fleet():
     return load_fleet(DEMO / "demo-fleet.yaml")
-
-
-@pytest.fixture()
-def demo(tmp_path):
-    for f in DEMO.iterdir():
-        if f.is_file():
-            shutil.copy(f, tmp_path / f.name)
-    return tmp_path
 
 
 def edit(path: Path, old: str, new: str) -> str:

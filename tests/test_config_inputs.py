@@ -11,7 +11,6 @@ from __future__ import annotations
 
 import json
 import os
-import shutil
 import threading
 from pathlib import Path
 
@@ -23,14 +22,6 @@ DEMO = Path(__file__).resolve().parent.parent / "tuning" / "demo"
 FLEET, EVENT, WEATHER, METAR = "demo-fleet.yaml", "demo-event.yaml", "demo-weather.csv", "demo-event-metar.yaml"
 
 pytestmark = pytest.mark.filterwarnings("ignore::UserWarning")
-
-
-@pytest.fixture()
-def demo(tmp_path):
-    for f in DEMO.iterdir():
-        if f.is_file():
-            shutil.copy(f, tmp_path / f.name)
-    return tmp_path
 
 
 def edit(path: Path, old: str, new: str, count: int = 1) -> str:
