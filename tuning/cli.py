@@ -263,7 +263,7 @@ def cmd_plan(args) -> int:
         or e["settings"]["mixture_screw"]["change_turns"]
     )
     to_order = sum(p["to_order"] or 0 for p in plan["pick_list"])
-    stock = f"{to_order} jets to order" if tables.stock_kept(plan) else tables.NO_STOCK_LIST
+    stock = tables.to_order_text(to_order) if tables.stock_kept(plan) else tables.NO_STOCK_LIST
     say(f"{plan['fleet']} at {plan['event']} ({plan['site']['name']}, {plan['site']['elevation_m']:g} m): "
         f"{len({e['bike'] for e in entries})} bikes x {len(plan['sessions'])} sessions, "
         f"{changed} with changes, {plan['warnings_count']} warnings, {stock}")

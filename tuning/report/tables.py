@@ -375,7 +375,12 @@ def summary_rows(plan: dict, file_names: dict[str, str]) -> dict:
             "warning_groups": warning_groups(plan, by_bike), "work_orders": work_order_rows(plan, file_names),
             "weather": weather, "sessions": sessions, "pick_list": pick_list, "stock_kept": kept,
             "to_order": to_order,
-            "stock_status": f"{to_order} jets to order" if kept else NO_STOCK_LIST}
+            "stock_status": to_order_text(to_order) if kept else NO_STOCK_LIST}
+
+
+def to_order_text(count: int) -> str:
+    """``3 jets to order``, ``1 jet to order``: the pick list's to_order, summed."""
+    return f"{count} {'jet' if count == 1 else 'jets'} to order"
 
 
 def danger_rows(plan: dict, by_bike: dict, file_names: dict[str, str]) -> list[dict]:
