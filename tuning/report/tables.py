@@ -403,8 +403,9 @@ def danger_rows(plan: dict, by_bike: dict, file_names: dict[str, str]) -> list[d
             for w in found:
                 codes[w["code"]] = codes.get(w["code"], 0) + 1
             others.append(f"{name}: " + ", ".join(c if n == 1 else f"{c} ×{n}" for c, n in codes.items()))
+        names = [name for name, _ in per_session]
         rows.append({"bike": record["bike"], "model": record["model"], "file": file_names.get(record["bike"], ""),
-                     "sessions": [name for name, _ in per_session], "first_session": first_session,
+                     "sessions": ["all sessions"] if len(entries) > 1 and names == [e["session"] for e in entries] else names, "first_session": first_session,
                      "messages": [{"code": w["code"], "message": w["message"]} for w in first], "others": others})
     return rows
 
