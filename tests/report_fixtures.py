@@ -24,7 +24,7 @@ def _reference(elevation_m: float) -> dict:
     }
 
 
-def _jet(family: str, current: int, steps: int, stock: bool) -> dict:
+def _jet(family: str, current: int, steps: int, stock: bool | None, source: dict) -> dict:
     sizes = FAMILY_SIZES[family]
     index = sizes.index(current)
     recommended = sizes[max(0, min(len(sizes) - 1, index + steps))]
@@ -36,21 +36,120 @@ def _jet(family: str, current: int, steps: int, stock: bool) -> dict:
         direction = "richer" if real_steps > 0 else "leaner"
         n = abs(real_steps)
         change = f"{n} size{'s' if n > 1 else ''} {word}: {direction}"
+    at_hand = source["kind"] not in ("order", "shelf-or-order")
     return {
         "family": family, "coding": "diameter", "current": current,
         "ideal": round(recommended + 0.4 * (1 if steps >= 0 else -1), 1),
         "ideal_range": [round(recommended - 0.6, 1), round(recommended + 0.9, 1)],
-        "recommended": recommended, "in_stock": stock if real_steps else True,
-        "stock_choice": recommended if stock else None, "steps": real_steps,
-        "direction": direction, "change": change,
+        "recommended": recommended, "in_stock": None if stock is None else at_hand,
+        "stock_choice": None if stock is None else (recommended if at_hand else None), "steps": real_steps,
+        "direction": direction, "change": change, "source": source,
     }
 
 
-def make_plan(n_bikes: int = 3, n_sessions: int = 2, bike_ids: list[str] | None = None) -> dict:
+#: Invented words for where a jet comes from, in the plan's shape (kind, origin, text).
+_SOURCE_TEXT = {"fitted": "already fitted", "own": "its own jet, kept from before", "bike": "off bike {origin}",
+                "shelf": "from the shelf", "order": "to order", "shelf-or-order": "from the shelf or to order"}
+WORK_MINUTES = {"mixture_screw": 2, "clip": 15, "main_jet": 10, "pilot_jet": 15}  # invented
+_PART = {"main_jet": "main jet", "pilot_jet": "pilot jet", "clip": "needle clip", "mixture_screw": "mixture screw"}
+
+
+def _source(kind: str, origin: str | None = None) -> dict:
+    return {"kind": kind, "origin": origin, "text": _SOURCE_TEXT[kind].format(origin=origin)}
+
+
+def _warning(code: str, severity: str, message: str) -> dict:
+    return {"code": code, "severity": severity, "message": message}
+
+
+def _value(part: str, settings: dict, which: str):
+    if part == "mixture_screw":
+        return settings[part][f"{which}_turns"]
+    return settings[part][which]
+
+
+def _change(part: str, old, new, source: dict | None, screw_kind: str) -> dict:
+    if part == "mixture_screw":
+        direction = "richer" if (new > old) == (screw_kind == "fuel") else "leaner"
+        text = f"{screw_kind} screw {abs(new - old):g} turn {'out' if new > old else 'in'} to {new:g} turns ({direction})"
+    elif part == "clip":
+        direction = "richer" if new > old else "leaner"
+        text = f"needle clip groove {old} → {new} ({direction})"
+    else:
+        direction = "richer" if new > old else "leaner"
+        text = f"{_PART[part]} {old} → {new} ({direction})" + (f", {source['text']}" if source else "")
+    return {"part": part, "from": old, "to": new, "direction": direction, "minutes": WORK_MINUTES[part],
+            "source": source, "text": text}
+
+
+def _work_orders(entries_of: dict[str, list[dict]], sessions: list[dict]) -> list[dict]:
+    """Per transition, every bike's changes: proven -> first session, session to session, last -> proven."""
+    orders = []
+    n = len(sessions)
+    for t in range(n + 1):
+        if t == 0:
+            label = f"before {sessions[0]['name']}"
+        elif t == n:
+            label = "after the event: back to the proven settings"
+        else:
+            label = f"between {sessions[t - 1]['name']} and {sessions[t]['name']}"
+        bikes = []
+        for bike, entries in entries_of.items():
+            changes = []
+            for part in ("main_jet", "pilot_jet", "clip", "mixture_screw"):
+                settings = entries[0]["settings"]
+                old = _value(part, settings, "current") if t == 0 else _value(part, entries[t - 1]["settings"], "recommended")
+                new = _value(part, settings, "current") if t == n else _value(part, entries[t]["settings"], "recommended")
+                if old == new:
+                    continue
+                source = None
+                if part in ("main_jet", "pilot_jet"):
+                    source = _source("own") if t == n else entries[t]["settings"][part]["source"]
+                changes.append(_change(part, old, new, source, settings["mixture_screw"]["kind"]))
+            if changes:
+                bikes.append({"bike": bike, "minutes": sum(c["minutes"] for c in changes), "changes": changes})
+        orders.append({"transition": t, "label": label, "after_session": sessions[t - 1]["name"] if t else None,
+                       "before_session": sessions[t]["name"] if t < n else None,
+                       "minutes": sum(b["minutes"] for b in bikes), "bikes": bikes})
+    return orders
+
+
+def _pick_list(entries_of: dict[str, list[dict]], stock: bool) -> list[dict]:
+    """One row per (family, size) fitted or planned: fitted now, on the invented shelf, needed, to order."""
+    fitted: dict[tuple, int] = {}
+    needed: dict[tuple, int] = {}
+    for entries in entries_of.values():
+        for part in ("main_jet", "pilot_jet"):
+            jet = entries[0]["settings"][part]
+            fitted[(jet["family"], jet["current"])] = fitted.get((jet["family"], jet["current"]), 0) + 1
+    n_sessions = len(next(iter(entries_of.values())))
+    for s in range(n_sessions):
+        count: dict[tuple, int] = {}
+        for entries in entries_of.values():
+            for part in ("main_jet", "pilot_jet"):
+                jet = entries[s]["settings"][part]
+                if jet["steps"]:
+                    count[(jet["family"], jet["recommended"])] = count.get((jet["family"], jet["recommended"]), 0) + 1
+        for key, c in count.items():
+            needed[key] = max(needed.get(key, 0), c)
+    rows = []
+    for family, size in sorted(set(fitted) | set(needed)):
+        in_stock = (3 if size % 2 == 0 else 0) if stock else None
+        need, now = needed.get((family, size), 0), fitted.get((family, size), 0)
+        rows.append({"family": family, "size": size, "fitted_now": now, "in_stock": in_stock, "needed": need,
+                     "to_order": max(0, need - now - in_stock) if stock else None})
+    rows.sort(key=lambda r: -(r["to_order"] or 0))  # to order first (stable)
+    return rows
+
+
+def make_plan(n_bikes: int = 3, n_sessions: int = 2, bike_ids: list[str] | None = None, stock: bool = True) -> dict:
     """Return an invented plan document for ``n_bikes`` bikes x ``n_sessions`` sessions.
 
     All numbers are made up (see the module docstring). ``bike_ids`` overrides the generated ids
-    (to test awkward ids such as ``../x`` or ``<b>T1</b>``).
+    (to test awkward ids such as ``../x`` or ``<b>T1</b>``); ``stock=False`` is a fleet without a
+    stock list. Every fourth bike (the 4th, 8th, ...) is in danger: its main jet must be ordered
+    (with a stock list) and its first session is predicted lean; the second bike takes its main
+    jet off the first.
     """
     ids = list(bike_ids) if bike_ids else [f"T{i + 1:03d}" for i in range(n_bikes)]
     tz = dt.timezone(dt.timedelta(hours=1))
@@ -73,32 +172,44 @@ def make_plan(n_bikes: int = 3, n_sessions: int = 2, bike_ids: list[str] | None 
             "sae_j1349_cf": round(1.17 + 0.01 * h, 3), "icing_risk": 3 if t < 10 else 1,
         })
     entries = []
-    warnings_count = 0
-    shelf_needed: dict[tuple[str, int], int] = {}
+    entries_of: dict[str, list[dict]] = {}
+    bikes = []
     for b, bike in enumerate(ids):
         strokes = 2 if b % 2 == 0 else 4
         main_current = FAMILY_SIZES["main-diameter"][6 + b % 3]
         pilot_current = FAMILY_SIZES["pilot-diameter"][3]
+        in_danger = b % 4 == 3
+        main_kind = "order" if in_danger else "bike" if b % 4 == 1 else "shelf"
+        if not stock and main_kind != "bike":
+            main_kind = "shelf-or-order"
+        changed_before = {"main_jet": False, "pilot_jet": False}
         for s, session in enumerate(sessions):
             hours = weather[2 * s: 2 * s + 3]
-            main = _jet("main-diameter", main_current, -2 - (s % 2) + (b % 2), stock=(b % 4 != 3))
-            pilot = _jet("pilot-diameter", pilot_current, -1 if s < 2 else 0, stock=True)
+            main_steps = -2 - (s % 2) + (b % 2)
+            pilot_steps = -1 if s < 2 else 0
+            sources = {}
+            for part, steps in (("main_jet", main_steps), ("pilot_jet", pilot_steps)):
+                if steps:
+                    kind = main_kind if part == "main_jet" else ("shelf" if stock else "shelf-or-order")
+                    sources[part] = _source(kind, ids[b - 1] if kind == "bike" else None)
+                    changed_before[part] = True
+                else:
+                    sources[part] = _source("own" if changed_before[part] else "fitted")
+            main = _jet("main-diameter", main_current, main_steps, True if stock else None, sources["main_jet"])
+            pilot = _jet("pilot-diameter", pilot_current, pilot_steps, True if stock else None, sources["pilot_jet"])
             screw_kind = "air" if strokes == 2 else "fuel"
-            warnings = [{"code": "assumed-needle-geometry",
-                         "message": "needle geometry assumed from the model default (invented)"}]
-            if main["in_stock"] is False:
-                warnings.append({"code": "stock-shortage",
-                                 "message": f"main jet {main['recommended']} not on the shelf (invented)"})
+            warnings = []
+            if in_danger and stock and main["steps"]:
+                warnings.append(_warning("no-safe-jet", "danger", f"Fit main jet {main['recommended']} before riding "
+                                         f"hard: none is at hand, order it now (invented)."))
+            if in_danger and s == 0:
+                warnings.append(_warning("predicted-lean", "danger", "Predicted mixture up to 6% leaner than the proven "
+                                         "one at 20%–40% throttle: richen the needle clip before riding hard (invented)."))
             if hours[0]["air_temperature_C"] < 10:
-                warnings.append({"code": "cold-start",
-                                 "message": "cold morning: use the choke, warm up fully (invented)"})
-            warnings_count += len(warnings)
-            for circuit in (main, pilot):
-                if circuit["steps"]:
-                    key = (circuit["family"], circuit["recommended"])
-                    shelf_needed[key] = shelf_needed.get(key, 0) + 1
+                warnings.append(_warning("cold-start", "action", "cold morning: use the choke, warm up fully (invented)"))
+            warnings.append(_warning("icing-risk", "note", "Carburetor icing possible in cool, humid air (invented)."))
             af = [h["area_factor"] for h in hours]
-            entries.append({
+            entry = {
                 "bike": bike, "model": f"Trail {125 if strokes == 2 else 250} {'2T' if strokes == 2 else '4T'} (invented)",
                 "session": session["name"], "start": session["start"], "end": session["end"],
                 "notes": "new top end last month (invented)" if b == 0 else "",
@@ -145,18 +256,23 @@ def make_plan(n_bikes: int = 3, n_sessions: int = 2, bike_ids: list[str] | None 
                 "power_vs_reference_pct": round(85.5 - s, 1),
                 "checks": ["check float level before fitting (invented)", "read the plug after the first session (invented)",
                            "choke on a cold morning (invented)"],
-                "warnings": warnings,
-            })
-    pick_list = []
-    for (family, size), needed in shelf_needed.items():
-        in_stock = 3 if size % 2 == 0 else 0
-        pick_list.append({"family": family, "size": size, "needed": needed, "in_stock": in_stock,
-                          "short": max(0, needed - in_stock)})
-    pick_list.sort(key=lambda r: (r["short"] == 0, r["family"], r["size"]))
+                "warnings": warnings,  # danger first, as the plan sorts them
+            }
+            entries.append(entry)
+            entries_of.setdefault(bike, []).append(entry)
+        notices = [_warning("assumed-needle-geometry", "note", "needle geometry assumed from the model default (invented)"),
+                   _warning("assumed-screw-range", "note", "screw range 1..3 turns assumed, not given (invented)")]
+        bikes.append({"bike": bike, "model": entries_of[bike][0]["model"],
+                      "danger": any(w["severity"] == "danger" for e in entries_of[bike] for w in e["warnings"]),
+                      "notices": notices})
+    warnings_count = sum(len(e["warnings"]) for e in entries) + sum(len(b["notices"]) for b in bikes)
     return {
-        "format": "carbfleet-plan/1",
+        "format": "carbfleet-plan/2",
         "carbfleet_version": "0.0.0+invented", "fleet": "Invented school fleet", "event": "Invented hill day",
         "site": {"name": "Invented Ridge", "elevation_m": 1540.0, "time_zone": "Europe/Paris"},
-        "reference": _reference(120.0), "sessions": sessions, "weather": weather,
-        "pick_list": pick_list, "warnings_count": warnings_count, "entries": entries,
+        "reference": _reference(120.0),
+        "policy": {"name": "event", "change_threshold": 0.03, "lean_guard": 0.02, "work_minutes": dict(WORK_MINUTES)},
+        "sessions": sessions, "weather": weather,
+        "pick_list": _pick_list(entries_of, stock), "work_orders": _work_orders(entries_of, sessions),
+        "bikes": bikes, "warnings_count": warnings_count, "entries": entries,
     }

@@ -271,8 +271,8 @@ def cmd_plan(args) -> int:
         1 for e in entries if any(e["settings"][k]["steps"] for k in ("main_jet", "pilot_jet", "clip"))
         or e["settings"]["mixture_screw"]["change_turns"]
     )
-    short = sum(p["to_order"] or 0 for p in plan["pick_list"])
-    stock = f"{short} jets short" if tables.stock_kept(plan) else tables.NO_STOCK_LIST
+    to_order = sum(p["to_order"] or 0 for p in plan["pick_list"])
+    stock = tables.to_order_text(to_order) if tables.stock_kept(plan) else tables.NO_STOCK_LIST
     say(f"{plan['fleet']} at {plan['event']} ({plan['site']['name']}, {plan['site']['elevation_m']:g} m): "
         f"{len({e['bike'] for e in entries})} bikes x {len(plan['sessions'])} sessions, "
         f"{changed} with changes, {plan['warnings_count']} warnings, {stock}")

@@ -22,6 +22,8 @@ from tuning.gcpause import gc_paused
 from tuning.report import charts, tables
 from tuning.report.names import safe_file_names
 
+#: The plan document format this report reads (see tuning/schemas/recommendations.schema.json).
+PLAN_FORMAT = "carbfleet-plan/2"
 PAPER_SIZES = {"a4": "A4 portrait", "letter": "letter portrait"}
 TEMPLATES = Path(__file__).resolve().parent / "templates"
 
@@ -142,8 +144,9 @@ def load_plan(fleet_path: str = "", event_path: str = "", plan_path: str = "") -
         fleet = load_fleet(fleet_path)
         event = load_event(event_path, fleet)
         plan = make_plan(fleet, event)
-    if plan.get("format") != "carbfleet-plan/1":
-        raise UserError(f"plan: expected format 'carbfleet-plan/1', got {plan.get('format')!r}")
+    if plan.get("format") != PLAN_FORMAT:
+        raise UserError(f"plan: expected format {PLAN_FORMAT!r}, got {plan.get('format')!r}; "
+                        "plan the fleet again with this carbfleet (carbfleet plan or carbfleet build)")
     return plan
 
 
@@ -171,16 +174,25 @@ def _common(plan: dict, paper: str, title: str, page_numbers: bool = True) -> di
 
 
 DENSITIES = ("normal", "compact", "tight")
+#: The layouts tried in turn until a sheet fits one page: (density, condense level). The last
+#: ones name the repeats of a warning in later sessions instead of writing them out (every session
+#: stays named), and at last give the notes by code alone; the plan files and the fleet summary
+#: keep every message.
+LAYOUTS = (("normal", 0), ("compact", 0), ("tight", 0), ("tight", 1), ("tight", 2), ("tight", 3))
 
 
 def sheet_html(plan: dict, entries: list[dict], paper: str = "a4", density: str = "normal",
-               chart_svg: str | None = None) -> str:
+               chart_svg: str | None = None, condense: int = 0) -> str:
     """The setup sheet of one bike (its plan entries, session order) as a self-contained HTML page.
 
     ``density`` (``normal``, ``compact``, ``tight``) shrinks type and chart so a crowded sheet
-    (many sessions, many warnings) still prints on one page; nothing is left out.
+    (many sessions, many warnings) still prints on one page; ``condense`` (see
+    :data:`tables.CONDENSE_LEVELS`) then names a warning's repeats in later sessions instead of
+    writing them out.
     """
-    rows = tables.sheet_rows(entries)
+    index = _index(plan)
+    bike = entries[0]["bike"]
+    rows = tables.sheet_rows(entries, index["records"].get(bike), index["work"].get(bike, ()), condense)
     # One page by design: no "page n of m" footer (it costs WeasyPrint a second layout pass).
     context = _common(plan, paper, f"{plan['event']} · sheet {entries[0]['bike']}", page_numbers=False)
     if chart_svg is None:
@@ -188,6 +200,16 @@ def sheet_html(plan: dict, entries: list[dict], paper: str = "a4", density: str 
     context.update(s=rows, chart_src=charts.svg_data_uri(chart_svg), density=density,
                    ref_text=_reference_text(entries[0]["reference"]))
     return environment().get_template("sheet.html.j2").render(**context)
+
+
+_INDEX: list = [None, None]  # (plan, its index): the last plan's, built once for all its sheets
+
+
+def _index(plan: dict) -> dict:
+    """:func:`tables.plan_index` of ``plan``, kept while the same plan renders sheet after sheet."""
+    if _INDEX[0] is not plan:
+        _INDEX[:] = [plan, tables.plan_index(plan)]
+    return _INDEX[1]
 
 
 def summary_html(plan: dict, paper: str = "a4", links: bool = True) -> str:
@@ -232,8 +254,8 @@ def write_pdf(html: str, path: Path, base_url: Path) -> Path:
 def write_sheet(plan: dict, entries: list[dict], html_path: Path, pdf_path: Path, paper: str = "a4") -> int:
     """Write one bike's sheet as HTML and PDF, on one page if any density allows; return pages."""
     chart_svg = charts.to_svg(charts.mixture_spec(entries))
-    for density in DENSITIES:
-        html = sheet_html(plan, entries, paper, density, chart_svg)
+    for density, condense in LAYOUTS:
+        html = sheet_html(plan, entries, paper, density, chart_svg, condense)
         document = layout(html, pdf_path.parent)
         if len(document.pages) == 1:
             break
@@ -290,7 +312,7 @@ def render_setup_sheets(plan: dict, out_dir: str | Path, bikes=(), paper: str = 
                 raise
             except Exception as exc:
                 raise BuildError(f"setup sheet of bike {bike!r} failed: {type(exc).__name__}: {exc}") from exc
-            batch.rows.append((bike, stem, sum(len(e["warnings"]) for e in grouped[bike])))
+            batch.rows.append((bike, stem, tables.warning_count(grouped[bike], _index(plan)["records"].get(bike))))
             sheet_done()
     return batch
 
