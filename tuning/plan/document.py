@@ -40,6 +40,7 @@ _SOURCE_WORDS = {
     "spare": "spare, came off bike {origin}", "order": "to order", "shelf-or-order": "from the shelf or to order",
     "fitted": "already fitted",
 }
+_WAITS = " once {origin}'s own new jet (to order) is in"
 _PART_WORDS = {"main_jet": "main jet", "pilot_jet": "pilot jet", "clip": "needle clip", "mixture_screw": "mixture screw"}
 
 
@@ -256,22 +257,27 @@ def _session_stats(hours, s_count):
 
 
 def _sources(allocation, rows, fleet):
-    """(kind, row) -> (source, origin): where each session's jet comes from."""
+    """(kind, row) -> (put in now, the jet's provenance): the move that puts the session's jet in
+    before it (None where the jet of the session before, or the proven one, stays) and the move that
+    last put in the jet the bike wears (None: the proven jet)."""
     moves_by_t, _ordered = allocation
     s_count = rows.n_sessions
     last = {}
     out = {}
     for t in range(s_count):
+        now = {}
         for m in moves_by_t[t]:
-            last[(m.kind, m.bike)] = (m.source, m.origin)
+            now[(m.kind, m.bike)] = m
+            last[(m.kind, m.bike)] = m
         for b in range(rows.n_bikes):
             for kind in KINDS:
-                out[(kind, b * s_count + t)] = last.get((kind, b), ("fitted", None))
+                out[(kind, b * s_count + t)] = (now.get((kind, b)), last.get((kind, b)))
     return out
 
 
-def _source_dict(source, origin):
-    return {"kind": source, "origin": origin, "text": _SOURCE_WORDS[source].format(origin=origin)}
+def _source_dict(source, origin, waits=False):
+    text = _SOURCE_WORDS[source].format(origin=origin) + (_WAITS.format(origin=origin) if waits else "")
+    return {"kind": source, "origin": origin, "text": text}
 
 
 def _jet_columns(plan, steps, rows) -> dict:
@@ -291,7 +297,8 @@ def _jet_dict(fleet, plan, cols, r, label, sources, has_stock, session_name, fou
     family = plan.family[r]
     sizes = fleet.jet_families[family].sizes
     rec, cur = cols["recommended"][r], cols["current"][r]
-    source, origin = sources[(kind, r)]
+    put_in, provenance = sources[(kind, r)]
+    source = provenance.source if provenance is not None else "fitted"
     at_hand = source not in ("order", "shelf-or-order")
     fitted_lean = cols["fitted_lean"][r]
     if source == "shelf-or-order" and fitted_lean > LEAN_GUARD:
@@ -326,7 +333,8 @@ def _jet_dict(fleet, plan, cols, r, label, sources, has_stock, session_name, fou
         "recommended": rec, "in_stock": (at_hand if has_stock else None),
         "stock_choice": (rec if at_hand else cur if fitted_lean <= LEAN_GUARD else None) if has_stock else None,
         "steps": steps, "direction": direction, "change": change,
-        "source": _source_dict(source, origin),
+        "source": (_source_dict(put_in.source, put_in.origin, put_in.waits) if put_in is not None
+                   else _source_dict("fitted", None)),
     }
 
 
@@ -387,6 +395,8 @@ def _lean_check(curves, r, found, idle, clip):
     if circuit == 0:
         cure = ("fit a larger pilot jet than the planned ones (none within reach is rich enough)" if idle.unsafe[r]
                 else "richen the idle circuit (larger pilot jet or the screw richer)")
+    elif circuit == 1 and clip.mode[r] == MODE_NONE:
+        cure = "no needle is on record to plan the clip: check the needle and move its clip lower (richer)"
     elif circuit == 1:
         cure = ("the clip is already in its richest groove: fit a richer needle or a larger needle jet"
                 if clip.unsafe[r] else "move the needle clip one groove lower (richer)")
@@ -470,7 +480,7 @@ def _change(part, old, new, move, screw_kind):
     if part in ("main_jet", "pilot_jet"):
         old_v, new_v = jet_number(old), jet_number(new)
         direction = "richer" if new > old else "leaner"
-        source = _source_dict(move.source, move.origin) if move is not None else None
+        source = _source_dict(move.source, move.origin, move.waits) if move is not None else None
         text = f"{_PART_WORDS[part]} {old_v} → {new_v} ({direction})" + (f", {source['text']}" if source else "")
     elif part == "clip":
         old_v, new_v = int(old), int(new)

@@ -37,6 +37,7 @@ class Move:
     new: float
     source: str
     origin: str | None = None
+    waits: bool = False  # the origin bike's own new jet is to order: this jet comes off when that one is in
 
 
 def allocate(bike_ids, fitted, plan, stock):
@@ -78,6 +79,9 @@ def allocate(bike_ids, fitted, plan, stock):
             if source == "order":
                 ordered[key] += 1
             moves.append(Move(t, b, kind, key[0], state[b][kind][1], key[1], source, origin))
+        awaiting = {(bike_ids[m.bike], m.kind) for m in moves if m.source in ("order", "shelf-or-order")}
+        moves = [Move(m.transition, m.bike, m.kind, m.family, m.old, m.new, m.source, m.origin,
+                      waits=m.source in ("bike", "spare") and (m.origin, m.kind) in awaiting) for m in moves]
         for key, origins in coming_off.items():
             spare[key].extend(origins)  # not used at this transition: back in the pool
         for b, kind in changes:
