@@ -170,7 +170,7 @@ def assemble(fleet, event, rows, hours, refs, main, idle, clip, curves, rejet, a
                              "and make a test run with a plug reading first."))
             clip_out = _clip_dict(clip, r, st, found)
             screw_out = _screw_dict(idle, r, st, found)
-            _lean_check(curves, r, found, idle, clip)
+            _lean_check(curves, r, found, idle, clip, s_count)
             _weather_notes(stat, model, found)
             checks = _checks(st, model, stat)
             for w in found:
@@ -288,6 +288,9 @@ def _jet_columns(plan, steps, rows) -> dict:
         "ideal": rounded(plan.ideal_mean, 1), "ideal_min": rounded(plan.ideal_min, 1),
         "ideal_max": rounded(plan.ideal_max, 1), "steps": steps.tolist(),
         "fitted_lean": (rows.largest - 1.0).tolist(),  # the proven jet's leanest deviation per session
+        # ... and over all the bike's sessions: the warning's words are the same in every session
+        "fitted_lean_event": np.repeat((rows.largest - 1.0).reshape(rows.n_bikes, -1).max(axis=1),
+                                       rows.n_sessions).tolist(),
         "unsafe": plan.unsafe.tolist(), "out_of_family": plan.out_of_family.tolist(), "too_wide": plan.too_wide.tolist(),
     }
 
@@ -301,15 +304,16 @@ def _jet_dict(fleet, plan, cols, r, label, sources, has_stock, session_name, fou
     source = provenance.source if provenance is not None else "fitted"
     at_hand = source not in ("order", "shelf-or-order")
     fitted_lean = cols["fitted_lean"][r]
+    worst = cols["fitted_lean_event"][r]
     if source == "shelf-or-order" and fitted_lean > LEAN_GUARD:
         found.append(warning("no-safe-jet", f"Fit {label} {rec} ({family}) before riding hard, from the shelf or "
-                     f"ordered (the fleet keeps no stock list): the {label} fitted today ({cur}) would run about "
-                     f"{fitted_lean:.0%} lean in {session_name} — a lean engine can seize."))
+                     f"ordered (the fleet keeps no stock list): the {label} fitted today ({cur}) would run up to "
+                     f"{worst:.0%} lean at this event — a lean engine can seize."))
     if source == "order":
         if fitted_lean > LEAN_GUARD:
             found.append(warning("no-safe-jet", f"Fit {label} {rec} ({family}) before riding hard: none is at hand, so "
-                         f"order it now. The {label} fitted today ({cur}) would run about {fitted_lean:.0%} lean in "
-                         f"{session_name} — a lean engine can seize."))
+                         f"order it now. The {label} fitted today ({cur}) would run up to {worst:.0%} lean at this "
+                         "event — a lean engine can seize."))
         else:
             found.append(warning("stock-shortage", f"{label.capitalize()} {rec} ({family}) is neither on the shelf nor "
                          f"coming off another bike: order it; until it comes, the fitted {cur} stays safe (not leaner "
@@ -383,13 +387,15 @@ def _screw_dict(idle, r, st, found):
             "range_assumed": bool(ms.range_assumed)}
 
 
-def _lean_check(curves, r, found, idle, clip):
+def _lean_check(curves, r, found, idle, clip, s_count):
     """``predicted-lean`` where the predicted mixture at some opening and hour leaves the band's lean edge,
-    naming the throttle range and the cure."""
-    lean = curves["leanest_by_throttle"][r]  # (T,) largest lean deviation over the hours
-    bad = lean > LEAN_GUARD + 1e-9
-    if not bad.any():
+    naming the throttle range and the cure (in the same words in every lean session of the bike:
+    the worst over its sessions)."""
+    if not curves["leanest_by_throttle"][r].max() > LEAN_GUARD + 1e-9:
         return
+    first = r - r % s_count
+    lean = curves["leanest_by_throttle"][first:first + s_count].max(axis=0)  # (T,) over the bike's sessions
+    bad = lean > LEAN_GUARD + 1e-9
     weights = carb.circuit_weights(THROTTLE[bad])  # which circuit meters most there
     circuit = int(np.argmax(weights.sum(axis=0)))
     if circuit == 0:
@@ -403,7 +409,7 @@ def _lean_check(curves, r, found, idle, clip):
     else:
         cure = "fit a larger main jet"
     found.append(warning("predicted-lean", f"Predicted mixture up to {float(lean.max()):.0%} leaner than the proven one at "
-                         f"{_throttle_span(bad)} in the session's densest hour: {cure} before riding hard."))
+                         f"{_throttle_span(bad)} in the densest hour of this event: {cure} before riding hard."))
 
 
 def _weather_notes(stat, model, found):
