@@ -330,3 +330,24 @@ def test_every_warning_has_its_codes_severity_and_bike_notices_come_once(case):
     for b in doc["bikes"]:
         assert len({w["code"] for w in b["notices"]}) == len(b["notices"])
         assert all(w["code"] in BIKE_CODES for w in b["notices"])
+
+
+@pytest.mark.parametrize("screw_kind", ["air", "fuel"])
+def test_idle_with_nothing_rich_enough_takes_the_richest_real_candidate(screw_kind):
+    # two bikes whose screws have usable ranges of different widths (so their candidate lists
+    # differ in length), a pilot at the top of its family, ridden far denser than home: no
+    # pilot within reach is rich enough; the plan takes the richest real setting and says so
+    reference = pf.conditions(elevation=3000.0, celsius=30.0, pressure=70000.0)
+    narrow = pf.settings(pilot=60.0, screw_kind=screw_kind, turns=1.5, usable=(1.0, 2.0))
+    wide = pf.settings(pilot=60.0, screw_kind=screw_kind, turns=2.5, usable=(0.5, 5.0))
+    bikes = (pf.bike("N1", "TS-250", reference, **{f: getattr(narrow, f) for f in ("pilot_jet", "mixture_screw")}),
+             pf.bike("W1", "TS-250", reference, **{f: getattr(wide, f) for f in ("pilot_jet", "mixture_screw")}))
+    doc = make_plan(pf.fleet(bikes, reference=reference), pf.event(elevation=0.0, celsius=-10.0))
+    for e in doc["entries"]:
+        s = e["settings"]["mixture_screw"]
+        lo, hi = s["usable_range"]
+        assert lo <= s["recommended_turns"] <= hi  # a real position, never padding
+        richest_in_range = hi - (hi - lo) / 4.0 if screw_kind == "fuel" else lo + (hi - lo) / 4.0
+        assert s["recommended_turns"] == pytest.approx(richest_in_range, abs=0.25)
+        assert e["settings"]["pilot_jet"]["recommended"] == 60  # the family's largest
+        assert {"predicted-lean", "no-safe-jet"} & codes(e)

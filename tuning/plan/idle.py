@@ -27,6 +27,7 @@ PILOT_REACH = 3  #: pilot sizes considered on each side of the fitted one [steps
 #: the middle half keeps room to trim at the pits either way).
 SCREW_INNER_SHARE = 0.5
 _QUARTER = 0.25
+_FALLBACK_COST = 1.0e6  # an unsafe candidate taken only where nothing else is allowed
 
 
 @dataclass
@@ -95,8 +96,18 @@ def plan_idle(fleet, rows, settings, penalties) -> IdlePlan:
         cost = rows.window.rms(per_row, r)
         lean = rows.window.leanest(per_row, r)
         cost = np.where((lean <= LEAN_GUARD + 1e-12) & np.repeat(ok, s_count, axis=0).reshape(len(r), -1), cost, np.inf)
+        # where nothing is safe in a session, the richest candidate that exists is taken (and flagged):
+        # the largest pilot within reach with the screw at its richest position
+        cost = cost.reshape(len(r), len(offsets), positions.shape[1])
+        nothing = ~np.isfinite(cost).any(axis=(1, 2))
+        if nothing.any():
+            rich_p = len(offsets) - 1 - np.argmax(exists[:, ::-1], axis=1)  # (b,)
+            rich_q = positions.shape[1] - 1 - np.argmax(np.isfinite(positions)[:, ::-1], axis=1)
+            rows_b = np.repeat(np.arange(b), s_count)
+            idx = np.flatnonzero(nothing)
+            cost[idx, rich_p[rows_b[idx]], rich_q[rows_b[idx]]] = _FALLBACK_COST
         start_pilot = np.where(sizes[fitted] == pilot.current[first], PILOT_REACH, -1)  # fitted not a size: -1
-        p_choice, q_choice, bad = idle_sequence(cost.reshape(b, s_count, len(offsets), positions.shape[1]),
+        p_choice, q_choice, _ = idle_sequence(cost.reshape(b, s_count, len(offsets), positions.shape[1]),
                                                 start_pilot, screw_now[first], positions,
                                                 penalties["pilot_jet"], penalties["mixture_screw"])
         bikes = np.repeat(np.arange(b), s_count)
@@ -104,7 +115,7 @@ def plan_idle(fleet, rows, settings, penalties) -> IdlePlan:
         pilot.index[r] = cand[bikes, pc]
         pilot.recommended[r] = cand_size[bikes, pc]
         screw_new[r] = positions[bikes, qc]
-        unsafe[r] = bad.ravel()
+        unsafe[r] = nothing
         delivered_all[r] = delivered[bikes, pc, qc]
     pilot.unsafe = unsafe
     pilot.delivered = jet_factor(pilot)

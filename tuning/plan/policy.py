@@ -97,6 +97,15 @@ def flat_sequence(cost, start, penalty):
     return choice, unsafe
 
 
+def _unstuck(value, fallback):
+    """Where a bike has no finite value (the moves allowed reach no allowed state: the only
+    candidate left is a fallback the screw rule forbids), take ``fallback`` instead."""
+    stuck = ~np.isfinite(value).reshape(value.shape[0], -1).any(axis=1)
+    if stuck.any():
+        value = np.where(stuck[:, None, None], fallback + _BIG, value)
+    return value
+
+
 def _richest_argmin(value):
     """Argmin along the last axis; exact ties go to the richer (later) candidate."""
     k = value.shape[-1]
@@ -179,12 +188,17 @@ def idle_sequence(cost, start_pilot, start_turns, screw_positions, pilot_penalty
     screw_ok = ~screw_change | (moved >= SCREW_MIN_MOVE - 1e-9)
     entry = (pilot_penalty * pilot_change[:, :, None] + screw_penalty * screw_change[:, None, :]
              + np.where(screw_ok, 0.0, np.inf)[:, None, :])
-    value = cost[:, 0] + entry
+    value = _unstuck(cost[:, 0] + entry, cost[:, 0])
     from_p = np.zeros((b, s_count, p_count, q_count), np.int64)
     from_q = np.zeros((b, s_count, p_count, q_count), np.int64)
     for s in range(1, s_count):
         best, from_p[:, s], from_q[:, s] = transition(value)
-        value = cost[:, s] + best
+        new = cost[:, s] + best
+        stuck = ~np.isfinite(new).reshape(b, -1).any(axis=1)
+        if stuck.any():  # no allowed move reaches an allowed state: come from the best previous state
+            prev = np.argmin(value.reshape(b, -1), axis=1)
+            from_p[stuck, s], from_q[stuck, s] = (x[stuck, None, None] for x in np.divmod(prev, q_count))
+        value = _unstuck(new, cost[:, s] + np.nanmin(np.where(np.isfinite(value), value, np.inf).reshape(b, -1), axis=1)[:, None, None])
     pilot = np.zeros((b, s_count), np.int64)
     screw = np.zeros((b, s_count), np.int64)
     last = _richest_argmin(value.reshape(b, -1))
