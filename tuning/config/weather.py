@@ -66,7 +66,7 @@ from tuning.config.fleet import (
     station_pressures,
     station_pressure_problem,
 )
-from tuning.config.limits import MAX_METAR_REPORTS, MAX_WEATHER_ROWS
+from tuning.config.limits import MAX_WEATHER_ROWS
 from tuning.config.source import display_name, read_text
 from tuning.config.spec import Context, did_you_mean
 from tuning.config.units import UnitProblem, convert_numbers, parse_quantity

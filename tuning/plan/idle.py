@@ -42,11 +42,6 @@ class IdlePlan:
     delivered: np.ndarray
 
 
-def screw_sign(kind):
-    """+1 where turning out richens (fuel screw), -1 where it leans (air screw)."""
-    return np.where(np.asarray(kind) == "fuel", 1.0, -1.0)
-
-
 def _screw_positions(screws) -> np.ndarray:
     """(B, Q) candidate screw positions per bike [turns out], richest last, NaN-padded."""
     rows = []
@@ -73,7 +68,6 @@ def plan_idle(fleet, rows, settings, penalties) -> IdlePlan:
     screw_new = screw_now.copy()
     unsafe = np.zeros(n, bool)
     delivered_all = np.ones(n)
-    effect = carb.ASSUMED_SCREW_EFFECT_PER_TURN
     for name in sorted(set(pilot.family.tolist())):
         r = np.flatnonzero(pilot.family == name)
         fam = fleet.jet_families[name]
@@ -86,9 +80,9 @@ def plan_idle(fleet, rows, settings, penalties) -> IdlePlan:
         exists = (cand >= 0) & (cand < len(sizes))
         cand_size = sizes[np.clip(cand, 0, len(sizes) - 1)]
         positions = _screw_positions([settings[i].mixture_screw for i in first])  # (b, Q)
-        sign = screw_sign([settings[i].mixture_screw.kind for i in first])
+        kinds = np.array([settings[i].mixture_screw.kind for i in first])
         pilot_factor = carb.area_factor_between_jets(pilot.current[first][:, None], cand_size, fam.coding)  # (b, P)
-        screw_factor = (1.0 + effect) ** (sign[:, None] * (positions - screw_now[first][:, None]))  # (b, Q)
+        screw_factor = carb.mixture_screw_area_factor(positions - screw_now[first][:, None], kinds[:, None])  # (b, Q)
         delivered = pilot_factor[:, :, None] * screw_factor[:, None, :]  # (b, P, Q)
         ok = exists[:, :, None] & np.isfinite(positions)[:, None, :]
         safe_value = np.where(ok, delivered, 1.0)

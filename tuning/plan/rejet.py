@@ -17,6 +17,7 @@ import warnings
 import numpy as np
 
 from tuning import air, carb
+from tuning.plan.document import jet_number
 from tuning.plan.window import LEAN_GUARD
 
 __all__ = ["SHIFT_RANGE_K", "rejet_thresholds"]
@@ -103,15 +104,10 @@ def rejet_thresholds(fleet, rows, hours, refs, meter, main):
     for r in range(n):
         g = group[r]
         if has_up[g]:
-            out["below"][r], out["below_jet"][r] = float(below[g]), _num(sizes_up[g])
+            out["below"][r], out["below_jet"][r] = float(below[g]), jet_number(sizes_up[g])
         if has_dn[g]:
-            out["above"][r], out["above_jet"][r] = float(above[g]), _num(sizes_dn[g])
+            out["above"][r], out["above_jet"][r] = float(above[g]), jet_number(sizes_dn[g])
     return out
-
-
-def _num(value):
-    value = float(value)
-    return int(value) if value.is_integer() else round(value, 2)
 
 
 def _runs(sizes):
