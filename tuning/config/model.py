@@ -207,3 +207,5 @@ class Event:
     source: Path | None = None
     change_policy: str | None = None  # overrides the fleet's
     change_threshold: float | None = None  # overrides the fleet's
+    units: str | None = None  # display units of the reports: "metric" or "us"; None: metric (the command line wins)
+    language: str | None = None  # language of the reports: "en" or "de"; None: en (the command line wins)

@@ -17,6 +17,7 @@ from pathlib import Path
 import jinja2
 
 from tuning import __version__
+from tuning.display import METRIC_EN, Display
 from tuning.errors import BuildError, UserError
 from tuning.gcpause import gc_paused
 from tuning.report import charts, tables
@@ -162,10 +163,11 @@ def _reference_text(ref: dict) -> str:
             f"density altitude {n(ref['density_altitude_m'], 0, 'm')}, fuel {ref['fuel']}")
 
 
-def _common(plan: dict, paper: str, title: str, page_numbers: bool = True) -> dict:
+def _common(plan: dict, paper: str, title: str, page_numbers: bool = True, display: Display = METRIC_EN) -> dict:
     from tuning.report import CAUTIONS
 
     return {
+        "d": display, "_": display._, "lang": display.language,
         "plan": plan, "css": page_css(paper, f"carbfleet {__version__} · {title}", page_numbers), "stamp": _stamp(plan),
         "version": __version__,
         "cautions": CAUTIONS, "ref_text": _reference_text(plan["reference"]),
@@ -182,7 +184,7 @@ LAYOUTS = (("normal", 0), ("compact", 0), ("tight", 0), ("tight", 1), ("tight", 
 
 
 def sheet_html(plan: dict, entries: list[dict], paper: str = "a4", density: str = "normal",
-               chart_svg: str | None = None, condense: int = 0) -> str:
+               chart_svg: str | None = None, condense: int = 0, display: Display = METRIC_EN) -> str:
     """The setup sheet of one bike (its plan entries, session order) as a self-contained HTML page.
 
     ``density`` (``normal``, ``compact``, ``tight``) shrinks type and chart so a crowded sheet
@@ -194,7 +196,7 @@ def sheet_html(plan: dict, entries: list[dict], paper: str = "a4", density: str 
     bike = entries[0]["bike"]
     rows = tables.sheet_rows(entries, index["records"].get(bike), index["work"].get(bike, ()), condense)
     # One page by design: no "page n of m" footer (it costs WeasyPrint a second layout pass).
-    context = _common(plan, paper, f"{plan['event']} · sheet {entries[0]['bike']}", page_numbers=False)
+    context = _common(plan, paper, f"{plan['event']} · sheet {entries[0]['bike']}", page_numbers=False, display=display)
     if chart_svg is None:
         chart_svg = charts.to_svg(charts.mixture_spec(entries))
     context.update(s=rows, chart_src=charts.svg_data_uri(chart_svg), density=density,
@@ -212,18 +214,18 @@ def _index(plan: dict) -> dict:
     return _INDEX[1]
 
 
-def summary_html(plan: dict, paper: str = "a4", links: bool = True) -> str:
+def summary_html(plan: dict, paper: str = "a4", links: bool = True, display: Display = METRIC_EN) -> str:
     """The fleet summary as a self-contained HTML page."""
-    context = _common(plan, paper, f"{plan['event']} · fleet summary")
+    context = _common(plan, paper, f"{plan['event']} · fleet summary", display=display)
     names = safe_file_names([e["bike"] for e in plan["entries"]])
     context.update(r=tables.summary_rows(plan, names), chart_svg=charts.to_svg(charts.weather_chart(plan)),
                    links=links)
     return environment().get_template("summary.html.j2").render(**context)
 
 
-def index_html(plan: dict, notebooks: list[str]) -> str:
+def index_html(plan: dict, notebooks: list[str], display: Display = METRIC_EN) -> str:
     """The folder's front page: links to the summary, the print pack, every sheet and the data."""
-    context = _common(plan, "a4", plan["event"])
+    context = _common(plan, "a4", plan["event"], display=display)
     names = safe_file_names([e["bike"] for e in plan["entries"]])
     context.update(r=tables.summary_rows(plan, names), notebooks=notebooks)
     return environment().get_template("index.html.j2").render(**context)
