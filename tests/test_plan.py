@@ -414,3 +414,25 @@ def test_recommended_clip_never_leaves_mid_range_lean(elevation, celsius, clip):
     # same property on the invented tapered needle, over sites and temperatures
     doc = one_bike_plan(bike_kwargs={"clip": clip}, elevation=elevation, celsius=celsius)
     assert _worst_mid_range_lean(doc) <= plan.CLIP_LEAN_LIMIT + 0.01
+
+
+def test_power_against_the_j1349_standard_is_one_base_for_every_bike():
+    """The sessions' power figure has one base for the whole fleet: SAE J1349's standard
+    conditions (25 degC, 99 kPa dry air; SAE J1349 Aug 2004). At exactly those conditions the
+    correction factor is 1 (the standard's definition), so the figure is 100 % and within range;
+    at 1650 m the dry-air pressure (about 83 kPa) lies below the standard's 90 kPa."""
+    import numpy as np
+
+    from tuning import air
+    from tuning.plan.document import _j1349_power
+
+    standard = air.air_state(np.array([298.15]), np.array([99_000.0]), relative_humidity=np.array([0.0]))
+    got = _j1349_power(standard, slice(0, 1))
+    assert got["power_vs_sae_j1349_pct"] == pytest.approx(100.0, abs=0.15)  # the formula uses 298 K, not 298.15 K
+    assert got["sae_j1349_within_range"] is True
+    with pytest.warns(air.OutOfRangeWarning):
+        high = air.air_state(np.array([288.15]), np.array([83_500.0]), relative_humidity=np.array([0.5]))
+    got = _j1349_power(high, slice(0, 1))
+    assert got["sae_j1349_within_range"] is False
+    assert got["power_vs_sae_j1349_pct"] < 90.0
+

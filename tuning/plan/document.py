@@ -12,7 +12,7 @@ from zoneinfo import ZoneInfo
 
 import numpy as np
 
-from tuning import __version__, air, carb
+from tuning import __version__, air, carb, constants
 from tuning.gcpause import gc_paused
 from tuning.plan.clip import MODE_ASSUMED, MODE_NONE, THROTTLE
 from tuning.plan.hours import air_at, epoch
@@ -138,6 +138,8 @@ def assemble(fleet, event, rows, hours, refs, main, idle, clip, curves, rejet, a
         "air_temperature_C", "station_pressure_hPa", "relative_humidity_pct", "moist_air_density_kg_m3",
         "dry_air_density_kg_m3", "density_altitude_m")}} for i in range(len(hours.times))]
     stats = _session_stats(hours, s_count)
+    for d, stat in zip(session_dicts, stats):
+        d.update(power_vs_sae_j1349_pct=stat["power_vs_sae_j1349_pct"], sae_j1349_within_range=stat["sae_j1349_within_range"])
     pilot = idle.pilot
     main_steps, pilot_steps = _steps(fleet, main), _steps(fleet, pilot)
     req_r = np.round(rows.required, 4)
@@ -195,6 +197,7 @@ def assemble(fleet, event, rows, hours, refs, main, idle, clip, curves, rejet, a
                     "density_altitude_m_min": stat["density_altitude_m_min"], "density_altitude_m_max": stat["density_altitude_m_max"],
                     "area_factor_min": f_min[r], "area_factor_mean": f_mean[r], "area_factor_max": f_max[r],
                     "power_vs_reference_pct": power[r],
+                    "air_density_vs_reference_pct": round(100.0 * (stat["moist_air_density"] / float(refs.moist[int(refs.of_bike[b])]) - 1.0), 1),
                 },
                 "settings": {"main_jet": main_out, "pilot_jet": pilot_out, "clip": clip_out, "mixture_screw": screw_out,
                              "float_level_mm": None if st.float_level is None else round(st.float_level * 1000.0, 2)},
@@ -252,8 +255,22 @@ def _session_stats(hours, s_count):
             "relative_humidity_pct_mean": rounded(np.mean(hours.air.relative_humidity[sl]) * 100.0, 1),
             "density_altitude_m_min": rounded(np.min(hours.air.density_altitude[sl]), 0),
             "density_altitude_m_max": rounded(np.max(hours.air.density_altitude[sl]), 0),
+            "moist_air_density": float(np.mean(hours.air.moist_air_density[sl])),
+            **_j1349_power(hours.air, sl),
         })
     return out
+
+
+def _j1349_power(state, sl) -> dict:
+    """One base for the whole fleet: the power the air allows against SAE J1349's standard
+    conditions (25 °C, 99 kPa dry air) [%], the mean of 1 / correction factor over the hours,
+    and whether every hour lies within the range the standard is stated for."""
+    cf = np.asarray(state.sae_j1349_cf, float)[sl]
+    t = np.asarray(state.air_temperature, float)[sl]
+    p_dry = (np.asarray(state.station_pressure, float) - np.asarray(state.vapour_pressure, float))[sl]
+    (t_lo, t_hi), (p_lo, p_hi) = constants.SAE_J1349_AIR_TEMPERATURE_RANGE, constants.SAE_J1349_DRY_AIR_PRESSURE_RANGE
+    within = bool(np.all((t >= t_lo) & (t <= t_hi) & (p_dry >= p_lo) & (p_dry <= p_hi)))
+    return {"power_vs_sae_j1349_pct": rounded(100.0 * np.mean(1.0 / cf), 1), "sae_j1349_within_range": within}
 
 
 def _sources(allocation, rows, fleet):
