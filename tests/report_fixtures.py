@@ -158,7 +158,8 @@ def make_plan(n_bikes: int = 3, n_sessions: int = 2, bike_ids: list[str] | None 
     for s in range(n_sessions):
         start = day + dt.timedelta(hours=2 * s)
         sessions.append({"name": f"Session {chr(65 + s)}", "start": start.isoformat(),
-                         "end": (start + dt.timedelta(hours=1, minutes=30)).isoformat()})
+                         "end": (start + dt.timedelta(hours=1, minutes=30)).isoformat(),
+                         "power_vs_sae_j1349_pct": round(84.0 - s, 1), "sae_j1349_within_range": False})  # invented
     n_hours = 2 * n_sessions + 1
     weather = []
     for h in range(n_hours):
@@ -228,6 +229,7 @@ def make_plan(n_bikes: int = 3, n_sessions: int = 2, bike_ids: list[str] | None 
                     "density_altitude_m_max": max(h["density_altitude_m"] for h in hours),
                     "area_factor_min": min(af), "area_factor_mean": round(sum(af) / 3, 4),
                     "area_factor_max": max(af), "power_vs_reference_pct": round(85.5 - s, 1),
+                    "air_density_vs_reference_pct": round(-13.0 - s, 1),  # invented
                 },
                 "settings": {
                     "main_jet": main, "pilot_jet": pilot,

@@ -142,11 +142,16 @@ def test_sheet_pdf_shows_the_bikes_work_order_and_jet_sources(demo, tmp_path):
         entries = by_bike[bike]
         render.write_sheet(demo, entries, tmp_path / "s.html", tmp_path / "s.pdf", "a4")
         text = squeezed(pypdf.PdfReader(tmp_path / "s.pdf").pages[0].extract_text())
-        for order, row in work[bike]:
-            assert squeezed(tables._label(order["label"])) in text
+        page = (tmp_path / "s.html").read_text(encoding="utf-8")
+        form = page[page.index('<table class="form">'):]
+        rows = form.split("<tr>")
+        for order, row in work[bike]:  # in the form: the row of the session it comes before, or the last
+            where = order["before_session"] or "After the event"
+            form_row = next(r for r in rows if f"<strong>{html.escape(where)}</strong>" in r)
             for change in row["changes"]:
                 assert squeezed(f"{change['text']} — {tables.minutes(change['minutes'])}") in text, change["text"]
-        assert squeezed("after the event: back to the proven settings") in text.replace("After", "after")
+                assert html.escape(change["text"]) in form_row
+        assert "returned_to_proven" in form and squeezed("Returned to proven settings") in text
         cells = read_cells((tmp_path / "s.html").read_text(encoding="utf-8"))
         for i, e in enumerate(entries):
             for key in ("main_jet", "pilot_jet"):
@@ -183,9 +188,14 @@ def test_every_sheet_of_the_scenarios_is_one_page(scenario, paper, request, tmp_
     render.render_setup_sheets(plan, tmp_path, paper=paper)
     for bike, stem in names_of(plan).items():
         pages = pypdf.PdfReader(tmp_path / "sheets" / f"{stem}.pdf").pages
-        assert len(pages) == 1, (scenario, paper, bike)
-        text = squeezed(pages[0].extract_text())
-        assert squeezed(CAUTIONS[-40:]) in text  # the last words on the page are still on it
+        if scenario == "demo":
+            assert len(pages) == 1, (scenario, paper, bike)
+        else:  # crowded with danger: one page, or the form on a clean second page under the bike id
+            assert len(pages) in (1, 2), (scenario, paper, bike)
+            if len(pages) == 2:
+                assert pages[1].extract_text().split()[0] == bike
+        text = squeezed(pages[-1].extract_text())
+        assert squeezed(CAUTIONS[-40:]) in text  # the last words of the sheet are still on it
 
 
 def test_condensed_sheet_names_every_session_of_a_warning():

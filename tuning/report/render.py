@@ -156,35 +156,49 @@ def _stamp(plan: dict) -> str:
     return plan["sessions"][0]["start"] if plan.get("sessions") else "2000-01-01T00:00:00+00:00"
 
 
-def _reference_text(ref: dict) -> str:
-    n = tables.number
-    return (f"{n(ref['elevation_m'], 0, 'm')} elevation, {n(ref['air_temperature_C'], 0, '°C')}, "
-            f"{n(ref['station_pressure_hPa'], 0, 'hPa')} station pressure, {n(ref['relative_humidity_pct'], 0, '%')} humidity, "
-            f"density altitude {n(ref['density_altitude_m'], 0, 'm')}, fuel {ref['fuel']}")
+def _reference_text(ref: dict, d: Display = METRIC_EN) -> str:
+    return d._("%(elevation)s elevation, %(temperature)s, %(pressure)s station pressure, %(humidity)s humidity, "
+               "density altitude %(altitude)s, fuel %(fuel)s") % {
+        "elevation": d.elevation(ref["elevation_m"]), "temperature": d.temperature(ref["air_temperature_C"]),
+        "pressure": d.pressure(ref["station_pressure_hPa"]), "humidity": d.percent(ref["relative_humidity_pct"]),
+        "altitude": d.elevation(ref["density_altitude_m"]), "fuel": ref["fuel"]}
 
 
 def _common(plan: dict, paper: str, title: str, page_numbers: bool = True, display: Display = METRIC_EN) -> dict:
+    from tuning import constants
     from tuning.report import CAUTIONS
 
+    d = display
+    (t_lo, t_hi), (p_lo, p_hi) = constants.SAE_J1349_AIR_TEMPERATURE_RANGE, constants.SAE_J1349_DRY_AIR_PRESSURE_RANGE
     return {
-        "d": display, "_": display._, "lang": display.language,
+        "d": d, "_": d._, "lang": d.language,
         "plan": plan, "css": page_css(paper, f"carbfleet {__version__} · {title}", page_numbers), "stamp": _stamp(plan),
         "version": __version__,
-        "cautions": CAUTIONS, "ref_text": _reference_text(plan["reference"]),
-        "site_elevation": tables.number(plan["site"]["elevation_m"], 0, "m"),
+        "cautions": d._(CAUTIONS), "ref_text": _reference_text(plan["reference"], d),
+        "site_elevation": d.elevation(plan["site"]["elevation_m"]),
+        "j1349_t_range": f"{d.temperature(t_lo - 273.15, unit=False)}…{d.temperature(t_hi - 273.15)}",
+        "j1349_p_range": f"{d.pressure(p_lo / 100.0, unit=False)}…{d.pressure(p_hi / 100.0)}",
     }
 
 
-DENSITIES = ("normal", "compact", "tight")
+DENSITIES = ("normal", "compact", "tight", "compact split", "tight split")
+
+
+def pages_allowed(density: str) -> int:
+    """Pages a sheet of this layout may take: 1, or 2 where the form moves to a second page."""
+    return 2 if "split" in density.split() else 1
 #: The layouts tried in turn until a sheet fits one page: (density, condense level). The last
 #: ones name the repeats of a warning in later sessions instead of writing them out (every session
 #: stays named), and at last give the notes by code alone; the plan files and the fleet summary
 #: keep every message.
-LAYOUTS = (("normal", 0), ("compact", 0), ("tight", 0), ("tight", 1), ("tight", 2), ("tight", 3))
+#: The last resort (many sessions, long notes, many warnings): the hand-filled form on a second
+#: page that repeats the bike id.
+LAYOUTS = (("normal", 0), ("compact", 0), ("tight", 0), ("tight", 1), ("tight", 2), ("tight", 3),
+           ("compact split", 0), ("tight split", 0), ("tight split", 3))
 
 
 def sheet_html(plan: dict, entries: list[dict], paper: str = "a4", density: str = "normal",
-               chart_svg: str | None = None, condense: int = 0, display: Display = METRIC_EN) -> str:
+               condense: int = 0, display: Display = METRIC_EN) -> str:
     """The setup sheet of one bike (its plan entries, session order) as a self-contained HTML page.
 
     ``density`` (``normal``, ``compact``, ``tight``) shrinks type and chart so a crowded sheet
@@ -194,13 +208,11 @@ def sheet_html(plan: dict, entries: list[dict], paper: str = "a4", density: str 
     """
     index = _index(plan)
     bike = entries[0]["bike"]
-    rows = tables.sheet_rows(entries, index["records"].get(bike), index["work"].get(bike, ()), condense)
+    rows = tables.sheet_rows(entries, index["records"].get(bike), index["work"].get(bike, ()), condense,
+                             display, plan.get("sessions", ()))
     # One page by design: no "page n of m" footer (it costs WeasyPrint a second layout pass).
     context = _common(plan, paper, f"{plan['event']} · sheet {entries[0]['bike']}", page_numbers=False, display=display)
-    if chart_svg is None:
-        chart_svg = charts.to_svg(charts.mixture_spec(entries))
-    context.update(s=rows, chart_src=charts.svg_data_uri(chart_svg), density=density,
-                   ref_text=_reference_text(entries[0]["reference"]))
+    context.update(s=rows, density=density, ref_text=_reference_text(entries[0]["reference"], display))
     return environment().get_template("sheet.html.j2").render(**context)
 
 
@@ -255,11 +267,10 @@ def write_pdf(html: str, path: Path, base_url: Path) -> Path:
 
 def write_sheet(plan: dict, entries: list[dict], html_path: Path, pdf_path: Path, paper: str = "a4") -> int:
     """Write one bike's sheet as HTML and PDF, on one page if any density allows; return pages."""
-    chart_svg = charts.to_svg(charts.mixture_spec(entries))
     for density, condense in LAYOUTS:
-        html = sheet_html(plan, entries, paper, density, chart_svg, condense)
+        html = sheet_html(plan, entries, paper, density, condense)
         document = layout(html, pdf_path.parent)
-        if len(document.pages) == 1:
+        if len(document.pages) <= pages_allowed(density):
             break
     html_path.write_text(html, encoding="utf-8")
     document.write_pdf(str(pdf_path))

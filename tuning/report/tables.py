@@ -6,32 +6,30 @@ import datetime as dt
 from collections import OrderedDict
 
 from tuning.air import ICING_RISK_NAMES
+from tuning.display import METRIC_EN, N_, Display
 from tuning.plan.notices import CODES, SEVERITIES, severity_rank
 
 CIRCUITS = (
-    ("main_jet", "Main jet"),
-    ("pilot_jet", "Pilot jet"),
-    ("clip", "Needle clip"),
-    ("mixture_screw", "Mixture screw"),
+    ("main_jet", N_("Main jet")),
+    ("pilot_jet", N_("Pilot jet")),
+    ("clip", N_("Needle clip")),
+    ("mixture_screw", N_("Mixture screw")),
 )
-_DAYS = ("Mon", "Tue", "Wed", "Thu", "Fri", "Sat", "Sun")
-_MONTHS = ("Jan", "Feb", "Mar", "Apr", "May", "Jun", "Jul", "Aug", "Sep", "Oct", "Nov", "Dec")
+_DAYS = (N_("Mon"), N_("Tue"), N_("Wed"), N_("Thu"), N_("Fri"), N_("Sat"), N_("Sun"))
+_MONTHS = (N_("Jan"), N_("Feb"), N_("Mar"), N_("Apr"), N_("May"), N_("Jun"), N_("Jul"), N_("Aug"), N_("Sep"),
+           N_("Oct"), N_("Nov"), N_("Dec"))
 _QUARTERS = {0: "", 1: "¼", 2: "½", 3: "¾"}
 
 #: What the sheets, the summary and ``carbfleet plan`` say where a fleet keeps no stock list.
-NO_STOCK_LIST = "no stock list kept"
+NO_STOCK_LIST = N_("no stock list kept")
 
 
-def number(value, digits: int = 0, unit: str = "", signed: bool = False) -> str:
+def number(value, digits: int = 0, unit: str = "", signed: bool = False, display: Display = METRIC_EN) -> str:
     """Format a number for print with ``digits`` decimals; ``None`` shows as an en dash."""
-    if value is None:
-        return "–"
-    text = f"{value:+.{digits}f}" if signed else f"{value:.{digits}f}"
-    text = text.replace("-", "−")
-    return f"{text} {unit}".rstrip() if unit else text
+    return display.number(value, digits, unit, signed)
 
 
-def turns(value) -> str:
+def turns(value, display: Display = METRIC_EN) -> str:
     """Format mixture-screw turns in quarters where exact (1.5 -> "1½"), else with 2 decimals."""
     if value is None:
         return "–"
@@ -40,7 +38,7 @@ def turns(value) -> str:
         whole, part = divmod(quarters, 4)
         text = (str(whole) if whole or not part else "") + _QUARTERS[part]
         return ("−" if value < 0 else "") + text
-    return number(value, 2)
+    return display.number(value, 2)
 
 
 def clock(iso: str) -> str:
@@ -48,18 +46,19 @@ def clock(iso: str) -> str:
     return dt.datetime.fromisoformat(iso).strftime("%H:%M")
 
 
-def day(iso: str) -> str:
-    """``2026-06-13T08:00:00+01:00`` -> ``Sat 13 Jun 2026`` (no locale dependence)."""
+def day(iso: str, display: Display = METRIC_EN, year: bool = True) -> str:
+    """``2026-06-13T08:00:00+01:00`` -> ``Sat 13 Jun 2026`` (the display's language, not the machine's)."""
     t = dt.datetime.fromisoformat(iso)
-    return f"{_DAYS[t.weekday()]} {t.day} {_MONTHS[t.month - 1]} {t.year}"
+    text = f"{display._(_DAYS[t.weekday()])} {t.day} {display._(_MONTHS[t.month - 1])}"
+    return f"{text} {t.year}" if year else text
 
 
-def window(start: str, end: str) -> str:
-    """A session window for print: ``Sat 13 Jun 2026 08:00–09:30``."""
+def window(start: str, end: str, display: Display = METRIC_EN) -> str:
+    """A session window for print: ``Sat 13 Jun 08:00–09:30``."""
     a, b = dt.datetime.fromisoformat(start), dt.datetime.fromisoformat(end)
     if a.date() == b.date():
-        return f"{day(start)[:-5]} {clock(start)}–{clock(end)}"
-    return f"{day(start)} {clock(start)} – {day(end)} {clock(end)}"
+        return f"{day(start, display, year=False)} {clock(start)}–{clock(end)}"
+    return f"{day(start, display)} {clock(start)} – {day(end, display)} {clock(end)}"
 
 
 def entries_by_bike(plan: dict) -> "OrderedDict[str, list[dict]]":
@@ -195,7 +194,7 @@ def condensed(rows: list[dict], severities) -> list[dict]:
     return out
 
 
-def _checks(entries: list[dict], condense: int) -> list[str]:
+def _checks(entries: list[dict], condense: int, d: Display = METRIC_EN) -> list[str]:
     """The sessions' checks, each once; condensed, a check of the same kind (the words before its
     first colon, e.g. ``Choke``) in later sessions is named, not written out again."""
     found: OrderedDict[str, list[str]] = OrderedDict()
@@ -213,51 +212,161 @@ def _checks(entries: list[dict], condense: int) -> list[str]:
         else:
             kinds[kind] = text
             out[text] = []
-    return [f"{text} (also in {', '.join(later)}, with its own figures)" if later else text
-            for text, later in out.items()]
+    return [d._("%(check)s (also in %(sessions)s, with its own figures)") % {"check": text, "sessions": ", ".join(later)}
+            if later else text for text, later in out.items()]
 
 
-def sheet_rows(entries: list[dict], record: dict | None = None, work=None, condense: int = 0) -> dict:
+#: The boxes filled in by hand on a sheet, by their data names: the fleet types them back in
+#: later. One home: the sheet's form and any reader of the filled-in sheets use these names.
+FORM_FIELDS = {
+    "changes_done": N_("changes done (tick each)"),
+    "plug_colour": N_("plug colour"),
+    "rider_remark": N_("rider remark"),
+    "initials": N_("initials"),
+    "fitted_main_jet": N_("main jet"),
+    "fitted_pilot_jet": N_("pilot jet"),
+    "fitted_clip": N_("clip groove"),
+    "fitted_screw_turns": N_("screw, turns out"),
+    "returned_to_proven": N_("returned to proven settings"),
+}
+
+#: Throttle ranges of the verdicts, with the circuit that mostly meters there (common practice,
+#: a rough division: the circuits overlap).
+THROTTLE_RANGES = (
+    (0.0, 0.25, N_("closed to ¼"), N_("pilot, screw")),
+    (0.25, 0.75, N_("¼ to ¾"), N_("needle, clip")),
+    (0.75, 1.0, N_("¾ to full"), N_("main")),
+)
+
+
+def air_words(pct, d: Display) -> str:
+    """How thin the air is against home (where the settings were proven): ``air 14 % thinner than home``."""
+    if pct is None:
+        return "–"
+    if abs(pct) < 0.5:
+        return d._("air as dense as at home")
+    template = d._("air %(pct)s thinner than home") if pct < 0 else d._("air %(pct)s denser than home")
+    return template % {"pct": d.percent(abs(pct))}
+
+
+def change_headline(settings: dict, d: Display) -> list[str]:
+    """The changes against the proven settings in a mechanic's words: ``main 2 sizes smaller``."""
+    parts = []
+    for key, word in (("main_jet", N_("main")), ("pilot_jet", N_("pilot"))):
+        steps = settings[key].get("steps") or 0
+        if steps:
+            template = (d.n_("%(part)s %(n)s size larger", "%(part)s %(n)s sizes larger", abs(steps)) if steps > 0
+                        else d.n_("%(part)s %(n)s size smaller", "%(part)s %(n)s sizes smaller", abs(steps)))
+            parts.append(template % {"part": d._(word), "n": abs(steps)})
+    clip = settings["clip"]
+    if clip.get("steps"):
+        n = abs(clip["steps"])
+        template = (d.n_("clip %(n)s groove richer", "clip %(n)s grooves richer", n) if clip.get("direction") == "richer"
+                    else d.n_("clip %(n)s groove leaner", "clip %(n)s grooves leaner", n))
+        parts.append(template % {"n": n})
+    screw = settings["mixture_screw"]
+    turned = screw.get("change_turns") or 0
+    if turned:
+        kind = d._("air screw") if screw.get("kind") == "air" else d._("fuel screw")
+        template = d._("%(screw)s %(turns)s out") if turned > 0 else d._("%(screw)s %(turns)s in")
+        amount = d.n_("%(n)s turn", "%(n)s turns", 1 if abs(turned) <= 1 else 2) % {"n": turns(abs(turned), d)}
+        parts.append(template % {"screw": kind, "turns": amount})
+    return parts
+
+
+def verdicts(entry: dict, d: Display) -> list[dict]:
+    """One verdict per throttle range for the recommended settings, in the session's leanest hour:
+    in the target band, richer than it (safe), or leaner than it (act before riding hard)."""
+    curve = entry["mixture_curve"]
+    lo, hi = curve["target_band_afr"]
+    out = []
+    for start, end, name, circuit in THROTTLE_RANGES:
+        afr = [a for t, a in zip(curve["throttle"], curve["recommended_afr"]) if start - 1e-9 <= t <= end + 1e-9]
+        out.append(dict(_verdict(min(afr), max(afr), lo, hi, d), range=d._(name), circuit=d._(circuit)))
+    proven = curve["current_afr"]
+    out.append(dict(_verdict(min(proven), max(proven), lo, hi, d), range=d._("proven settings"), circuit=""))
+    return out
+
+
+def _verdict(richest: float, leanest: float, lo: float, hi: float, d: Display) -> dict:
+    """``LEAN 13.1`` (leaner than the band somewhere: the leanest ratio), ``rich 11.6`` (richer
+    than the band: the richest), or ``ok 12.0…12.4`` (within it)."""
+    if leanest > hi + 1e-9:
+        return {"kind": "lean", "text": d._("LEAN %(afr)s") % {"afr": d.number(leanest, 1)}}
+    if richest < lo - 1e-9:
+        return {"kind": "rich", "text": d._("rich %(afr)s") % {"afr": d.number(richest, 1)}}
+    low, high = d.number(richest, 1), d.number(leanest, 1)
+    return {"kind": "ok", "text": d._("ok %(afr)s") % {"afr": low if low == high else f"{low}…{high}"}}
+
+
+def _form_rows(entries: list[dict], work, d: Display) -> list[dict]:
+    """The hand-filled form: per session the changes planned before it (a tick each), then the
+    return to the proven settings after the event."""
+    before = {order.get("before_session"): row for order, row in (work or ())}
+    after = next((row for order, row in (work or ()) if order.get("before_session") is None), None)
+    rows = []
+    for e in entries:
+        row = before.get(e["session"])
+        rows.append({"session": e["session"], "window": window(e["start"], e["end"], d),
+                     "minutes": minutes(row["minutes"]) if row else "",
+                     "changes": [{"text": c["text"], "minutes": minutes(c["minutes"])} for c in row["changes"]] if row else []})
+    return rows, ([{"text": c["text"], "minutes": minutes(c["minutes"])} for c in after["changes"]] if after else [])
+
+
+def sheet_rows(entries: list[dict], record: dict | None = None, work=None, condense: int = 0,
+               display: Display = METRIC_EN, plan_sessions=()) -> dict:
     """Everything one bike's setup sheet shows, formatted, from that bike's plan entries.
 
     ``record`` is the bike's item of the plan's ``bikes`` (its notices, its danger flag) and
     ``work`` its rows of the plan's ``work_orders`` as :func:`plan_index` gives them. ``condense``
     (an index of :data:`CONDENSE_LEVELS`) shortens repeated warnings on a crowded sheet.
+    ``plan_sessions`` are the plan's ``sessions`` (their power against SAE J1349's standard air).
     """
+    d = display
     first = entries[0]
+    by_name = {x["name"]: x for x in plan_sessions}
     sessions = []
     for e in entries:
         sm = e["summary"]
+        common = by_name.get(e["session"], {})
+        changes = change_headline(e["settings"], d)
         sessions.append({
-            "name": e["session"], "window": window(e["start"], e["end"]),
-            "air_temperature": f"{number(sm['air_temperature_C_min'], 0)}…{number(sm['air_temperature_C_max'], 0)} °C",
-            "station_pressure": number(sm["station_pressure_hPa_mean"], 0, "hPa"),
-            "relative_humidity": number(sm["relative_humidity_pct_mean"], 0, "%"),
-            "density_altitude": f"{number(sm['density_altitude_m_min'], 0)}…{number(sm['density_altitude_m_max'], 0)} m",
-            "area_factor": f"{number(sm['area_factor_min'], 3)}…{number(sm['area_factor_max'], 3)}",
-            "area_factor_mean": number(sm["area_factor_mean"], 3),
-            "power": number(e["power_vs_reference_pct"], 0, "%"),
+            "name": e["session"], "window": window(e["start"], e["end"], d),
+            "air_words": air_words(sm.get("air_density_vs_reference_pct"), d),
+            "do": ", ".join(changes) if changes else d._("proven settings, nothing to change"),
+            "changed": bool(changes),
+            "air_temperature": d.temperature_span(sm["air_temperature_C_min"], sm["air_temperature_C_max"]),
+            "station_pressure": d.pressure(sm["station_pressure_hPa_mean"]),
+            "relative_humidity": d.percent(sm["relative_humidity_pct_mean"]),
+            "density_altitude": d.elevation_span(sm["density_altitude_m_min"], sm["density_altitude_m_max"]),
+            "air_vs_home": d.percent(sm.get("air_density_vs_reference_pct"), signed=True),
+            "factor": f"{d.number(sm['area_factor_mean'], 3)} ({d.number(sm['area_factor_min'], 3)}…{d.number(sm['area_factor_max'], 3)})",
+            "power": d.percent(common.get("power_vs_sae_j1349_pct")),
+            "power_in_range": common.get("sae_j1349_within_range", True),
+            "verdicts": verdicts(e, d),
         })
     circuits = []
     for key, label in CIRCUITS:
         s0 = first["settings"][key]
-        title, detail = label, ""
+        title, detail = d._(label), ""
         if key in ("main_jet", "pilot_jet"):
-            detail = f"family {s0['family']}"
+            detail = d._("family %(family)s") % {"family": s0["family"]}
         elif key == "clip":
-            title = "Needle clip groove"
-            detail = (f"needle {_text(s0.get('needle'))}, {s0['grooves']} grooves, 1 = top" if s0.get("grooves")
-                      else f"needle {_text(s0.get('needle'))}, grooves not on record")
+            title = d._("Needle clip groove")
+            detail = (d._("needle %(needle)s, %(n)s grooves, 1 = top") % {"needle": _text(s0.get("needle")), "n": s0["grooves"]}
+                      if s0.get("grooves") else d._("needle %(needle)s, grooves not on record") % {"needle": _text(s0.get("needle"))})
         elif key == "mixture_screw":
-            title = f"{'Air' if s0['kind'] == 'air' else 'Fuel'} screw, turns out"
+            title = d._("Air screw, turns out") if s0["kind"] == "air" else d._("Fuel screw, turns out")
             low, high = (s0.get("usable_range") or [None, None])[:2]
-            detail = f"usable {turns(low)}–{turns(high)} turns"
+            detail = d._("usable %(low)s–%(high)s turns") % {"low": turns(low, d), "high": turns(high, d)}
         cells = []
         for i, e in enumerate(entries):
             s = e["settings"][key]
             source, to_order = _source_text(key, entries, i)
+            value = _circuit_value(key, s, "recommended", unit=False)
+            repeat = i > 0 and cells[-1]["recommended"] == value  # the words once, where it changes
             cells.append({
-                "recommended": _circuit_value(key, s, "recommended", unit=False), "change": s["change"],
+                "recommended": value, "change": "" if repeat else s["change"],
                 "changed": _changed(key, s), "source": source, "to_order": to_order,
             })
         circuits.append({"key": key, "label": title, "detail": detail, "current": _circuit_value(key, s0, "current", unit=False), "cells": cells})
@@ -267,36 +376,47 @@ def sheet_rows(entries: list[dict], record: dict | None = None, work=None, conde
         r = e["rejet_temperatures_C"]
         parts = []
         if r.get("below") is not None:
-            parts.append(f"below {number(r['below'], 0)} °C fit {r['below_jet'] if r.get('below_jet') is not None else 'the next larger size'}")
+            jet = r["below_jet"] if r.get("below_jet") is not None else d._("the next larger size")
+            parts.append(d._("below %(t)s fit %(jet)s") % {"t": d.temperature(r["below"]), "jet": jet})
         if r.get("above") is not None:
-            parts.append(f"above {number(r['above'], 0)} °C fit {r['above_jet'] if r.get('above_jet') is not None else 'the next smaller size'}")
-        rejet.append({"session": e["session"], "text": "; ".join(parts) if parts else "no change within the forecast"})
-    checks = _checks(entries, condense)
+            jet = r["above_jet"] if r.get("above_jet") is not None else d._("the next smaller size")
+            parts.append(d._("above %(t)s fit %(jet)s") % {"t": d.temperature(r["above"]), "jet": jet})
+        text = "; ".join(parts) if parts else d._("no change within the forecast")
+        if rejet and rejet[-1]["text"] == text:  # the same as the session before: one line for both
+            rejet[-1]["names"].append(e["session"])
+        else:
+            rejet.append({"names": [e["session"]], "text": text})
+    for r in rejet:
+        r["session"] = d._("all sessions") if len(r["names"]) == len(entries) > 1 else ", ".join(r["names"])
+    checks = _checks(entries, condense, d)
     all_sessions = [e["session"] for e in entries]
     grouped = _grouped_warnings(entries)
     warning_rows = []
     for (severity, code, message), names in grouped.items():
         warning_rows.append({"severity": severity, "code": code, "message": message, "session_list": names,
-                             "sessions": "all sessions" if names == all_sessions else ", ".join(names)})
+                             "sessions": d._("all sessions") if names == all_sessions else ", ".join(names)})
     for w in (record or {}).get("notices", []):  # about the bike's records: once, whatever the session
         warning_rows.append({"severity": w["severity"], "code": w["code"], "message": w["message"],
-                             "session_list": [], "sessions": "the bike's records"})
+                             "session_list": [], "sessions": d._("the bike's records")})
     warning_rows.sort(key=lambda w: severity_rank(w["severity"]))  # stable: danger, action, note
     warning_rows = condensed(warning_rows, CONDENSE_LEVELS[condense])
     if condense >= NOTES_BY_CODE_LEVEL:
         warning_rows = [dict(w, message="") if w["severity"] == "note" else w for w in warning_rows]
+    for w in warning_rows:
+        w["severity_text"] = d._(w["severity"])
     danger = [w for w in warning_rows if w["severity"] == "danger"]
+    form, back = _form_rows(entries, work, d)
     return {
         "bike": first["bike"], "model": first["model"], "notes": first.get("notes") or "",
         "strokes": first["strokes"], "premix_ratio": first.get("premix_ratio"),
-        "density_exponent": first["density_exponent"], "reference": first["reference"],
+        "density_exponent": d.number(first["density_exponent"], 2), "reference": first["reference"],
         "sessions": sessions, "circuits": circuits,
-        "float_level": number(float_levels[0], 1, "mm") if float_levels[0] is not None else "not given",
+        "power_out_of_range": not all(x["power_in_range"] for x in sessions),
+        "float_level": d.number(float_levels[0], 1, "mm") if float_levels[0] is not None else d._("not given"),
         "rejet": rejet, "checks": checks, "danger": danger, "notes_by_code": condense >= NOTES_BY_CODE_LEVEL,
         "warnings": [w for w in warning_rows if w["severity"] != "danger"],
-        "work": [{"label": _label(order["label"]), "minutes": minutes(row["minutes"]),
-                  "changes": [{"text": c["text"], "minutes": minutes(c["minutes"])} for c in row["changes"]]}
-                 for order, row in (work or ())],
+        "form": form, "back_to_proven": back, "fields": FORM_FIELDS,
+        "band": first["mixture_curve"]["target_band_afr"],
         "stock_kept": any(e["settings"][k].get("in_stock") is not None for e in entries for k in ("main_jet", "pilot_jet")),
     }
 
