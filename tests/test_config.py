@@ -13,7 +13,7 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from tuning.config import load_event, load_fleet, model
+from tuning.config import display_for, load_event, load_fleet, model
 from tuning.errors import ConfigError
 
 DEMO = Path(__file__).resolve().parent.parent / "tuning" / "demo"
@@ -218,6 +218,40 @@ def test_screw_kind(demo):
     text = edit(demo / FLEET, "mixture_screw: {kind: fuel, turns: 1.75", "mixture_screw: {kind: idle, turns: 1.75")
     p = find(problems(load_fleet, demo / FLEET), "models.trail-450-4s.settings.mixture_screw.kind")
     assert "expected one of air, fuel, got 'idle'" in p.message and p.line == line_of(text, "kind: idle")
+
+
+def test_event_display_settings_are_read(demo, fleet):
+    event = load_event(DEMO / EVENT, fleet)
+    assert event.units is None and event.language is None  # left out: the command decides
+    edit(demo / EVENT, "fuel: e10", "units: us\nlanguage: de\nfuel: e10")
+    event = load_event(demo / EVENT, fleet)
+    assert (event.units, event.language) == ("us", "de")
+
+
+@pytest.mark.parametrize("key, bad, choices", [("units", "imperial", "metric, us"), ("language", "fr", "en, de")])
+def test_event_display_setting_outside_its_choices(demo, fleet, key, bad, choices):
+    text = edit(demo / EVENT, "fuel: e10", f"{key}: {bad}\nfuel: e10")
+    found = problems(load_event, demo / EVENT, fleet)
+    p = find(found, key)
+    assert len(found) == 1 and p.line == line_of(text, f"{key}: {bad}")
+    assert f"expected one of {choices}, got '{bad}'" in p.message
+    assert str(p).startswith(f"{demo / EVENT}:{p.line}: {key}: ")
+
+
+# The rule: the command line, else the event file, else metric and English.
+@pytest.mark.parametrize("in_file, given, expected", [
+    ((None, None), (None, None), ("metric", "en")),
+    (("us", "de"), (None, None), ("us", "de")),
+    (("us", "de"), ("metric", "en"), ("metric", "en")),
+    ((None, "de"), ("us", None), ("us", "de")),
+])
+def test_display_for_command_line_then_event_file_then_default(fleet, in_file, given, expected):
+    from dataclasses import replace
+
+    event = replace(load_event(DEMO / EVENT, fleet), units=in_file[0], language=in_file[1])
+    display = display_for(event, units=given[0], language=given[1])
+    assert (display.units, display.language) == expected
+    assert display_for(None, *given) == display_for(replace(event, units=None, language=None), *given)
 
 
 def test_unknown_key_did_you_mean(demo):

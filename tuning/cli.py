@@ -12,9 +12,33 @@ import signal
 import sys
 
 from tuning import __version__
+from tuning.display import N_
 from tuning.errors import CarbfleetError, UserError
 
 EXIT_OK, EXIT_BUILD, EXIT_USER = 0, 1, 2
+
+
+# --- display units and language ----------------------------------------------------------
+def add_display_options(p, event_file: bool = True) -> None:
+    """``--units`` and ``--language``: what people read; the JSON and CSV files stay SI."""
+    from tuning.display import LANGUAGES, UNIT_SYSTEMS
+
+    wins = "; wins over units in the event file" if event_file else ""
+    p.add_argument("--units", choices=UNIT_SYSTEMS, default=None,
+                   help="units of what is shown: metric (degC, m, hPa; the default) or us (degF, ft, inHg)"
+                   f"{wins}. JSON and CSV files stay SI, with the unit in each column name")
+    wins = "; wins over language in the event file" if event_file else ""
+    p.add_argument("--language", choices=LANGUAGES, default=None,
+                   help=f"language of what is shown: en (the default) or de (German, decimal comma){wins}")
+
+
+def _plain(display, value) -> str:
+    """A number as the plan document holds it (``172.5``, ``0.9323``), with the language's decimal
+    separator; text (a jet number as stamped) unchanged."""
+    if isinstance(value, bool) or not isinstance(value, (int, float)):
+        return str(value)
+    text = f"{value:g}".replace("-", "−")
+    return text.replace(".", ",") if display.language == "de" else text
 
 
 # --- air -------------------------------------------------------------------------------
@@ -29,7 +53,8 @@ def add_air_parser(sub) -> None:
         description="Air state at a site: station pressure, humidity, moist and dry-air density, "
         "pressure and density altitude, SAE J1349 power correction, carburetor icing risk. "
         "Values may carry a unit in quotes ('4400 ft', '75 degF', '29.92 inHg', '40 %'); bare numbers "
-        "are m, degC, hPa and %. Give exactly one pressure and one humidity.",
+        "are m, degC, hPa and %, whatever --units says (--units chooses how the table shows them). "
+        "Give exactly one pressure and one humidity.",
     )
     p.add_argument("--elevation", metavar="VALUE", help="site elevation above mean sea level (bare number: m)")
     p.add_argument("--temperature", metavar="VALUE", help="air temperature (bare number: degC)")
@@ -39,7 +64,9 @@ def add_air_parser(sub) -> None:
                    help="pressure reduced to mean sea level, as forecasts give it (bare number: hPa)")
     p.add_argument("--relative-humidity", metavar="VALUE", help="relative humidity over water (bare number: %%)")
     p.add_argument("--dew-point", metavar="VALUE", help="dew point (bare number: degC)")
-    p.add_argument("--json", action="store_true", help="print one JSON object instead of a table")
+    p.add_argument("--json", action="store_true",
+                   help="print one JSON object instead of a table (SI, the unit in each key, whatever --units says)")
+    add_display_options(p, event_file=False)
     p.set_defaults(func=cmd_air)
 
 
@@ -129,31 +156,51 @@ def cmd_air(args) -> int:
     if args.json:
         print(json.dumps(result, indent=2))
         return EXIT_OK
-    print(_air_table(result))
+    from tuning.config import display_for
+
+    print(_air_table(result, display_for(None, args.units, args.language)))
     return EXIT_OK
 
 
-def _air_table(result: dict) -> str:
-    """Plain-text table of the ``carbfleet air`` result (formatting only)."""
+# Words the table shows that come from elsewhere, marked here for the message catalogue:
+# the pressure kinds and tuning.air.ICING_RISK_NAMES.
+_AIR_WORDS = (N_("qnh"), N_("station"), N_("sea level"), N_("none"), N_("light"), N_("moderate"), N_("serious"))
+
+
+def _air_table(result: dict, display=None) -> str:
+    """Plain-text table of the ``carbfleet air`` result in ``display``'s units and language
+    (formatting only; ``result`` is SI as ``--json`` prints it)."""
+    from tuning.display import METRIC_EN
+
+    d = display or METRIC_EN
+    _ = d._
+    us = d.units == "us"
+
+    def number(value, digits):  # rounded first: a small negative value shows as 0, not −0
+        return d.number(round(value, digits) + 0.0, digits)
+
     rows = [
-        ("pressure given as", result["pressure_kind"].replace("_", " "), ""),
-        ("station pressure", f"{result['station_pressure_hPa']:.1f}", "hPa"),
-        ("air temperature", f"{result['air_temperature_C']:.1f}", "°C"),
-        ("dew point", "n/a" if result["dew_point_C"] is None else f"{result['dew_point_C']:.1f}", "°C"),
-        ("relative humidity", f"{result['relative_humidity_pct']:.0f}", "%"),
-        ("vapour pressure", f"{result['vapour_pressure_hPa']:.2f}", "hPa"),
-        ("moist-air density", f"{result['moist_air_density_kg_m3']:.4f}", "kg/m³"),
-        ("dry-air density (oxygen-carrying part)", f"{result['dry_air_density_kg_m3']:.4f}", "kg/m³"),
-        ("density against ISA sea level (1.225)", f"{result['density_ratio_isa'] * 100:.1f}", "%"),
-        ("pressure altitude", f"{result['pressure_altitude_m']:.0f}", "m"),
-        ("density altitude", f"{result['density_altitude_m']:.0f}", "m"),
-        ("SAE J1349 correction factor", f"{result['sae_j1349_cf']:.3f}", ""),
-        ("carburetor icing risk", result["icing_risk"], ""),
+        (_("pressure given as"), _(result["pressure_kind"].replace("_", " ")), ""),
+        (_("station pressure"), number(d.pressure_value(result["station_pressure_hPa"]), 2 if us else 1), d.pressure_unit),
+        (_("air temperature"), number(d.temperature_value(result["air_temperature_C"]), 1), d.temperature_unit),
+        (_("dew point"), _("n/a"), "") if result["dew_point_C"] is None
+        else (_("dew point"), number(d.temperature_value(result["dew_point_C"]), 1), d.temperature_unit),
+        (_("relative humidity"), number(result["relative_humidity_pct"], 0), "%"),
+        (_("vapour pressure"), number(d.pressure_value(result["vapour_pressure_hPa"]), 3 if us else 2), d.pressure_unit),
+        (_("moist-air density"), number(result["moist_air_density_kg_m3"], 4), "kg/m³"),
+        (_("dry-air density (oxygen-carrying part)"), number(result["dry_air_density_kg_m3"], 4), "kg/m³"),
+        (_("density against ISA sea level (1.225)"), number(result["density_ratio_isa"] * 100, 1), "%"),
+        (_("pressure altitude"), number(d.elevation_value(result["pressure_altitude_m"]), 0), d.elevation_unit),
+        (_("density altitude"), number(d.elevation_value(result["density_altitude_m"]), 0), d.elevation_unit),
+        (_("SAE J1349 correction factor"), number(result["sae_j1349_cf"], 3), ""),
+        (_("carburetor icing risk"), _(result["icing_risk"]), ""),
     ]
-    width = max(len(label) for label, _, _ in rows)
+    if result["elevation_m"] is not None:
+        rows.insert(1, (_("site elevation"), number(d.elevation_value(result["elevation_m"]), 0), d.elevation_unit))
+    width = max(len(label) for label, _value, _unit in rows)
     lines = [f"{label:<{width}}  {value:>8} {unit}".rstrip() for label, value, unit in rows]
-    lines += [f"note: {message}" for message in result["warnings"]]
-    lines.append("Estimates only: confirm jetting by a plug reading before hard riding.")
+    lines += [_("note: {message}").format(message=message) for message in result["warnings"]]
+    lines.append(_("Estimates only: confirm jetting by a plug reading before hard riding."))
     return "\n".join(lines)
 
 
@@ -221,7 +268,8 @@ def add_plan_parser(sub) -> None:
         help="compute the jetting of every bike for every session",
         description="Plan main jet, pilot jet, needle clip and mixture screw for every bike and session "
         "of an event, across the session's hourly weather. Writes recommendations.json, "
-        "recommendations.csv (units in the column names: degC, hPa, m, mm, turns) and pick-list.csv. "
+        "recommendations.csv (units in the column names: degC, hPa, m, mm, turns) and pick-list.csv; these "
+        "stay SI whatever --units says, which chooses the units of the lines printed. "
         "Estimates only: confirm by a plug reading before hard riding.",
     )
     p.add_argument("fleet", metavar="FLEET", help="fleet file (YAML)")
@@ -230,6 +278,7 @@ def add_plan_parser(sub) -> None:
                    help="output folder (created when missing); only the three plan files are written in it, "
                    "all new or all old, and an existing file of those names only when carbfleet wrote it")
     add_policy_option(p)
+    add_display_options(p)
     p.set_defaults(func=cmd_plan)
 
 
@@ -245,7 +294,7 @@ def cmd_plan(args) -> int:
     import warnings
     from pathlib import Path
 
-    from tuning.config import load_event, load_fleet
+    from tuning.config import display_for, load_event, load_fleet
     from tuning.config.spec import one_line
     from tuning.output import check_file_set
     from tuning.plan import PLAN_FILE_SIGNATURES, make_plan, write_plan_files
@@ -260,32 +309,43 @@ def cmd_plan(args) -> int:
     check_file_set(Path(args.out), PLAN_FILE_SIGNATURES)  # before the work: fail fast
     fleet = load_fleet(args.fleet)
     event = load_event(args.event, fleet)
+    display = display_for(event, args.units, args.language)
+    _ = display._
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
         plan = make_plan(fleet, event, policy_name=args.policy)
-    paths = write_plan_files(plan, args.out)
+    paths = write_plan_files(plan, args.out)  # SI, whatever the display
     for note in dict.fromkeys(str(w.message) for w in caught):  # one line each, no source echo
-        say(f"carbfleet plan: note: {note}", file=sys.stderr)
+        say("carbfleet plan: " + _("note: {note}").format(note=note), file=sys.stderr)
     entries = plan["entries"]
     changed = sum(
         1 for e in entries if any(e["settings"][k]["steps"] for k in ("main_jet", "pilot_jet", "clip"))
         or e["settings"]["mixture_screw"]["change_turns"]
     )
     to_order = sum(p["to_order"] or 0 for p in plan["pick_list"])
-    stock = tables.to_order_text(to_order) if tables.stock_kept(plan) else tables.NO_STOCK_LIST
-    say(f"{plan['fleet']} at {plan['event']} ({plan['site']['name']}, {plan['site']['elevation_m']:g} m): "
-        f"{len({e['bike'] for e in entries})} bikes x {len(plan['sessions'])} sessions, "
-        f"{changed} with changes, {plan['warnings_count']} warnings, {stock}")
+    # the words of tuning.report.tables.to_order_text and NO_STOCK_LIST, through the catalogue
+    ngettext = display.n_  # the name the catalogue's extractor looks for
+    stock = (ngettext("{count} jet to order", "{count} jets to order", to_order).format(count=to_order)
+             if tables.stock_kept(plan) else _("no stock list kept"))
+    bikes, sessions = len({e["bike"] for e in entries}), len(plan["sessions"])
+    say(_("{fleet} at {event} ({site}, {elevation}): {bikes} bikes x {sessions} sessions, {changed} with changes, "
+          "{warnings} warnings, {stock}").format(
+        fleet=plan["fleet"], event=plan["event"], site=plan["site"]["name"],
+        elevation=display.elevation(plan["site"]["elevation_m"]), bikes=bikes, sessions=sessions,
+        changed=changed, warnings=plan["warnings_count"], stock=stock))
+    row = _("main {main}  pilot {pilot}  clip {clip}  factor {factor}")
     for e in entries[:40]:
         m, pj, c = e["settings"]["main_jet"], e["settings"]["pilot_jet"], e["settings"]["clip"]
         clip = tables.number(None) if c["current"] is None else f"{c['current']}->{c['recommended']}"  # no needle on record
-        say(f"  {one_line(e['bike']):<10} {one_line(e['session']):<14} main {m['current']}->{m['recommended']}  "
-            f"pilot {pj['current']}->{pj['recommended']}  clip {clip}  factor {e['summary']['area_factor_mean']}"
+        moves = row.format(main=f"{_plain(display, m['current'])}->{_plain(display, m['recommended'])}",
+                           pilot=f"{_plain(display, pj['current'])}->{_plain(display, pj['recommended'])}",
+                           clip=clip, factor=_plain(display, e["summary"]["area_factor_mean"]))
+        say(f"  {one_line(e['bike']):<10} {one_line(e['session']):<14} {moves}"
             + (f"  [{', '.join(sorted({w['code'] for w in e['warnings']}))}]" if e["warnings"] else ""))
     if len(entries) > 40:
-        say(f"  ... and {len(entries) - 40} more rows in recommendations.csv")
+        say(_("  ... and {count} more rows in recommendations.csv").format(count=len(entries) - 40))
     for path in paths:
-        say(f"wrote {path}")
+        say(_("wrote {path}").format(path=path))
     return EXIT_OK
 
 
@@ -309,6 +369,7 @@ def add_build_parser(sub) -> None:
     p.add_argument("--workers", type=int, default=2, metavar="N",
                    help="notebook kernels rendering sheets in parallel, 1 to 8 (default 2)")
     add_policy_option(p)
+    add_display_options(p)
     p.set_defaults(func=cmd_build)
 
 
@@ -319,10 +380,13 @@ def cmd_build(args) -> int:
 
     from tuning.report import build
 
+    # Not given: the build takes the event file's setting (tuning.config.display_for). Only the
+    # options given are passed, so a build without them works with a pipeline that lacks them.
+    display = {k: v for k, v in (("units", args.units), ("language", args.language)) if v is not None}
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
         result = build(args.fleet, args.event, args.out, paper=args.paper, quiet=args.quiet,
-                       workers=args.workers, policy=args.policy)
+                       workers=args.workers, policy=args.policy, **display)
     for note in dict.fromkeys(str(w.message) for w in caught
                               if not issubclass(w.category, (DeprecationWarning, ResourceWarning))):
         print(one_line(f"carbfleet build: note: {note}"), file=sys.stderr)  # one line each, no source echo

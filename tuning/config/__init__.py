@@ -6,6 +6,7 @@ load_fleet(path) -> model.Fleet
 load_event(path, fleet=None) -> model.Event
 fleet_schema() -> dict, event_schema() -> dict   (JSON Schema, draft 2020-12)
 summarize(fleet, event=None) -> str              (what ``carbfleet check`` prints)
+display_for(event=None, units=None, language=None) -> tuning.display.Display
 
 Every problem of a file is raised at once as :class:`tuning.errors.ConfigError`, one line
 each: ``file:line: path.to.field: problem``.
@@ -22,8 +23,9 @@ import numpy as np
 from tuning.config import model
 from tuning.config.event import event_spec, load_event
 from tuning.config.fleet import fleet_spec, load_fleet
+from tuning.display import DEFAULT_LANGUAGE, DEFAULT_UNITS, Display
 
-__all__ = ["load_fleet", "load_event", "fleet_schema", "event_schema", "summarize", "model"]
+__all__ = ["load_fleet", "load_event", "fleet_schema", "event_schema", "summarize", "display_for", "model"]
 
 _DIALECT = "https://json-schema.org/draft/2020-12/schema"
 
@@ -36,6 +38,30 @@ def fleet_schema() -> dict:
 def event_schema() -> dict:
     """JSON Schema (draft 2020-12) of the event file (the weather CSV is described in its docs)."""
     return {"$schema": _DIALECT, "title": "carbfleet event file", **event_spec().schema()}
+
+
+def display_for(event: model.Event | None = None, units: str | None = None, language: str | None = None) -> Display:
+    """The display units and language of a command: the command line's, else the event file's,
+    else metric and English. The one home of that rule.
+
+    Parameters
+    ----------
+    event : tuning.config.model.Event, optional
+        The loaded event; its ``units`` and ``language`` (``None`` when the file leaves them out)
+        are used where the command line gives none.
+    units : {"metric", "us"}, optional
+        ``--units`` from the command line; ``None`` when not given.
+    language : {"en", "de"}, optional
+        ``--language`` from the command line; ``None`` when not given.
+
+    Returns
+    -------
+    tuning.display.Display
+    """
+    return Display(
+        units=units or (event.units if event is not None else None) or DEFAULT_UNITS,
+        language=language or (event.language if event is not None else None) or DEFAULT_LANGUAGE,
+    )
 
 
 def _celsius(kelvin: float) -> float:

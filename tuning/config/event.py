@@ -4,6 +4,9 @@ Session times are ISO 8601 in the site's local time (``site.time_zone``, an IANA
 time with an offset (``2026-06-13T09:00+02:00``) is taken as written. ``site.time_zone`` may
 be left out only when every session time (and every weather row) carries an offset.
 
+``units`` (metric or us) and ``language`` (en or de) choose how the reports show numbers and
+words; the command line's ``--units`` and ``--language`` win (:func:`tuning.config.display_for`).
+
 ``weather`` is either the path of a CSV table, relative to the event file (see
 :mod:`tuning.config.weather`), or ``{metar: [report, ...]}``.
 
@@ -26,6 +29,7 @@ from tuning.config.limits import MAX_BIKE_HOURS, MAX_BIKE_SESSIONS, MAX_METAR_RE
 from tuning.config.source import display_name, load_yaml
 from tuning.config.spec import (
     INVALID,
+    Choice,
     Context,
     Either,
     Field,
@@ -37,6 +41,7 @@ from tuning.config.spec import (
     known_list,
 )
 from tuning.config.weather import MAX_GAP, parse_local_time, read_metar, read_weather_csv
+from tuning.display import LANGUAGES, UNIT_SYSTEMS
 from tuning.errors import ConfigError
 
 __all__ = ["load_event", "event_spec"]
@@ -49,6 +54,11 @@ SESSION = Obj(
     },
     description="A riding session.",
 )
+
+UNITS = Choice(UNIT_SYSTEMS, "Units of what people read (sheets, summary, index, terminal): metric (degC, m, hPa; "
+               "the default) or us (degF, ft, inHg). The JSON and CSV files stay SI. The command line's --units wins.")
+LANGUAGE = Choice(LANGUAGES, "Language of what people read: en (English, the default) or de (German, with a "
+                  "decimal comma). The command line's --language wins.")
 
 
 def event_spec() -> Obj:
@@ -83,6 +93,8 @@ def event_spec() -> Obj:
                 ),
                 True,
             ),
+            "units": Field(UNITS),
+            "language": Field(LANGUAGE),
         },
         description="A carbfleet event file.",
     )
@@ -204,6 +216,8 @@ def load_event(path, fleet: model.Fleet | None = None) -> model.Event:
         source=Path(path),
         change_policy=raw.get("change_policy"),
         change_threshold=raw.get("change_threshold"),
+        units=raw.get("units"),
+        language=raw.get("language"),
     )
 
 
