@@ -86,6 +86,8 @@ class Display:
         a true minus sign, no thousands separator; ``None`` shows as an en dash."""
         if value is None:
             return "–"
+        if round(value, digits) == 0:
+            value = 0.0  # no "−0" for a small negative value
         text = f"{value:+.{digits}f}" if signed else f"{value:.{digits}f}"
         text = text.replace("-", "−")
         if self.language == "de":

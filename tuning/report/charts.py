@@ -11,77 +11,18 @@ import altair as alt
 import vl_convert
 
 from tuning.config.spec import one_line
+from tuning.display import METRIC_EN, Display
 
-# Black-and-white readable: current and recommended differ by dash, not only by colour.
-_SETTING_DASH = alt.Scale(domain=["current", "recommended"], range=[[6, 3], [1, 0]])
-_GREYS = ["#111111", "#555555", "#888888", "#333333", "#777777", "#222222"]
-
-
-_LO, _HI = -98765.0, 98765.0  # placeholders for the y domain in the cached specification
-
-
-@lru_cache(maxsize=8)
-def _mixture_template(sessions: tuple[str, ...], width: int, height: int) -> str:
-    """The mixture chart built once with Altair for these session names, data left out (JSON)."""
-    x = alt.X("throttle:Q", title="throttle opening", axis=alt.Axis(format="%", tickCount=5),
-              scale=alt.Scale(domain=[0, 1], nice=False))
-    scale = alt.Scale(domain=[_LO, _HI], nice=False, zero=False)
-    band = alt.Chart(alt.NamedData(name="band")).mark_rect(color="#dddddd").encode(
-        y=alt.Y("lo:Q", scale=scale), y2="hi:Q")
-    reference = alt.Chart(alt.NamedData(name="reference")).mark_rule(
-        color="#000000", strokeWidth=0.8, strokeDash=[2, 2]).encode(y="afr:Q")
-    lines = alt.Chart(alt.NamedData(name="curves")).mark_line(strokeWidth=1.6).encode(
-        x=x, y=alt.Y("afr:Q", title="air–fuel ratio", scale=scale),
-        strokeDash=alt.StrokeDash("setting:N", scale=_SETTING_DASH, title="setting"),
-        color=alt.Color("session:N", scale=alt.Scale(range=_GREYS), title="session", sort=list(sessions)),
-        detail="session:N",
-    )
-    chart = alt.layer(band, reference, lines).properties(
-        width=width, height=height, padding={"left": 2, "top": 4, "right": 16, "bottom": 2}).configure_axis(
-        labelFontSize=9, titleFontSize=9).configure_legend(labelFontSize=9, titleFontSize=9).configure_view(
-        strokeWidth=0.5)
-    return json.dumps(chart.to_dict(validate=False))
-
-
-def _mixture_rows(entries: list[dict]) -> tuple[list[dict], float, float]:
-    """The plan's ``mixture_curve`` of each entry as chart rows, and the target band."""
-    rows = []
-    for e in entries:
-        curve = e["mixture_curve"]
-        for setting, key in (("current", "current_afr"), ("recommended", "recommended_afr")):
-            for throttle, afr in zip(curve["throttle"], curve[key]):
-                rows.append({"throttle": throttle, "afr": afr, "setting": setting, "session": e["session"]})
-    lo, hi = entries[0]["mixture_curve"]["target_band_afr"]
-    return rows, lo, hi
-
-
-def mixture_spec(entries: list[dict], width: int = 400, height: int = 95) -> dict:
-    """Vega-Lite specification: air–fuel ratio against throttle opening, current and recommended.
-
-    Draws the plan's ``mixture_curve`` of each entry (one bike, every session) over the target
-    band ``target_band_afr`` and the bike's reference mixture ``reference_afr``. The Altair
-    objects are built once per set of session names (building them costs ~0.3 s) and only the
-    data change from bike to bike.
-    """
-    rows, lo, hi = _mixture_rows(entries)
-    values = [r["afr"] for r in rows] + [lo, hi]
-    text = _mixture_template(tuple(e["session"] for e in entries), width, height)
-    text = text.replace(repr(_LO), repr(min(values) - 0.3)).replace(repr(_HI), repr(max(values) + 0.3))
-    spec = json.loads(text)
-    spec["datasets"] = {"curves": rows, "band": [{"lo": lo, "hi": hi}],
-                        "reference": [{"afr": entries[0]["mixture_curve"]["reference_afr"]}]}
-    return spec
-
-
-def weather_chart(plan: dict, width: int = 560, height: int = 110) -> alt.VConcatChart:
-    """Density altitude and required jet-area factor over time, with the sessions shaded."""
+def weather_chart(plan: dict, display: Display = METRIC_EN, width: int = 560, height: int = 110) -> alt.VConcatChart:
+    """Density altitude (display units) and the air-only jet-area factor over time, sessions shaded."""
+    d = display
     def stamp(iso: str) -> str:  # Vega-Lite reads naive local time: keep the site's clock
         return dt.datetime.fromisoformat(iso).replace(tzinfo=None).isoformat()
 
-    rows = [{"time": stamp(w["time"]), "density_altitude_m": w["density_altitude_m"],
+    rows = [{"time": stamp(w["time"]), "density_altitude": d.elevation_value(w["density_altitude_m"]),
              "area_factor": w["area_factor"]} for w in plan["weather"]]
     windows = [{"start": stamp(s["start"]), "end": stamp(s["end"]), "session": s["name"]} for s in plan["sessions"]]
-    x = alt.X("time:T", title="site local time", axis=alt.Axis(format="%a %H:%M", labelFontSize=9))
+    x = alt.X("time:T", title=d._("site local time"), axis=alt.Axis(format="%d.%m. %H:%M" if d.language == "de" else "%a %H:%M", labelFontSize=9))
 
     def panel(field: str, title: str) -> alt.LayerChart:
         shade = alt.Chart(alt.Data(values=windows)).mark_rect(color="#e4e4e4").encode(x="start:T", x2="end:T")
@@ -90,9 +31,9 @@ def weather_chart(plan: dict, width: int = 560, height: int = 110) -> alt.VConca
         return alt.layer(shade, line).properties(width=width, height=height)
 
     return alt.vconcat(
-        panel("density_altitude_m", "density altitude [m]"),
-        panel("area_factor", "required jet-area factor"),
-    ).properties(title=alt.TitleParams("Weather across the sessions (shaded)", fontSize=10, anchor="start")
+        panel("density_altitude", d._("density altitude [%(unit)s]") % {"unit": d.elevation_unit}),
+        panel("area_factor", d._("jet-area factor, air only")),
+    ).properties(title=alt.TitleParams(d._("Weather across the sessions (shaded)"), fontSize=10, anchor="start")
                  ).configure_axis(labelFontSize=9, titleFontSize=9).configure_view(strokeWidth=0.5)
 
 

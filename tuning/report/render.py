@@ -230,7 +230,7 @@ def summary_html(plan: dict, paper: str = "a4", links: bool = True, display: Dis
     """The fleet summary as a self-contained HTML page."""
     context = _common(plan, paper, f"{plan['event']} · fleet summary", display=display)
     names = safe_file_names([e["bike"] for e in plan["entries"]])
-    context.update(r=tables.summary_rows(plan, names), chart_svg=charts.to_svg(charts.weather_chart(plan)),
+    context.update(r=tables.summary_rows(plan, names, display), chart_svg=charts.to_svg(charts.weather_chart(plan, display)),
                    links=links)
     return environment().get_template("summary.html.j2").render(**context)
 
@@ -239,7 +239,7 @@ def index_html(plan: dict, notebooks: list[str], display: Display = METRIC_EN) -
     """The folder's front page: links to the summary, the print pack, every sheet and the data."""
     context = _common(plan, "a4", plan["event"], display=display)
     names = safe_file_names([e["bike"] for e in plan["entries"]])
-    context.update(r=tables.summary_rows(plan, names), notebooks=notebooks)
+    context.update(r=tables.summary_rows(plan, names, display), notebooks=notebooks)
     return environment().get_template("index.html.j2").render(**context)
 
 

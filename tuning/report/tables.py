@@ -84,12 +84,13 @@ def _text(value) -> str:
     return "–" if value is None else f"{value}"
 
 
-def _circuit_value(key: str, s: dict, which: str, unit: bool = True) -> str:
+def _circuit_value(key: str, s: dict, which: str, unit: bool = True, display: Display = METRIC_EN) -> str:
     """A circuit's ``which`` ("current" or "recommended") setting for print."""
     if key == "clip":
-        return f"groove {_text(s[which])}" if unit else _text(s[which])
+        return display._("groove %(n)s") % {"n": _text(s[which])} if unit else _text(s[which])
     if key == "mixture_screw":
-        return f"{turns(s[which + '_turns'])} turns out" if unit else turns(s[which + "_turns"])
+        value = turns(s[which + "_turns"], display)
+        return display._("%(n)s turns out") % {"n": value} if unit else value
     return _text(s[which])
 
 
@@ -108,7 +109,7 @@ def _source_text(key: str, entries: list[dict], i: int) -> tuple[str, bool]:
         return "", False
     text = source["text"]
     if source["kind"] == "shelf-or-order":
-        text = f"{text} ({NO_STOCK_LIST})"
+        text = f"{text} ({NO_STOCK_LIST})"  # the plan's own words are English (see tuning.plan.notices)
     return text, source["kind"] == "order"
 
 
@@ -432,22 +433,25 @@ def change_set(entries: list[dict]) -> tuple:
     return tuple(work)
 
 
-def change_words(entries: list[dict]) -> list[str]:
+def change_words(entries: list[dict], display: Display = METRIC_EN) -> list[str]:
     """One short line per session: ``Session A: main 155 → 150, clip groove 3 → 2`` (or no change)."""
-    short = {"main_jet": "main", "pilot_jet": "pilot", "clip": "clip", "mixture_screw": "screw"}
+    d = display
+    short = {"main_jet": N_("main"), "pilot_jet": N_("pilot"), "clip": N_("clip"), "mixture_screw": N_("screw")}
     lines = []
     for e in entries:
         parts = []
         for key, _label in CIRCUITS:
             s = e["settings"][key]
             if _changed(key, s):
-                parts.append(f"{short[key]} {_circuit_value(key, s, 'current')} → {_circuit_value(key, s, 'recommended')}")
-        lines.append(f"{e['session']}: {', '.join(parts) if parts else 'no change'}")
+                parts.append(f"{d._(short[key])} {_circuit_value(key, s, 'current', display=d)} → "
+                             f"{_circuit_value(key, s, 'recommended', display=d)}")
+        lines.append(f"{e['session']}: {', '.join(parts) if parts else d._('no change')}")
     return lines
 
 
-def summary_rows(plan: dict, file_names: dict[str, str]) -> dict:
+def summary_rows(plan: dict, file_names: dict[str, str], display: Display = METRIC_EN) -> dict:
     """Everything the fleet summary shows, formatted, from the plan document."""
+    d = display
     by_bike = entries_by_bike(plan)
     index = plan_index(plan)
     records = index["records"]
@@ -455,7 +459,7 @@ def summary_rows(plan: dict, file_names: dict[str, str]) -> dict:
     batches: OrderedDict[tuple, list[str]] = OrderedDict()
     batch_words: dict[tuple, list[str]] = {}
     for bike, entries in by_bike.items():
-        words = change_words(entries)
+        words = change_words(entries, d)
         record = records.get(bike)
         bikes.append({"bike": bike, "model": entries[0]["model"], "changes": words,
                       "warnings": warning_count(entries, record), "danger": bool(record and record["danger"]),
@@ -475,32 +479,34 @@ def summary_rows(plan: dict, file_names: dict[str, str]) -> dict:
 
     weather = [{
         "session": session_of(w["time"]),
-        "time": f"{day(w['time'])[:-5]} {clock(w['time'])}",
-        "air_temperature": number(w["air_temperature_C"], 1),
-        "station_pressure": number(w["station_pressure_hPa"], 1),
-        "relative_humidity": number(w["relative_humidity_pct"], 0),
-        "dew_point": number(w["dew_point_C"], 1),
-        "density_altitude": number(w["density_altitude_m"], 0),
-        "area_factor": number(w["area_factor"], 3),
-        "sae_j1349_cf": number(w["sae_j1349_cf"], 3),
-        "icing_risk": f"{w['icing_risk']} ({ICING_RISK_NAMES[w['icing_risk']]})",
+        "time": f"{day(w['time'], d, year=False)} {clock(w['time'])}",
+        "air_temperature": d.temperature(w["air_temperature_C"], 1, unit=False),
+        "station_pressure": d.pressure(w["station_pressure_hPa"], unit=False, digits=2 if d.units == "us" else 1),
+        "relative_humidity": d.number(w["relative_humidity_pct"], 0),
+        "dew_point": d.temperature(w["dew_point_C"], 1, unit=False),
+        "density_altitude": d.elevation(w["density_altitude_m"], unit=False),
+        "area_factor": d.number(w["area_factor"], 3),
+        "power": d.number(100.0 / w["sae_j1349_cf"], 0) if w.get("sae_j1349_cf") else "–",
+        "icing_risk": f"{w['icing_risk']} ({d._(ICING_RISK_NAMES[w['icing_risk']])})",
     } for w in plan["weather"] if session_of(w["time"])]
-    sessions = [{"name": s["name"], "window": window(s["start"], s["end"])} for s in plan["sessions"]]
+    sessions = [{"name": s["name"], "window": window(s["start"], s["end"], d),
+                 "power": d.percent(s.get("power_vs_sae_j1349_pct")), "power_in_range": s.get("sae_j1349_within_range", True)}
+                for s in plan["sessions"]]
     kept = stock_kept(plan)
     to_order = sum(p["to_order"] or 0 for p in plan["pick_list"])
     pick_list = [dict(p, in_stock_text=_text(p["in_stock"]), to_order_text=_text(p["to_order"]))
                  for p in plan["pick_list"]]
     pick_list.sort(key=lambda p: -(p["to_order"] or 0))  # to order first, else the plan's order
     return {"bikes": bikes, "batches": batch_rows, "danger": danger_rows(plan, by_bike, file_names),
-            "warning_groups": warning_groups(plan, by_bike), "work_orders": work_order_rows(plan, file_names),
+            "warning_groups": warning_groups(plan, by_bike, d), "work_orders": work_order_rows(plan, file_names),
             "weather": weather, "sessions": sessions, "pick_list": pick_list, "stock_kept": kept,
             "to_order": to_order,
-            "stock_status": to_order_text(to_order) if kept else NO_STOCK_LIST}
+            "stock_status": to_order_text(to_order, d) if kept else d._(NO_STOCK_LIST)}
 
 
-def to_order_text(count: int) -> str:
+def to_order_text(count: int, display: Display = METRIC_EN) -> str:
     """``3 jets to order``, ``1 jet to order``: the pick list's to_order, summed."""
-    return f"{count} {'jet' if count == 1 else 'jets'} to order"
+    return display.n_("%(n)s jet to order", "%(n)s jets to order", count) % {"n": count}
 
 
 def danger_rows(plan: dict, by_bike: dict, file_names: dict[str, str]) -> list[dict]:
@@ -530,7 +536,7 @@ def danger_rows(plan: dict, by_bike: dict, file_names: dict[str, str]) -> list[d
     return rows
 
 
-def warning_groups(plan: dict, by_bike: dict) -> dict:
+def warning_groups(plan: dict, by_bike: dict, display: Display = METRIC_EN) -> dict:
     """The warnings by severity (danger, action, note), each distinct warning once with the bikes
     (and sessions, where not all of that bike's) it concerns; the bike notices among them.
 
@@ -559,9 +565,9 @@ def warning_groups(plan: dict, by_bike: dict) -> dict:
                 every = [e["session"] for e in by_bike.get(bike, [])]
                 where.append(bike if names is None or names == every else f"{bike} ({', '.join(names)})")
             rows.append({"code": code, "message": message, "where": where, "count": len(where)})
-        groups.append({"severity": severity, "title": severity.capitalize(), "count": count[severity], "rows": rows})
+        groups.append({"severity": severity, "title": display._(severity).capitalize(), "count": count[severity], "rows": rows})
     codes = list(dict.fromkeys(r["code"] for g in groups for r in g["rows"]))
-    return {"groups": groups, "legend": [{"code": c, "meaning": CODES[c][1]} for c in codes if c in CODES]}
+    return {"groups": groups, "legend": [{"code": c, "meaning": display._(CODES[c][1])} for c in codes if c in CODES]}
 
 
 def work_order_rows(plan: dict, file_names: dict[str, str]) -> list[dict]:
