@@ -7,7 +7,7 @@ PY      = $(VENV)/bin/python
 STAMP   = $(VENV)/.installed
 TESTSTAMP = $(VENV)/.installed-test
 
-.PHONY: demo test bench wheel-check clean distclean
+.PHONY: demo test bench wheel-check messages clean distclean
 
 $(VENV)/bin/python:
 	@$(PYTHON) -c 'import sys; sys.exit(0 if (3, 11) <= sys.version_info[:2] <= (3, 13) else "carbfleet needs Python 3.11 to 3.13")'
@@ -24,7 +24,9 @@ $(TESTSTAMP): pyproject.toml | $(VENV)/bin/python
 
 demo: $(STAMP)
 	$(VENV)/bin/carbfleet build tuning/demo/demo-fleet.yaml tuning/demo/demo-event.yaml --out out
-	@echo "open out/index.html, or print out/print-pack.pdf"
+	$(VENV)/bin/carbfleet build tuning/demo/demo-fleet.yaml tuning/demo/demo-event.yaml --out out-us --units us
+	$(VENV)/bin/carbfleet build tuning/demo/demo-fleet.yaml tuning/demo/demo-event.yaml --out out-de --language de
+	@echo "open out/index.html (metric, English), out-us/index.html (US units), out-de/index.html (German)"
 
 test: $(TESTSTAMP)
 	$(PY) -m pytest
@@ -37,8 +39,16 @@ bench: $(TESTSTAMP)
 wheel-check:
 	PYTHON=$(PYTHON) bash .ci/wheel-check
 
+# The message catalogue: extract every marked text, then merge it into the German catalogue
+# (translate the new entries in tuning/locale/de/LC_MESSAGES/carbfleet.po; tests fail on any left empty).
+messages: $(STAMP)
+	$(VENV)/bin/pybabel extract -F tuning/locale/babel.cfg -k _ -k N_ -k n_:1,2 --no-location --sort-output \
+		--omit-header -o tuning/locale/carbfleet.pot .
+	$(VENV)/bin/pybabel update -i tuning/locale/carbfleet.pot -d tuning/locale -D carbfleet -l de \
+		--no-fuzzy-matching
+
 clean:
-	rm -rf out .pytest_cache
+	rm -rf out out-us out-de .pytest_cache
 
 distclean: clean
 	rm -rf $(VENV) .venv-* *.egg-info build dist

@@ -17,7 +17,9 @@ build_from_plan(plan, out_dir, paper="a4", quiet=False, workers=2, ...) -> Build
 
 from __future__ import annotations
 
-CAUTIONS = (
+from tuning.display import N_
+
+CAUTIONS = N_(
     "Estimates only: confirm by a plug reading or a wideband oxygen sensor before hard riding. "
     "Between two sizes, choose the richer: a lean engine can seize or hole a piston. "
     "Work on a cold engine, away from sparks and flames, with fuel caught and good ventilation. "

@@ -20,6 +20,11 @@ _MONTHS = (N_("Jan"), N_("Feb"), N_("Mar"), N_("Apr"), N_("May"), N_("Jun"), N_(
            N_("Oct"), N_("Nov"), N_("Dec"))
 _QUARTERS = {0: "", 1: "¼", 2: "½", 3: "¾"}
 
+#: The words of :data:`tuning.air.ICING_RISK_NAMES` and :data:`tuning.plan.notices.SEVERITIES`,
+#: marked for the message catalogue (a test keeps them equal to their sources).
+ICING_WORDS = (N_("none"), N_("light"), N_("moderate"), N_("serious"))
+SEVERITY_WORDS = (N_("danger"), N_("action"), N_("note"))
+
 #: What the sheets, the summary and ``carbfleet plan`` say where a fleet keeps no stock list.
 NO_STOCK_LIST = N_("no stock list kept")
 
