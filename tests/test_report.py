@@ -287,3 +287,36 @@ def test_control_characters_in_names_never_reach_the_page():
     page = render_module.sheet_html(plan, entries)
     assert "\x1b" not in page and "\x07" not in page
     assert "T\\x1b[31m1\\x07" in page
+
+
+@pytest.mark.parametrize("paper", ["a4", "letter"])
+def test_eight_sessions_and_a_long_note_fit_one_page_or_a_clean_second(paper, tmp_path):
+    """Issue 10: up to 8 sessions and 300 characters of notes give one page per bike, or a
+    second page that starts with the bike id and holds only the hand-filled form."""
+    plan = report_fixtures.make_plan(n_bikes=2, n_sessions=8)
+    note = ("Idles high when hot; check the throttle cable free play before each session. " * 5)[:300]
+    for e in plan["entries"]:
+        e["notes"] = note
+    for bike, entries in tables.entries_by_bike(plan).items():
+        pages = render.write_sheet(plan, entries, tmp_path / "s.html", tmp_path / "s.pdf", paper)
+        reader = pypdf.PdfReader(tmp_path / "s.pdf")
+        assert pages == len(reader.pages) in (1, 2), bike
+        first = " ".join(reader.pages[0].extract_text().split())
+        for e in entries:  # every session's headline on the first page
+            assert e["session"] in first
+        assert note[:60] in first
+        if pages == 2:
+            second = reader.pages[1].extract_text().split()
+            assert second[0] == bike
+            assert "DANGER" not in " ".join(second)
+
+
+@pytest.mark.parametrize("n_bikes, n_sessions", [(3, 2), (12, 4), (40, 4)])
+def test_no_summary_page_holds_the_cautions_alone(n_bikes, n_sessions, tmp_path):
+    plan = report_fixtures.make_plan(n_bikes=n_bikes, n_sessions=n_sessions)
+    render.write_pdf(render.summary_html(plan, links=False), tmp_path / "s.pdf", tmp_path)
+    caution = " ".join(CAUTIONS.split())
+    for i, page in enumerate(pypdf.PdfReader(tmp_path / "s.pdf").pages):
+        text = " ".join(page.extract_text().split())
+        rest = text.replace(caution, "").replace("CAUTIONS.", "").replace("Cautions.", "")
+        assert len(rest) > 200, (i, text[:200])  # more on the page than the cautions and the footer
