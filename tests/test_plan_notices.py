@@ -221,3 +221,12 @@ def test_document_words_are_the_default_display():
     assert DOCUMENT.units == "metric" and DOCUMENT.language == "en"
     assert say("stock-shortage", {"part": "main_jet", "size": "150", "family": "f", "fitted": "155"}).startswith(
         "Main jet 150 (f)")
+
+
+def test_remembered_document_words_keep_apart_values_that_compare_equal():
+    # regression: the document's words are cached; 0.0 == -0.0 and 3 == 3.0 must still print apart
+    assert say("check/choke", {"t_min_C": 0.0}).startswith("Choke: cold air (0.0 °C")
+    assert say("check/choke", {"t_min_C": -0.0}).startswith("Choke: cold air (-0.0 °C")
+    assert "(1..3 turns)" in say("screw-out-of-range", {"screw": "air", "usable_low_turns": 1, "usable_high_turns": 3})
+    assert "(1.0..3.0 turns)" in say("screw-out-of-range", {"screw": "air", "usable_low_turns": 1.0,
+                                                           "usable_high_turns": 3.0})

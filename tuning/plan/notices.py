@@ -265,9 +265,9 @@ def say(text_id: str, params: dict | None = None, display: Display = DOCUMENT) -
     """
     if not params:
         return _said_alone(text_id, display)
-    if display is DOCUMENT:  # the plan's own words, many alike: remembered (types too: 3 and 3.0 differ)
-        try:
-            return _said_in_document(text_id, tuple((k, v.__class__, v) for k, v in params.items()))
+    if display is DOCUMENT:  # the plan's own words, many alike: remembered by what they print
+        try:  # (repr: 3 and 3.0, 0.0 and -0.0 are equal keys but print differently)
+            return _said_in_document(text_id, tuple((k, v, repr(v)) for k, v in params.items()))
         except TypeError:  # a nested text (a dict) among the parameters
             pass
     return _say(text_id, params, display)
@@ -292,7 +292,7 @@ def _said_alone(text_id: str, display: Display) -> str:
 
 @lru_cache(maxsize=4096)
 def _said_in_document(text_id: str, items: tuple) -> str:
-    return _say(text_id, {name: value for name, _kind, value in items}, DOCUMENT)
+    return _say(text_id, {name: value for name, value, _printed in items}, DOCUMENT)
 
 
 def said(text_id: str, params: dict | None = None, **fields) -> dict:
