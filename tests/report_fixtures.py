@@ -3,12 +3,15 @@
 Every value here is INVENTED: plausible numbers for N bikes x M sessions at an invented mountain
 site, made up so the report pipeline can be developed and tested without the physics. Nothing in
 this file is a physical result and no test may treat it as one; tests only check that the report
-shows what the document holds.
+shows what the document holds. Its words are the plan's own templates (tuning.plan.notices) filled
+with invented parameters, so that every text carries its id and parameters as the plan's do.
 """
 
 from __future__ import annotations
 
 import datetime as dt
+
+from tuning.plan.notices import said, warning
 
 FAMILY_SIZES = {
     "main-diameter": [140, 142, 145, 148, 150, 152, 155, 158, 160, 162, 165, 168, 170],
@@ -30,12 +33,11 @@ def _jet(family: str, current: int, steps: int, stock: bool | None, source: dict
     recommended = sizes[max(0, min(len(sizes) - 1, index + steps))]
     real_steps = sizes.index(recommended) - index
     if real_steps == 0:
-        change, direction = "no change", "no change"
+        change, direction = said("setting/no-change", key="change"), "no change"
     else:
-        word = "larger" if real_steps > 0 else "smaller"
         direction = "richer" if real_steps > 0 else "leaner"
-        n = abs(real_steps)
-        change = f"{n} size{'s' if n > 1 else ''} {word}: {direction}"
+        change = said("setting/jet-larger" if real_steps > 0 else "setting/jet-smaller", {"count": abs(real_steps)},
+                      key="change")
     at_hand = source["kind"] not in ("order", "shelf-or-order")
     return {
         "family": family, "coding": "diameter", "current": current,
@@ -43,23 +45,16 @@ def _jet(family: str, current: int, steps: int, stock: bool | None, source: dict
         "ideal_range": [round(recommended - 0.6, 1), round(recommended + 0.9, 1)],
         "recommended": recommended, "in_stock": None if stock is None else at_hand,
         "stock_choice": None if stock is None else (recommended if at_hand else None), "steps": real_steps,
-        "direction": direction, "change": change, "source": source,
+        "direction": direction, **change, "source": source,
     }
 
 
-#: Invented words for where a jet comes from, in the plan's shape (kind, origin, text).
-_SOURCE_TEXT = {"fitted": "already fitted", "own": "its own jet, kept from before", "bike": "off bike {origin}",
-                "shelf": "from the shelf", "order": "to order", "shelf-or-order": "from the shelf or to order"}
 WORK_MINUTES = {"mixture_screw": 2, "clip": 15, "main_jet": 10, "pilot_jet": 15}  # invented
-_PART = {"main_jet": "main jet", "pilot_jet": "pilot jet", "clip": "needle clip", "mixture_screw": "mixture screw"}
 
 
 def _source(kind: str, origin: str | None = None) -> dict:
-    return {"kind": kind, "origin": origin, "text": _SOURCE_TEXT[kind].format(origin=origin)}
-
-
-def _warning(code: str, severity: str, message: str) -> dict:
-    return {"code": code, "severity": severity, "message": message}
+    """Where a jet comes from, in the plan's shape (kind, origin, text, id, params)."""
+    return said(f"source/{kind}", {"origin": origin} if origin else {}, kind=kind, origin=origin)
 
 
 def _value(part: str, settings: dict, which: str):
@@ -71,15 +66,18 @@ def _value(part: str, settings: dict, which: str):
 def _change(part: str, old, new, source: dict | None, screw_kind: str) -> dict:
     if part == "mixture_screw":
         direction = "richer" if (new > old) == (screw_kind == "fuel") else "leaner"
-        text = f"{screw_kind} screw {abs(new - old):g} turn {'out' if new > old else 'in'} to {new:g} turns ({direction})"
+        text = said("work/screw-out" if new > old else "work/screw-in",
+                    {"screw": screw_kind, "by_quarter_turns": abs(new - old), "to_turns": new, "direction": direction})
     elif part == "clip":
         direction = "richer" if new > old else "leaner"
-        text = f"needle clip groove {old} → {new} ({direction})"
+        text = said("work/clip", {"from": old, "to": new, "direction": direction})
     else:
         direction = "richer" if new > old else "leaner"
-        text = f"{_PART[part]} {old} → {new} ({direction})" + (f", {source['text']}" if source else "")
+        words = {"part": part, "from": str(old), "to": str(new), "direction": direction}
+        text = (said("work/jet-from", {**words, "source": {"id": source["id"], "params": source["params"]}}) if source
+                else said("work/jet", words))
     return {"part": part, "from": old, "to": new, "direction": direction, "minutes": WORK_MINUTES[part],
-            "source": source, "text": text}
+            "source": source, **text}
 
 
 def _work_orders(entries_of: dict[str, list[dict]], sessions: list[dict]) -> list[dict]:
@@ -88,11 +86,11 @@ def _work_orders(entries_of: dict[str, list[dict]], sessions: list[dict]) -> lis
     n = len(sessions)
     for t in range(n + 1):
         if t == 0:
-            label = f"before {sessions[0]['name']}"
+            label = said("order/before", {"session": sessions[0]["name"]}, key="label")
         elif t == n:
-            label = "after the event: back to the proven settings"
+            label = said("order/after-event", key="label")
         else:
-            label = f"between {sessions[t - 1]['name']} and {sessions[t]['name']}"
+            label = said("order/between", {"previous": sessions[t - 1]["name"], "next": sessions[t]["name"]}, key="label")
         bikes = []
         for bike, entries in entries_of.items():
             changes = []
@@ -108,7 +106,7 @@ def _work_orders(entries_of: dict[str, list[dict]], sessions: list[dict]) -> lis
                 changes.append(_change(part, old, new, source, settings["mixture_screw"]["kind"]))
             if changes:
                 bikes.append({"bike": bike, "minutes": sum(c["minutes"] for c in changes), "changes": changes})
-        orders.append({"transition": t, "label": label, "after_session": sessions[t - 1]["name"] if t else None,
+        orders.append({"transition": t, **label, "after_session": sessions[t - 1]["name"] if t else None,
                        "before_session": sessions[t]["name"] if t < n else None,
                        "minutes": sum(b["minutes"] for b in bikes), "bikes": bikes})
     return orders
@@ -201,14 +199,16 @@ def make_plan(n_bikes: int = 3, n_sessions: int = 2, bike_ids: list[str] | None 
             screw_kind = "air" if strokes == 2 else "fuel"
             warnings = []
             if in_danger and stock and main["steps"]:
-                warnings.append(_warning("no-safe-jet", "danger", f"Fit main jet {main['recommended']} before riding "
-                                         f"hard: none is at hand, order it now (invented)."))
+                warnings.append(warning("no-safe-jet", "no-safe-jet/order", {
+                    "part": "main_jet", "size": str(main["recommended"]), "family": main["family"],
+                    "fitted": str(main["current"]), "lean_pct": 6}))
             if in_danger and s == 0:
-                warnings.append(_warning("predicted-lean", "danger", "Predicted mixture up to 6% leaner than the proven "
-                                         "one at 20%–40% throttle: richen the needle clip before riding hard (invented)."))
+                warnings.append(warning("predicted-lean", params={
+                    "lean_pct": 6, "throttle": {"id": "throttle/span", "params": {"low_pct": 20, "high_pct": 40}},
+                    "cure": {"id": "cure/clip-lower", "params": {}}}))
             if hours[0]["air_temperature_C"] < 10:
-                warnings.append(_warning("cold-start", "action", "cold morning: use the choke, warm up fully (invented)"))
-            warnings.append(_warning("icing-risk", "note", "Carburetor icing possible in cool, humid air (invented)."))
+                warnings.append(warning("cold-start", params={"start_C": hours[0]["air_temperature_C"]}))
+            warnings.append(warning("icing-risk"))
             af = [h["area_factor"] for h in hours]
             entry = {
                 "bike": bike, "model": f"Trail {125 if strokes == 2 else 250} {'2T' if strokes == 2 else '4T'} (invented)",
@@ -236,13 +236,16 @@ def make_plan(n_bikes: int = 3, n_sessions: int = 2, bike_ids: list[str] | None 
                     "clip": {"needle": "N-6 (invented)", "current": 3, "recommended": 2 if s % 2 == 0 else 3,
                              "steps": -1 if s % 2 == 0 else 0,
                              "direction": "leaner" if s % 2 == 0 else "no change",
-                             "change": "clip 1 groove higher: leaner" if s % 2 == 0 else "no change",
+                             **(said("setting/clip-higher", {"count": 1, "from": 3, "to": 2}, key="change") if s % 2 == 0
+                                else said("setting/no-change", key="change")),
                              "assumed_geometry": True, "grooves": 5},
                     "mixture_screw": {"kind": screw_kind, "current_turns": 1.5,
                                       "recommended_turns": 2.0 if screw_kind == "air" else 1.0,
                                       "change_turns": 0.5 if screw_kind == "air" else -0.5,
                                       "direction": "leaner",
-                                      "change": "screw ½ turn out: leaner" if screw_kind == "air" else "screw ½ turn in: leaner",
+                                      **said("setting/screw-out" if screw_kind == "air" else "setting/screw-in",
+                                             {"screw": screw_kind, "by_quarter_turns": 0.5, "direction": "leaner"},
+                                             key="change"),
                                       "usable_range": [1.0, 3.0], "range_assumed": True},
                     "float_level_mm": 8.0 if strokes == 4 else None,
                 },
@@ -256,20 +259,21 @@ def make_plan(n_bikes: int = 3, n_sessions: int = 2, bike_ids: list[str] | None 
                 "rejet_temperatures_C": {"below": 2.0, "below_jet": main["recommended"] + 3,
                                          "above": 31.0, "above_jet": None},
                 "power_vs_reference_pct": round(85.5 - s, 1),
-                "checks": ["check float level before fitting (invented)", "read the plug after the first session (invented)",
-                           "choke on a cold morning (invented)"],
+                "checks": [said("check/float-level", {"float_level_mm": 8.0}) if strokes == 4
+                           else said("check/float-level-unknown"), said("check/plug"),
+                           said("check/choke", {"t_min_C": min(h["air_temperature_C"] for h in hours)})],
                 "warnings": warnings,  # danger first, as the plan sorts them
             }
             entries.append(entry)
             entries_of.setdefault(bike, []).append(entry)
-        notices = [_warning("assumed-needle-geometry", "note", "needle geometry assumed from the model default (invented)"),
-                   _warning("assumed-screw-range", "note", "screw range 1..3 turns assumed, not given (invented)")]
+        notices = [warning("assumed-needle-geometry", params={"groove_area_step": 10}),
+                   warning("assumed-screw-range", params={"usable_low_turns": 1, "usable_high_turns": 3})]
         bikes.append({"bike": bike, "model": entries_of[bike][0]["model"],
                       "danger": any(w["severity"] == "danger" for e in entries_of[bike] for w in e["warnings"]),
                       "notices": notices})
     warnings_count = sum(len(e["warnings"]) for e in entries) + sum(len(b["notices"]) for b in bikes)
     return {
-        "format": "carbfleet-plan/2",
+        "format": "carbfleet-plan/3",
         "carbfleet_version": "0.0.0+invented", "fleet": "Invented school fleet", "event": "Invented hill day",
         "site": {"name": "Invented Ridge", "elevation_m": 1540.0, "time_zone": "Europe/Paris"},
         "reference": _reference(120.0),

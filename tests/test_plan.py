@@ -231,7 +231,7 @@ def test_stock_shortage_warns_and_fills_the_pick_list():
 def test_cold_hot_and_icing_notes():
     cold = one_bike_plan(elevation=1000.0, celsius=1.0, relative_humidity=0.95)
     assert {"cold-start", "icing-risk"} <= codes(cold)
-    assert any("Choke" in c for c in cold["entries"][0]["checks"])
+    assert any("Choke" in c["text"] for c in cold["entries"][0]["checks"])
     hot = one_bike_plan(elevation=500.0, celsius=36.0, relative_humidity=0.2)
     assert "hot-fuel" in codes(hot)
 
@@ -243,8 +243,8 @@ def test_assumed_needle_and_pump_checks():
     notices = {b["bike"]: {w["code"] for w in b["notices"]} for b in doc["bikes"]}
     assert "assumed-needle-geometry" in notices["R03"]  # once per bike, not per session
     assert "assumed-needle-geometry" not in {w["code"] for w in by_bike["R03"]["warnings"]}
-    assert any("Accelerator pump" in c for c in by_bike["R02"]["checks"])
-    assert any("8.0 mm" in c for c in by_bike["R02"]["checks"])
+    assert any("Accelerator pump" in c["text"] for c in by_bike["R02"]["checks"])
+    assert any("8.0 mm" in c["text"] for c in by_bike["R02"]["checks"])
 
 
 @pytest.mark.parametrize("elevation", [0.0, 1400.0, 2500.0])
@@ -308,7 +308,7 @@ def test_document_validates_against_the_schema():
     ev = pf.event(elevation=1800.0, hours=5, spread=6.0)
     doc = plan.make_plan(fleet, ev)
     jsonschema.validate(doc, SCHEMA, format_checker=jsonschema.FormatChecker())
-    assert doc["format"] == "carbfleet-plan/2"
+    assert doc["format"] == "carbfleet-plan/3"
     assert [e["bike"] for e in doc["entries"]] == ["R01", "R02", "R03"]
     assert doc["warnings_count"] == sum(len(e["warnings"]) for e in doc["entries"]) + sum(
         len(b["notices"]) for b in doc["bikes"])

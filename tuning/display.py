@@ -26,6 +26,8 @@ DOMAIN = "carbfleet"
 M_PER_FT = 0.3048
 #: Inch of mercury, conventional: 3.386389e3 Pa (NIST SP 811, 2008, appendix B.8).
 HPA_PER_INHG = 33.86389
+#: Inch, exactly 25.4 mm (NIST SP 811, 2008, appendix B.8).
+MM_PER_IN = 25.4
 
 
 def N_(text: str) -> str:
@@ -153,6 +155,19 @@ class Display:
         if digits is None:
             digits = 2 if self.units == "us" else 0
         return self.number(self.pressure_value(hpa), digits, self.pressure_unit if unit else "")
+
+    @property
+    def small_length_unit(self) -> str:
+        return "in" if self.units == "us" else "mm"
+
+    def small_length(self, mm, digits: int = 1) -> str:
+        """A small length [mm] (float level): ``8.0 mm`` or ``0.315 in`` (inches with two more
+        decimals than the millimetres, so that the step shown stays about as fine)."""
+        if mm is None:
+            return self.number(None)
+        if self.units == "us":
+            return self.number(mm / MM_PER_IN, digits + 2, "in")
+        return self.number(mm, digits, "mm")
 
     def percent(self, value, digits: int = 0, signed: bool = False) -> str:
         """``12 %`` from 12 (not from 0.12)."""

@@ -1,7 +1,7 @@
 """The jetting plan: settings for every bike and session, never lean, few changes, jets shared.
 
 :func:`make_plan` turns a resolved :class:`~tuning.config.model.Fleet` and
-:class:`~tuning.config.model.Event` into the plan document (``carbfleet-plan/2``, JSON-ready,
+:class:`~tuning.config.model.Event` into the plan document (``carbfleet-plan/3``, JSON-ready,
 described by ``tuning/schemas/recommendations.schema.json``); :func:`write_plan_files` writes
 ``recommendations.json``, ``recommendations.csv`` and ``pick-list.csv``. It is a recipe of stages,
 each a function of plain inputs to a small record, vectorised over bikes × sessions × hours:
@@ -64,7 +64,7 @@ def make_plan(fleet, event, *, policy_name: str | None = None, change_threshold:
     Returns
     -------
     dict
-        The plan document (format ``carbfleet-plan/2``).
+        The plan document (format ``carbfleet-plan/3``).
     """
     chosen_policy = policy_name or getattr(event, "change_policy", None) or getattr(fleet, "change_policy", None) \
         or policy.DEFAULT_POLICY

@@ -1,4 +1,4 @@
-"""The plan document (``carbfleet-plan/2``): the stages' records put into words and numbers.
+"""The plan document (``carbfleet-plan/3``): the stages' records put into words and numbers.
 
 JSON-ready: only str, int, float, bool, None, list and dict; floats rounded to their printed
 precision; no clock. Described field by field in ``tuning/schemas/recommendations.schema.json``.
@@ -16,14 +16,14 @@ from tuning import __version__, air, carb, constants
 from tuning.gcpause import gc_paused
 from tuning.plan.clip import MODE_ASSUMED, MODE_NONE, THROTTLE
 from tuning.plan.hours import air_at, epoch
-from tuning.plan.notices import BIKE_CODES, severity_rank, warning
+from tuning.plan.notices import BIKE_CODES, printed, said, severity_rank, warning
 from tuning.plan.policy import WORK_MINUTES
 from tuning.plan.pool import KINDS
 from tuning.plan.window import LEAN_GUARD
 
 __all__ = ["FORMAT", "TARGET_BAND", "assemble", "rounded", "jet_number"]
 
-FORMAT = "carbfleet-plan/2"
+FORMAT = "carbfleet-plan/3"
 #: Acceptable mixture, × reference AFR: 5 % rich .. the lean guard (our choice).
 TARGET_BAND = (0.95, 1.0 + LEAN_GUARD)
 FACTOR_RANGE = (0.80, 1.15)  #: area factors the model is trusted in (our choice)
@@ -35,13 +35,7 @@ HOT_FUEL_K = 273.15 + 30.0  #: above this: hot-fuel warning (from memory)
 #: a motorcycle carburetor beside a warm engine ices less, so light and moderate are no warning.
 ICING_WARN_LEVEL = 3
 
-_SOURCE_WORDS = {
-    "own": "its own jet, kept from before", "bike": "off bike {origin}", "shelf": "from the shelf",
-    "spare": "spare, came off bike {origin}", "order": "to order", "shelf-or-order": "from the shelf or to order",
-    "fitted": "already fitted",
-}
-_WAITS = " once {origin}'s own new jet (to order) is in"
-_PART_WORDS = {"main_jet": "main jet", "pilot_jet": "pilot jet", "clip": "needle clip", "mixture_screw": "mixture screw"}
+HOT_FUEL_C = int(round(HOT_FUEL_K - 273.15))  #: the same threshold as said in the words [°C]
 
 
 def rounded(values, digits):
@@ -87,18 +81,17 @@ def _reference_dict(conditions, state):
 
 
 def _jet_words(steps):
+    """(direction, text id, params) of a jet's change by ``steps`` sizes of its family."""
     if steps == 0:
-        return "no change", "no change"
-    n = abs(steps)
-    word = "size" if n == 1 else "sizes"
-    return ("richer", f"{n} {word} larger: richer") if steps > 0 else ("leaner", f"{n} {word} smaller: leaner")
+        return "no change", "setting/no-change", {}
+    if steps > 0:
+        return "richer", "setting/jet-larger", {"count": abs(steps)}
+    return "leaner", "setting/jet-smaller", {"count": abs(steps)}
 
 
-def _turns_words(turns):
-    quarters = int(round(abs(turns) * 4))
-    whole, rest = divmod(quarters, 4)
-    text = (str(whole) if whole else "") + {0: "", 1: "¼", 2: "½", 3: "¾"}[rest]
-    return f"{text or '0'} {'turn' if quarters <= 4 else 'turns'}"
+def _quarters(turns):
+    """An amount of turns rounded to the quarter said in the words (a parameter ``*_quarter_turns``)."""
+    return int(round(abs(float(turns)) * 4)) / 4
 
 
 def _steps(fleet, plan):
@@ -115,10 +108,13 @@ def _steps(fleet, plan):
 
 
 def _throttle_span(mask):
-    """'1/4–3/8 throttle' for the openings of THROTTLE where ``mask`` holds (first run)."""
+    """'25%–38% throttle' for the openings of THROTTLE where ``mask`` holds (first to last), as a
+    text parameter ``{"id", "params"}``."""
     idx = np.flatnonzero(mask)
-    lo, hi = THROTTLE[idx[0]], THROTTLE[idx[-1]]
-    return f"{lo:.0%}–{hi:.0%} throttle" if hi > lo else f"{lo:.0%} throttle"
+    lo, hi = float(THROTTLE[idx[0]]), float(THROTTLE[idx[-1]])
+    if hi > lo:
+        return {"id": "throttle/span", "params": {"low_pct": printed(lo * 100, ".0f"), "high_pct": printed(hi * 100, ".0f")}}
+    return {"id": "throttle/one", "params": {"low_pct": printed(lo * 100, ".0f")}}
 
 
 def assemble(fleet, event, rows, hours, refs, main, idle, clip, curves, rejet, allocation, pick_list,
@@ -164,12 +160,11 @@ def assemble(fleet, event, rows, hours, refs, main, idle, clip, curves, rejet, a
             base = hours.offsets[s]
             hours_out = [dict(h, area_factor=f) for h, f in zip(hour_base[base: base + n_h], req_r[r, :n_h].tolist())]
             found = []  # warnings of this entry, bike-level ones set aside
-            main_out = _jet_dict(fleet, main, main_cols, r, "main jet", sources, has_stock, sessions[s].name, found)
-            pilot_out = _jet_dict(fleet, pilot, pilot_cols, r, "pilot jet", sources, has_stock, sessions[s].name, found)
+            main_out = _jet_dict(fleet, main, main_cols, r, "main_jet", sources, has_stock, sessions[s].name, found)
+            pilot_out = _jet_dict(fleet, pilot, pilot_cols, r, "pilot_jet", sources, has_stock, sessions[s].name, found)
             if curves["factor_min"][r] < FACTOR_RANGE[0] or curves["factor_max"][r] > FACTOR_RANGE[1]:
-                found.append(warning("factor-out-of-range", f"Required area factor {f_min[r]}..{f_max[r]} is outside the "
-                             f"model's range {FACTOR_RANGE[0]}..{FACTOR_RANGE[1]}: treat the settings as a starting point "
-                             "and make a test run with a plug reading first."))
+                found.append(warning("factor-out-of-range", params={
+                    "factor_min": f_min[r], "factor_max": f_max[r], "range_low": FACTOR_RANGE[0], "range_high": FACTOR_RANGE[1]}))
             clip_out = _clip_dict(clip, r, st, found)
             screw_out = _screw_dict(idle, r, st, found)
             _lean_check(curves, r, found, idle, clip, s_count)
@@ -293,8 +288,8 @@ def _sources(allocation, rows, fleet):
 
 
 def _source_dict(source, origin, waits=False):
-    text = _SOURCE_WORDS[source].format(origin=origin) + (_WAITS.format(origin=origin) if waits else "")
-    return {"kind": source, "origin": origin, "text": text}
+    text_id = f"source/{source}" + ("/waits" if waits else "")
+    return said(text_id, {"origin": origin} if origin is not None else {}, kind=source, origin=origin)
 
 
 def _jet_columns(plan, steps, rows) -> dict:
@@ -312,8 +307,7 @@ def _jet_columns(plan, steps, rows) -> dict:
     }
 
 
-def _jet_dict(fleet, plan, cols, r, label, sources, has_stock, session_name, found):
-    kind = "main_jet" if label == "main jet" else "pilot_jet"
+def _jet_dict(fleet, plan, cols, r, kind, sources, has_stock, session_name, found):
     family = plan.family[r]
     sizes = fleet.jet_families[family].sizes
     rec, cur = cols["recommended"][r], cols["current"][r]
@@ -322,38 +316,34 @@ def _jet_dict(fleet, plan, cols, r, label, sources, has_stock, session_name, fou
     at_hand = source not in ("order", "shelf-or-order")
     fitted_lean = cols["fitted_lean"][r]
     worst = cols["fitted_lean_event"][r]
+    words = {"part": kind, "size": str(rec), "family": family}
+    family_sizes = {"smallest": str(jet_number(sizes[0])), "largest": str(jet_number(sizes[-1]))}
     if source == "shelf-or-order" and fitted_lean > LEAN_GUARD:
-        found.append(warning("no-safe-jet", f"Fit {label} {rec} ({family}) before riding hard, from the shelf or "
-                     f"ordered (the fleet keeps no stock list): the {label} fitted today ({cur}) would run up to "
-                     f"{worst:.0%} lean at this event — a lean engine can seize."))
+        found.append(warning("no-safe-jet", "no-safe-jet/shelf-or-order",
+                             {**words, "fitted": str(cur), "lean_pct": printed(worst * 100, ".0f")}))
     if source == "order":
         if fitted_lean > LEAN_GUARD:
-            found.append(warning("no-safe-jet", f"Fit {label} {rec} ({family}) before riding hard: none is at hand, so "
-                         f"order it now. The {label} fitted today ({cur}) would run up to {worst:.0%} lean at this "
-                         "event — a lean engine can seize."))
+            found.append(warning("no-safe-jet", "no-safe-jet/order",
+                                 {**words, "fitted": str(cur), "lean_pct": printed(worst * 100, ".0f")}))
         else:
-            found.append(warning("stock-shortage", f"{label.capitalize()} {rec} ({family}) is neither on the shelf nor "
-                         f"coming off another bike: order it; until it comes, the fitted {cur} stays safe (not leaner "
-                         "than the guard)."))
+            found.append(warning("stock-shortage", params={**words, "fitted": str(cur)}))
     if cols["unsafe"][r]:
-        found.append(warning("no-safe-jet", f"No {label} of the {family} sizes ({jet_number(sizes[0])}..{jet_number(sizes[-1])}) "
-                     f"is rich enough for {session_name}: {rec}, the richest planned, is still leaner than the guard. Get a "
-                     f"{label} of about {cols['ideal_max'][r]} before riding hard."))
+        found.append(warning("no-safe-jet", "no-safe-jet/none-rich-enough",
+                             {**words, **family_sizes, "session": session_name, "about": str(cols["ideal_max"][r])}))
     elif cols["out_of_family"][r]:
-        found.append(warning("ideal-outside-family", f"The ideal {label} ({cols['ideal_min'][r]}..{cols['ideal_max'][r]}) "
-                     f"lies outside the {family} sizes ({jet_number(sizes[0])}..{jet_number(sizes[-1])}); {rec} is the "
-                     "nearest safe one — read the plug before riding hard."))
+        found.append(warning("ideal-outside-family", params={
+            **words, **family_sizes, "ideal_low": str(cols["ideal_min"][r]), "ideal_high": str(cols["ideal_max"][r])}))
     if cols["too_wide"][r] and kind == "main_jet":
-        found.append(warning("window-too-wide", f"The ideal main jet changes by more than one size across {session_name}; "
-                     f"{rec} is safe (rich enough) for its leanest hour and richer in the others."))
+        found.append(warning("window-too-wide", params={"session": session_name, "size": str(rec)}))
     steps = cols["steps"][r]
-    direction, change = _jet_words(steps)
+    direction, change_id, change_params = _jet_words(steps)
+    change = said(change_id, change_params, key="change")
     return {
         "family": family, "coding": plan.coding[r], "current": cur, "ideal": cols["ideal"][r],
         "ideal_range": [cols["ideal_min"][r], cols["ideal_max"][r]],
         "recommended": rec, "in_stock": (at_hand if has_stock else None),
         "stock_choice": (rec if at_hand else cur if fitted_lean <= LEAN_GUARD else None) if has_stock else None,
-        "steps": steps, "direction": direction, "change": change,
+        "steps": steps, "direction": direction, **change,
         "source": (_source_dict(put_in.source, put_in.origin, put_in.waits) if put_in is not None
                    else _source_dict("fitted", None)),
     }
@@ -361,46 +351,42 @@ def _jet_dict(fleet, plan, cols, r, label, sources, has_stock, session_name, fou
 
 def _clip_dict(clip, r, st, found):
     if clip.mode[r] == MODE_NONE:
-        found.append(warning("no-needle", "No needle or clip position on record: the clip is not planned; record the "
-                             "needle and clip in the fleet file."))
+        found.append(warning("no-needle"))
         return {"needle": st.needle, "current": st.clip, "recommended": st.clip, "steps": 0, "direction": "no change",
-                "change": "no needle or clip on record: not planned", "assumed_geometry": True, "grooves": None}
+                **said("setting/clip-not-planned", key="change"), "assumed_geometry": True, "grooves": None}
     c_now, c_new = int(clip.current[r]), int(clip.recommended[r])
     d = c_new - c_now
     if d == 0:
-        direction, change = "no change", "no change"
+        direction, change = "no change", said("setting/no-change", key="change")
     else:
-        word = "groove" if abs(d) == 1 else "grooves"
         direction = "richer" if d > 0 else "leaner"
-        change = (f"clip {abs(d)} {word} lower (groove {c_now} → {c_new}, needle up): richer" if d > 0
-                  else f"clip {abs(d)} {word} higher (groove {c_now} → {c_new}, needle down): leaner")
+        change = said("setting/clip-lower" if d > 0 else "setting/clip-higher",
+                      {"count": abs(d), "from": c_now, "to": c_new}, key="change")
     if clip.mode[r] == MODE_ASSUMED:
-        found.append(warning("assumed-needle-geometry", "Needle geometry or needle-jet bore not on record: the clip is "
-                             f"judged with an assumed {int(carb.ASSUMED_GROOVE_AREA_STEP * 100)} % annulus area per groove "
-                             "(from memory) and only ever moved richer; confirm mid-throttle by feel and plug reading."))
+        found.append(warning("assumed-needle-geometry",
+                             params={"groove_area_step": int(carb.ASSUMED_GROOVE_AREA_STEP * 100)}))
     return {"needle": st.needle, "current": c_now, "recommended": c_new, "steps": d, "direction": direction,
-            "change": change, "assumed_geometry": bool(clip.mode[r] == MODE_ASSUMED), "grooves": int(clip.grooves[r])}
+            **change, "assumed_geometry": bool(clip.mode[r] == MODE_ASSUMED), "grooves": int(clip.grooves[r])}
 
 
 def _screw_dict(idle, r, st, found):
     ms = st.mixture_screw
     ch = float(idle.screw_new[r] - idle.screw_now[r])
     if abs(ch) < 1e-9:
-        s_dir, s_change = "no change", "no change"
+        s_dir, s_change = "no change", said("setting/no-change", key="change")
     else:
         richer = (ch > 0) == (ms.kind == "fuel")
         s_dir = "richer" if richer else "leaner"
-        s_change = f"{ms.kind} screw {_turns_words(ch)} {'out' if ch > 0 else 'in'}: {s_dir}"
+        s_change = said("setting/screw-out" if ch > 0 else "setting/screw-in",
+                        {"screw": ms.kind, "by_quarter_turns": _quarters(ch), "direction": s_dir}, key="change")
+    usable = {"usable_low_turns": printed(ms.usable_range[0], "g"), "usable_high_turns": printed(ms.usable_range[1], "g")}
     if idle.pilot.recommended[r] != idle.pilot.current[r]:
-        found.append(warning("screw-out-of-range", f"The {ms.kind} screw alone would leave the middle of its usable range "
-                             f"({ms.usable_range[0]:g}..{ms.usable_range[1]:g} turns) or not be safe: the pilot jet is "
-                             "changed instead."))
+        found.append(warning("screw-out-of-range", params={"screw": ms.kind, **usable}))
     if ms.range_assumed:
-        found.append(warning("assumed-screw-range", f"The screw's usable range is the default {ms.usable_range[0]:g}.."
-                             f"{ms.usable_range[1]:g} turns out (common practice); record the service manual's range."))
+        found.append(warning("assumed-screw-range", params=usable))
     return {"kind": ms.kind, "current_turns": round(float(idle.screw_now[r]), 2),
             "recommended_turns": round(float(idle.screw_new[r]), 2), "change_turns": round(ch, 2), "direction": s_dir,
-            "change": s_change, "usable_range": [round(float(ms.usable_range[0]), 2), round(float(ms.usable_range[1]), 2)],
+            **s_change, "usable_range": [round(float(ms.usable_range[0]), 2), round(float(ms.usable_range[1]), 2)],
             "range_assumed": bool(ms.range_assumed)}
 
 
@@ -416,44 +402,38 @@ def _lean_check(curves, r, found, idle, clip, s_count):
     weights = carb.circuit_weights(THROTTLE[bad])  # which circuit meters most there
     circuit = int(np.argmax(weights.sum(axis=0)))
     if circuit == 0:
-        cure = ("fit a larger pilot jet than the planned ones (none within reach is rich enough)" if idle.unsafe[r]
-                else "richen the idle circuit (larger pilot jet or the screw richer)")
+        cure = "cure/pilot-beyond-plan" if idle.unsafe[r] else "cure/idle-circuit"
     elif circuit == 1 and clip.mode[r] == MODE_NONE:
-        cure = "no needle is on record to plan the clip: check the needle and move its clip lower (richer)"
+        cure = "cure/no-needle"
     elif circuit == 1:
-        cure = ("the clip is already in its richest groove: fit a richer needle or a larger needle jet"
-                if clip.unsafe[r] else "move the needle clip one groove lower (richer)")
+        cure = "cure/richest-groove" if clip.unsafe[r] else "cure/clip-lower"
     else:
-        cure = "fit a larger main jet"
-    found.append(warning("predicted-lean", f"Predicted mixture up to {float(lean.max()):.0%} leaner than the proven one at "
-                         f"{_throttle_span(bad)} in the densest hour of this event: {cure} before riding hard."))
+        cure = "cure/main-jet"
+    found.append(warning("predicted-lean", params={"lean_pct": printed(float(lean.max()) * 100, ".0f"),
+                                                   "throttle": _throttle_span(bad), "cure": {"id": cure, "params": {}}}))
 
 
 def _weather_notes(stat, model, found):
     if stat["icing"] >= ICING_WARN_LEVEL:
-        found.append(warning("icing-risk", "Carburetor icing possible in cool, humid air (the serious band of charts "
-                             "made for aircraft, from memory): if it runs rough or loses power at part throttle, "
-                             "let it idle warm before riding on."))
+        found.append(warning("icing-risk"))
     if stat["t_start"] < COLD_START_K:
-        pump = " Accelerator-pump model: check the pump squirt before the first start." if model.carburetor.accelerator_pump else ""
-        found.append(warning("cold-start", f"Cold start ({stat['t_start'] - 273.15:.1f} °C at the session start): use the "
-                             f"choke and warm the engine before riding.{pump}"))
+        found.append(warning("cold-start", "cold-start/accelerator-pump" if model.carburetor.accelerator_pump else "cold-start",
+                             {"start_C": printed(stat["t_start"] - 273.15, ".1f")}))
     if stat["t_max"] > HOT_FUEL_K:
-        found.append(warning("hot-fuel", f"Hot session (air up to {stat['t_max'] - 273.15:.1f} °C): fuel above about 30 °C "
-                             "can percolate or vapour-lock (threshold from memory); keep fuel and bikes shaded."))
+        found.append(warning("hot-fuel", params={"t_max_C": printed(stat["t_max"] - 273.15, ".1f"), "hot_fuel_C": HOT_FUEL_C}))
 
 
 def _checks(st, model, stat):
-    checks = [f"Float level: check {st.float_level * 1000.0:.1f} mm (value from the settings)." if st.float_level is not None
-              else "Float level: not on record; check it against the service manual.",
-              "Plug reading after the first run, before riding hard."]
+    """The checks of a session: objects ``{"text", "id", "params"}``."""
+    checks = [said("check/float-level", {"float_level_mm": printed(st.float_level * 1000.0, ".1f")})
+              if st.float_level is not None else said("check/float-level-unknown"),
+              said("check/plug")]
     if model.carburetor.accelerator_pump:
-        checks.append("Accelerator pump: check the squirt (timing and amount).")
+        checks.append(said("check/accelerator-pump"))
     if stat["t_min"] < CHOKE_K:
-        checks.append(f"Choke: cold air ({stat['t_min'] - 273.15:.1f} °C minimum): choke for the first start.")
+        checks.append(said("check/choke", {"t_min_C": printed(stat["t_min"] - 273.15, ".1f")}))
     if stat["t_max"] > HOT_FUEL_K:
-        checks.append("Hot fuel: keep cans and bikes in the shade; if it stalls hot or will not restart, suspect "
-                      "vapour in the fuel (from memory: above about 30 °C).")
+        checks.append(said("check/hot-fuel", {"hot_fuel_C": HOT_FUEL_C}))
     return checks
 
 
@@ -475,11 +455,12 @@ def _work_orders(fleet, rows, main, idle, clip, allocation, sessions, bike_ids):
     orders = []
     for t in range(s_count + 1):
         if t == 0:
-            label, before, after = f"before {sessions[0].name}", None, sessions[0].name
+            label, before, after = said("order/before", {"session": sessions[0].name}, key="label"), None, sessions[0].name
         elif t == s_count:
-            label, before, after = "after the event: back to the proven settings", sessions[-1].name, None
+            label, before, after = said("order/after-event", key="label"), sessions[-1].name, None
         else:
-            label, before, after = f"between {sessions[t - 1].name} and {sessions[t].name}", sessions[t - 1].name, sessions[t].name
+            label = said("order/between", {"previous": sessions[t - 1].name, "next": sessions[t].name}, key="label")
+            before, after = sessions[t - 1].name, sessions[t].name
         jet_moves = {(m.bike, m.kind): m for m in moves_by_t[t]}
         bikes = []
         for b in range(b_count):
@@ -494,7 +475,7 @@ def _work_orders(fleet, rows, main, idle, clip, allocation, sessions, bike_ids):
                 changes.append(_change(part, old, new, jet_moves.get((b, part)), screw_kind[b]))
             if changes:
                 bikes.append({"bike": bike_ids[b], "minutes": sum(c["minutes"] for c in changes), "changes": changes})
-        orders.append({"transition": t, "label": label, "after_session": before, "before_session": after,
+        orders.append({"transition": t, **label, "after_session": before, "before_session": after,
                        "minutes": sum(x["minutes"] for x in bikes), "bikes": bikes})
     return orders
 
@@ -504,20 +485,24 @@ def _change(part, old, new, move, screw_kind):
         old_v, new_v = jet_number(old), jet_number(new)
         direction = "richer" if new > old else "leaner"
         source = _source_dict(move.source, move.origin, move.waits) if move is not None else None
-        text = f"{_PART_WORDS[part]} {old_v} → {new_v} ({direction})" + (f", {source['text']}" if source else "")
+        words = {"part": part, "from": str(old_v), "to": str(new_v), "direction": direction}
+        text = said("work/jet-from", {**words, "source": {k: source[k] for k in ("id", "params")}}) if source else \
+            said("work/jet", words)
     elif part == "clip":
         old_v, new_v = int(old), int(new)
         direction = "richer" if new > old else "leaner"
         source = None
-        text = f"needle clip groove {old_v} → {new_v} ({direction})"
+        text = said("work/clip", {"from": old_v, "to": new_v, "direction": direction})
     else:
         old_v, new_v = round(float(old), 2), round(float(new), 2)
         turned = new - old
         direction = "richer" if (turned > 0) == (screw_kind == "fuel") else "leaner"
         source = None
-        text = f"{screw_kind} screw {_turns_words(turned)} {'out' if turned > 0 else 'in'} to {new_v:g} turns ({direction})"
+        text = said("work/screw-out" if turned > 0 else "work/screw-in",
+                    {"screw": screw_kind, "by_quarter_turns": _quarters(turned), "to_turns": printed(new_v, "g"),
+                     "direction": direction})
     return {"part": part, "from": old_v, "to": new_v, "direction": direction, "minutes": WORK_MINUTES[part],
-            "source": source, "text": text}
+            "source": source, **text}
 
 
 def _weather_rows(event, hours, refs, zone):

@@ -1,7 +1,7 @@
 """Reports: tables, charts, HTML/PDF rendering and the papermill build. No physics here.
 
 The report formats the plan document returned by ``tuning.plan.make_plan`` (format
-``carbfleet-plan/2``) and computes nothing physical of its own. The warning codes, their
+``carbfleet-plan/3``) and computes nothing physical of its own. The warning codes, their
 severities and meanings have one home, :mod:`tuning.plan.notices`; the report shows them.
 
 Public API

@@ -259,7 +259,7 @@ def _prepare_out(out_dir: str | Path, inputs) -> tuple[Path, Path]:
 def build_from_plan(plan: dict, out_dir: str | Path, paper: str = "a4", quiet: bool = False,
                     workers: int = 2, fleet_path: str = "", event_path: str = "",
                     inputs=()) -> BuildResult:
-    """Build the output folder from a plan document (format ``carbfleet-plan/2``).
+    """Build the output folder from a plan document (format ``carbfleet-plan/3``).
 
     ``inputs`` are the paths of the files the plan was made from: the output folder may not
     hold them. The folder gets :data:`tuning.output.MANIFEST`, the list of what was written.

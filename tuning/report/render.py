@@ -24,7 +24,7 @@ from tuning.report import charts, tables
 from tuning.report.names import safe_file_names
 
 #: The plan document format this report reads (see tuning/schemas/recommendations.schema.json).
-PLAN_FORMAT = "carbfleet-plan/2"
+PLAN_FORMAT = "carbfleet-plan/3"
 PAPER_SIZES = {"a4": "A4 portrait", "letter": "letter portrait"}
 TEMPLATES = Path(__file__).resolve().parent / "templates"
 

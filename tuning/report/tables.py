@@ -205,8 +205,8 @@ def _checks(entries: list[dict], condense: int, d: Display = METRIC_EN) -> list[
     first colon, e.g. ``Choke``) in later sessions is named, not written out again."""
     found: OrderedDict[str, list[str]] = OrderedDict()
     for e in entries:
-        for c in e["checks"]:
-            found.setdefault(c, []).append(e["session"])
+        for c in e["checks"]:  # objects {"text", "id", "params"} (carbfleet-plan/3)
+            found.setdefault(c["text"], []).append(e["session"])
     if not condense:
         return list(found)
     out: OrderedDict[str, list[str]] = OrderedDict()  # kept text -> later sessions of its kind
