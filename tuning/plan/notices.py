@@ -186,7 +186,10 @@ class StoredWords(Display):
     """
 
     def number(self, value, digits: int = 0, unit: str = "", signed: bool = False) -> str:
-        return super().number(value, digits, unit, signed).replace("−", "-")
+        if value is None:
+            return "–"
+        text = f"{value:+.{digits}f}" if signed else f"{value:.{digits}f}"  # Python's own, "-0.0" too
+        return f"{text} {unit}".rstrip() if unit else text
 
     def percent(self, value, digits: int = 0, signed: bool = False) -> str:
         return self.number(value, digits, signed=signed) + "%"

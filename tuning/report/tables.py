@@ -7,7 +7,7 @@ from collections import OrderedDict
 
 from tuning.air import ICING_RISK_NAMES
 from tuning.display import METRIC_EN, N_, Display
-from tuning.plan.notices import CODES, SEVERITIES, severity_rank
+from tuning.plan.notices import CODES, SEVERITIES, say_item, severity_rank
 
 CIRCUITS = (
     ("main_jet", N_("Main jet")),
@@ -99,7 +99,7 @@ def _circuit_value(key: str, s: dict, which: str, unit: bool = True, display: Di
     return _text(s[which])
 
 
-def _source_text(key: str, entries: list[dict], i: int) -> tuple[str, bool]:
+def _source_text(key: str, entries: list[dict], i: int, d: Display = METRIC_EN) -> tuple[str, bool]:
     """Where the jet of session ``i`` comes from, said where it is put in (not again while it stays).
 
     Returns (text, to_order): the plan's words (``off bike T07``, ``from the shelf``, ``to order``);
@@ -112,9 +112,9 @@ def _source_text(key: str, entries: list[dict], i: int) -> tuple[str, bool]:
     before = entries[i - 1]["settings"][key]["recommended"] if i else s["current"]
     if not source or s["recommended"] == before or source["kind"] in ("fitted", "own"):
         return "", False
-    text = source["text"]
+    text = say_item(source, d)
     if source["kind"] == "shelf-or-order":
-        text = f"{text} ({NO_STOCK_LIST})"  # the plan's own words are English (see tuning.plan.notices)
+        text = f"{text} ({d._(NO_STOCK_LIST)})"
     return text, source["kind"] == "order"
 
 
@@ -124,12 +124,12 @@ def _changed(key: str, s: dict) -> bool:
     return bool(s.get("steps"))
 
 
-def _grouped_warnings(entries: list[dict]) -> "OrderedDict[tuple[str, str, str], list[str]]":
+def _grouped_warnings(entries: list[dict], d: Display = METRIC_EN) -> "OrderedDict[tuple[str, str, str], list[str]]":
     """(severity, code, message) -> the sessions that carry it, in the plan's order."""
     grouped: OrderedDict[tuple[str, str, str], list[str]] = OrderedDict()
     for e in entries:
         for w in e["warnings"]:
-            grouped.setdefault((w["severity"], w["code"], w["message"]), []).append(e["session"])
+            grouped.setdefault((w["severity"], w["code"], say_item(w, d)), []).append(e["session"])
     return grouped
 
 
@@ -206,7 +206,7 @@ def _checks(entries: list[dict], condense: int, d: Display = METRIC_EN) -> list[
     found: OrderedDict[str, list[str]] = OrderedDict()
     for e in entries:
         for c in e["checks"]:  # objects {"text", "id", "params"} (carbfleet-plan/3)
-            found.setdefault(c["text"], []).append(e["session"])
+            found.setdefault(say_item(c, d), []).append(e["session"])
     if not condense:
         return list(found)
     out: OrderedDict[str, list[str]] = OrderedDict()  # kept text -> later sessions of its kind
@@ -315,8 +315,8 @@ def _form_rows(entries: list[dict], work, d: Display) -> list[dict]:
         row = before.get(e["session"])
         rows.append({"session": e["session"], "window": window(e["start"], e["end"], d),
                      "minutes": minutes(row["minutes"]) if row else "",
-                     "changes": [{"text": c["text"], "minutes": minutes(c["minutes"])} for c in row["changes"]] if row else []})
-    return rows, ([{"text": c["text"], "minutes": minutes(c["minutes"])} for c in after["changes"]] if after else [])
+                     "changes": [{"text": say_item(c, d), "minutes": minutes(c["minutes"])} for c in row["changes"]] if row else []})
+    return rows, ([{"text": say_item(c, d), "minutes": minutes(c["minutes"])} for c in after["changes"]] if after else [])
 
 
 def sheet_rows(entries: list[dict], record: dict | None = None, work=None, condense: int = 0,
@@ -368,11 +368,11 @@ def sheet_rows(entries: list[dict], record: dict | None = None, work=None, conde
         cells = []
         for i, e in enumerate(entries):
             s = e["settings"][key]
-            source, to_order = _source_text(key, entries, i)
+            source, to_order = _source_text(key, entries, i, d)
             value = _circuit_value(key, s, "recommended", unit=False)
             repeat = i > 0 and cells[-1]["recommended"] == value  # the words once, where it changes
             cells.append({
-                "recommended": value, "change": "" if repeat else s["change"],
+                "recommended": value, "change": "" if repeat else say_item(s, d),
                 "changed": _changed(key, s), "source": source, "to_order": to_order,
             })
         circuits.append({"key": key, "label": title, "detail": detail, "current": _circuit_value(key, s0, "current", unit=False), "cells": cells})
@@ -396,13 +396,13 @@ def sheet_rows(entries: list[dict], record: dict | None = None, work=None, conde
         r["session"] = d._("all sessions") if len(r["names"]) == len(entries) > 1 else ", ".join(r["names"])
     checks = _checks(entries, condense, d)
     all_sessions = [e["session"] for e in entries]
-    grouped = _grouped_warnings(entries)
+    grouped = _grouped_warnings(entries, d)
     warning_rows = []
     for (severity, code, message), names in grouped.items():
         warning_rows.append({"severity": severity, "code": code, "message": message, "session_list": names,
                              "sessions": d._("all sessions") if names == all_sessions else ", ".join(names)})
     for w in (record or {}).get("notices", []):  # about the bike's records: once, whatever the session
-        warning_rows.append({"severity": w["severity"], "code": w["code"], "message": w["message"],
+        warning_rows.append({"severity": w["severity"], "code": w["code"], "message": say_item(w, d),
                              "session_list": [], "sessions": d._("the bike's records")})
     warning_rows.sort(key=lambda w: severity_rank(w["severity"]))  # stable: danger, action, note
     warning_rows = condensed(warning_rows, CONDENSE_LEVELS[condense])
@@ -502,8 +502,8 @@ def summary_rows(plan: dict, file_names: dict[str, str], display: Display = METR
     pick_list = [dict(p, in_stock_text=_text(p["in_stock"]), to_order_text=_text(p["to_order"]))
                  for p in plan["pick_list"]]
     pick_list.sort(key=lambda p: -(p["to_order"] or 0))  # to order first, else the plan's order
-    return {"bikes": bikes, "batches": batch_rows, "danger": danger_rows(plan, by_bike, file_names),
-            "warning_groups": warning_groups(plan, by_bike, d), "work_orders": work_order_rows(plan, file_names),
+    return {"bikes": bikes, "batches": batch_rows, "danger": danger_rows(plan, by_bike, file_names, d),
+            "warning_groups": warning_groups(plan, by_bike, d), "work_orders": work_order_rows(plan, file_names, d),
             "weather": weather, "sessions": sessions, "pick_list": pick_list, "stock_kept": kept,
             "to_order": to_order,
             "stock_status": to_order_text(to_order, d) if kept else d._(NO_STOCK_LIST)}
@@ -514,7 +514,7 @@ def to_order_text(count: int, display: Display = METRIC_EN) -> str:
     return display.n_("%(n)s jet to order", "%(n)s jets to order", count) % {"n": count}
 
 
-def danger_rows(plan: dict, by_bike: dict, file_names: dict[str, str]) -> list[dict]:
+def danger_rows(plan: dict, by_bike: dict, file_names: dict[str, str], d: Display = METRIC_EN) -> list[dict]:
     """The bikes in danger, one row each, in fleet order: the sessions concerned, the danger
     warnings of the first such session in full, and the codes of the others (the warnings list
     and the sheet give them in full)."""
@@ -536,8 +536,8 @@ def danger_rows(plan: dict, by_bike: dict, file_names: dict[str, str]) -> list[d
             others.append(f"{name}: " + ", ".join(c if n == 1 else f"{c} ×{n}" for c, n in codes.items()))
         names = [name for name, _ in per_session]
         rows.append({"bike": record["bike"], "model": record["model"], "file": file_names.get(record["bike"], ""),
-                     "sessions": ["all sessions"] if len(entries) > 1 and names == [e["session"] for e in entries] else names, "first_session": first_session,
-                     "messages": [{"code": w["code"], "message": w["message"]} for w in first], "others": others})
+                     "sessions": [d._("all sessions")] if len(entries) > 1 and names == [e["session"] for e in entries] else names, "first_session": first_session,
+                     "messages": [{"code": w["code"], "message": say_item(w, d)} for w in first], "others": others})
     return rows
 
 
@@ -553,11 +553,11 @@ def warning_groups(plan: dict, by_bike: dict, display: Display = METRIC_EN) -> d
     count = {severity: 0 for severity in SEVERITIES}
     for e in plan["entries"]:
         for w in e["warnings"]:
-            found.setdefault((w["severity"], w["code"], w["message"]), OrderedDict()).setdefault(e["bike"], []).append(e["session"])
+            found.setdefault((w["severity"], w["code"], say_item(w, display)), OrderedDict()).setdefault(e["bike"], []).append(e["session"])
             count[w["severity"]] += 1
     for record in plan.get("bikes", []):
         for w in record["notices"]:
-            found.setdefault((w["severity"], w["code"], w["message"]), OrderedDict())[record["bike"]] = None
+            found.setdefault((w["severity"], w["code"], say_item(w, display)), OrderedDict())[record["bike"]] = None
             count[w["severity"]] += 1
     groups = []
     for severity in SEVERITIES:
@@ -575,15 +575,15 @@ def warning_groups(plan: dict, by_bike: dict, display: Display = METRIC_EN) -> d
     return {"groups": groups, "legend": [{"code": c, "meaning": display._(CODES[c][1])} for c in codes if c in CODES]}
 
 
-def work_order_rows(plan: dict, file_names: dict[str, str]) -> list[dict]:
+def work_order_rows(plan: dict, file_names: dict[str, str], d: Display = METRIC_EN) -> list[dict]:
     """The plan's work orders for print: per transition its label and total time, then one row
     per bike with its minutes and the plan's words for each change."""
     danger = {b["bike"] for b in plan.get("bikes", []) if b["danger"]}
     orders = []
     for order in plan.get("work_orders", []):
         rows = [{"bike": row["bike"], "file": file_names.get(row["bike"], ""), "danger": row["bike"] in danger,
-                 "minutes": minutes(row["minutes"]), "changes": [c["text"] for c in row["changes"]]}
+                 "minutes": minutes(row["minutes"]), "changes": [say_item(c, d) for c in row["changes"]]}
                 for row in order["bikes"]]
-        orders.append({"label": _label(order["label"]), "minutes": minutes(order["minutes"]),
+        orders.append({"label": _label(say_item(order, d)), "minutes": minutes(order["minutes"]),
                        "count": len(rows), "bikes": rows})
     return orders
