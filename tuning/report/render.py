@@ -10,6 +10,7 @@ import html as html_lib
 import json
 import logging
 import os
+import re
 from dataclasses import dataclass, field
 from functools import lru_cache
 from pathlib import Path
@@ -315,7 +316,7 @@ def write_sheets(plan: dict, jobs: list[SheetJob], paper: str = "a4", display: D
                 continue
             jobs[i].html_path.write_text(htmls[i], encoding="utf-8")
             single = document.copy(own)
-            single.metadata = _html_metadata(htmls[i])
+            single.metadata = _sheet_metadata(document, htmls[i])
             single.write_pdf(str(jobs[i].pdf_path))
             pages[i] = len(own)
         del document
@@ -345,14 +346,20 @@ def _pages_by_id(document, ids: list[str]) -> dict[str, list]:
     return {i: document.pages[starts[k]:starts[k + 1]] for k, i in enumerate(ids)}
 
 
-def _html_metadata(html: str):
-    """The PDF metadata WeasyPrint takes from ``html``'s head (title, description, dates ...)."""
-    import weasyprint
-    from weasyprint.document import DocumentMetadata
-    from weasyprint.html import get_html_metadata
+_TITLE = re.compile(r"<title>(.*?)</title>", re.S)
+_DESCRIPTION = re.compile(r'<meta name="description" content="([^"]*)">')
 
-    head = html[:html.index("<body")] + "<body></body></html>"
-    return DocumentMetadata(**get_html_metadata(weasyprint.HTML(string=head)))
+
+def _sheet_metadata(document, html: str):
+    """``document``'s PDF metadata with the title and description of the sheet page ``html``
+    (the sheets of one document differ only in these; the rest comes from the first's head)."""
+    import copy
+
+    metadata = copy.copy(document.metadata)
+    title, description = _TITLE.search(html), _DESCRIPTION.search(html)
+    metadata.title = html_lib.unescape(title.group(1)) if title else metadata.title
+    metadata.description = html_lib.unescape(description.group(1)) if description else metadata.description
+    return metadata
 
 
 @lru_cache(maxsize=1)
