@@ -320,3 +320,43 @@ def test_no_summary_page_holds_the_cautions_alone(n_bikes, n_sessions, tmp_path)
         text = " ".join(page.extract_text().split())
         rest = text.replace(caution, "").replace("CAUTIONS.", "").replace("Cautions.", "")
         assert len(rest) > 200, (i, text[:200])  # more on the page than the cautions and the footer
+
+
+def test_sheets_laid_out_as_one_document_give_each_bike_its_own_page(tmp_path):
+    # regression check of the batched rendering (render.write_sheets), not validation: four bikes
+    # of two sessions in one WeasyPrint document, one of them crowded enough to need a later
+    # layout on its own; each must come out as if rendered alone
+    plan = report_fixtures.make_plan(n_bikes=4, n_sessions=2)
+    grouped = {bike: [dict(e) for e in entries] for bike, entries in tables.entries_by_bike(plan).items()}
+    session_codes = [(code, severity, text) for code, (severity, text) in CODES.items() if code not in BIKE_CODES]
+    for i, e in enumerate(grouped["T003"]):
+        e["warnings"] = [{"code": code, "severity": severity, "message": f"{text}; " * 2 + f"session {i}"}
+                         for code, severity, text in session_codes]
+    jobs = [render.SheetJob(entries, tmp_path / f"{bike}.html", tmp_path / f"{bike}.pdf", f"sheet-{bike}")
+            for bike, entries in grouped.items()]
+    assert render.write_sheets(plan, jobs, "a4") == [1] * len(jobs)
+    for bike, entries in grouped.items():
+        reader = pypdf.PdfReader(tmp_path / f"{bike}.pdf")
+        assert len(reader.pages) == 1, bike
+        text = " ".join(reader.pages[0].extract_text().split())
+        assert bike in text and f"sheet {bike}" in text, bike  # the body and the page footer
+        # other bikes are named only as where a jet comes from ("off bike T001"), never their sheets
+        own_words = re.sub(r"off bike T\d+", "", text)
+        assert not [other for other in grouped if other != bike and other in own_words], bike
+        alone = tmp_path / "alone"
+        alone.mkdir(exist_ok=True)
+        assert render.write_sheet(plan, entries, alone / "s.html", alone / "s.pdf", "a4") == 1
+        assert " ".join(pypdf.PdfReader(alone / "s.pdf").pages[0].extract_text().split()) == text, bike
+        assert bike in reader.metadata.title
+        page = (tmp_path / f"{bike}.html").read_text(encoding="utf-8")
+        assert page.startswith("<!DOCTYPE html>") and page.count('<div class="sheet ') == 1  # its own page
+        cells = read_cells(page)
+        for e in entries:
+            main = e["settings"]["main_jet"]
+            assert str(main["recommended"]) in cells[("main_jet", e["session"])], bike
+        assert page == (alone / "s.html").read_text(encoding="utf-8"), bike  # as if rendered alone
+    def density(bike):
+        return re.search(r'<div class="sheet ([a-z ]+)"', (tmp_path / f"{bike}.html").read_text(encoding="utf-8")).group(1)
+
+    order = [d for d, _ in render.LAYOUTS]
+    assert order.index(density("T003")) > order.index(density("T001"))  # a later layout than the others'

@@ -9,10 +9,11 @@ Public API
 CAUTIONS
     The cautions printed on every sheet, in the fleet summary and quoted by the README.
 load_plan(fleet_path, event_path, plan_path="") -> dict
-render_setup_sheets(plan, out_dir, bikes=(), paper="a4") -> SheetBatch
-render_fleet_report(plan, out_dir, paper="a4") -> FleetReport
-build(fleet_path, event_path, out_dir, paper="a4", quiet=False, workers=2) -> BuildResult
-build_from_plan(plan, out_dir, paper="a4", quiet=False, workers=2, ...) -> BuildResult
+render_setup_sheets(plan, out_dir, bikes=(), paper="a4", units="metric", language="en") -> SheetBatch
+render_fleet_report(plan, out_dir, paper="a4", notebooks=(), units="metric", language="en") -> FleetReport
+build(fleet_path, event_path, out_dir, paper="a4", quiet=False, workers=2, policy=None,
+      units=None, language=None) -> BuildResult  (None: the event file's units/language, else metric/en)
+build_from_plan(plan, out_dir, paper="a4", quiet=False, workers=2, ..., units="metric", language="en") -> BuildResult
 """
 
 from __future__ import annotations

@@ -30,6 +30,7 @@ import nbformat
 from jupyter_client.manager import AsyncKernelManager
 
 from tuning import output, resources
+from tuning.display import DEFAULT_LANGUAGE, DEFAULT_UNITS, Display
 from tuning.errors import BuildError, CarbfleetError, UserError
 from tuning.gcpause import gc_paused
 from tuning.report import render, tables
@@ -214,24 +215,29 @@ def _merge_pdfs(paths: list[Path], target: Path, stamp: str, title: str) -> int:
     return len(writer.pages)
 
 
-def _check_options(paper: str, workers: int) -> None:
+def _check_options(paper: str, workers: int, units: str = "metric", language: str = "en") -> None:
     render.page_css(paper, "")  # raises UserError on an unknown paper name
+    Display(units, language)  # raises UserError on unknown units or language
     if not isinstance(workers, int) or not 1 <= workers <= MAX_WORKERS:
         raise UserError(f"--workers: expected a whole number from 1 to {MAX_WORKERS}, got {workers}; try --workers 2")
 
 
 def build(fleet_path: str | Path, event_path: str | Path, out_dir: str | Path, paper: str = "a4",
-          quiet: bool = False, workers: int = 2, policy: str | None = None) -> BuildResult:
+          quiet: bool = False, workers: int = 2, policy: str | None = None,
+          units: str | None = None, language: str | None = None) -> BuildResult:
     """Plan ``fleet_path`` x ``event_path`` and build the whole output folder ``out_dir``.
+
+    ``units`` (``metric`` or ``us``) and ``language`` (``en`` or ``de``) of the pages: ``None``
+    takes the event file's ``units`` and ``language``, else metric and English.
 
     Raises :class:`tuning.errors.UserError` for bad input files or an output folder that is not
     carbfleet's to replace (exit 2) and :class:`tuning.errors.BuildError` naming the failed bike
     or step (exit 1).
     """
-    from tuning.config import load_event, load_fleet
+    from tuning.config import display_for, load_event, load_fleet
     from tuning.plan import make_plan
 
-    _check_options(paper, workers)
+    _check_options(paper, workers, units or DEFAULT_UNITS, language or DEFAULT_LANGUAGE)
     inputs = [str(fleet_path), str(event_path)]
     output.safe_out_dir(str(out_dir), inputs)  # before the planning: fail fast
     fleet = load_fleet(fleet_path)
@@ -239,8 +245,11 @@ def build(fleet_path: str | Path, event_path: str | Path, out_dir: str | Path, p
     if event.weather.source and event.weather.source != "METAR":
         inputs.append(event.weather.source)
     plan = make_plan(fleet, event, policy_name=policy)
+    display = display_for(event, units, language)  # the command line, else the event file, else metric/en
+    units, language = display.units, display.language
     return build_from_plan(plan, out_dir, paper=paper, quiet=quiet, workers=workers,
-                           fleet_path=str(fleet_path), event_path=str(event_path), inputs=inputs)
+                           fleet_path=str(fleet_path), event_path=str(event_path), inputs=inputs,
+                           units=units, language=language)
 
 
 def _prepare_out(out_dir: str | Path, inputs) -> tuple[Path, Path]:
@@ -258,16 +267,17 @@ def _prepare_out(out_dir: str | Path, inputs) -> tuple[Path, Path]:
 
 def build_from_plan(plan: dict, out_dir: str | Path, paper: str = "a4", quiet: bool = False,
                     workers: int = 2, fleet_path: str = "", event_path: str = "",
-                    inputs=()) -> BuildResult:
+                    inputs=(), units: str = "metric", language: str = "en") -> BuildResult:
     """Build the output folder from a plan document (format ``carbfleet-plan/3``).
 
-    ``inputs`` are the paths of the files the plan was made from: the output folder may not
+    ``units`` (``metric`` or ``us``) and ``language`` (``en`` or ``de``) are those of the pages
+    (the notebooks' parameters of the same names). ``inputs`` are the paths of the files the plan was made from: the output folder may not
     hold them. The folder gets :data:`tuning.output.MANIFEST`, the list of what was written.
     """
     from tuning.plan import write_plan_files
 
     started = time.perf_counter()
-    _check_options(paper, workers)
+    _check_options(paper, workers, units, language)
     output.umask()  # read it in this thread, before any worker thread starts
     out, tmp = _prepare_out(out_dir, inputs)
     step = "plan files"
@@ -280,7 +290,8 @@ def build_from_plan(plan: dict, out_dir: str | Path, paper: str = "a4", quiet: b
         # Relative to the notebooks' own folder, where the kernels start and where Jupyter runs
         # them again later: the executed notebooks stay runnable in the finished output.
         common = {"fleet_path": _absolute(fleet_path), "event_path": _absolute(event_path),
-                  "plan_path": "../recommendations.json", "out_dir": "..", "paper": paper}
+                  "plan_path": "../recommendations.json", "out_dir": "..", "paper": paper,
+                  "units": units, "language": language}
         parts = shards(bikes, workers)
         sheet_notebooks = [f"setup-sheets-{i}.ipynb" for i in range(1, len(parts) + 1)]
         html_names = [n.replace(".ipynb", ".html") for n in ["fleet-report.ipynb", *sheet_notebooks]]

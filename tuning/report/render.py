@@ -10,6 +10,7 @@ import html as html_lib
 import json
 import logging
 import os
+import re
 from dataclasses import dataclass, field
 from functools import lru_cache
 from pathlib import Path
@@ -21,7 +22,7 @@ from tuning.display import METRIC_EN, Display
 from tuning.errors import BuildError, UserError
 from tuning.gcpause import gc_paused
 from tuning.report import charts, tables
-from tuning.report.names import safe_file_names
+from tuning.report.names import safe_file_names, safe_stem
 
 #: The plan document format this report reads (see tuning/schemas/recommendations.schema.json).
 PLAN_FORMAT = "carbfleet-plan/3"
@@ -109,12 +110,21 @@ def _css_string(text: str) -> str:
     return "".join(c if c.isalnum() or c in " .,:;·()-_/'" else f"\\{ord(c):x} " for c in text)
 
 
-def page_css(paper: str, footer_left: str, page_numbers: bool = True) -> str:
-    """The stylesheet with the page size for ``paper`` (``a4`` or ``letter``)."""
+def page_css(paper: str, footer_left: str | None, page_numbers: bool = True) -> str:
+    """The stylesheet with the page size for ``paper`` (``a4`` or ``letter``).
+
+    ``footer_left`` is the text at the foot of every page; ``None`` takes it from each setup
+    sheet's ``data-footer`` (so that sheets laid out as one document keep their own footers).
+    """
     if paper not in PAPER_SIZES:
         raise UserError(f"paper: expected one of {', '.join(PAPER_SIZES)}, got {paper!r}; use --paper a4 or --paper letter")
+    return _page_css(paper, None if footer_left is None else _css_string(footer_left), page_numbers)
+
+
+@lru_cache(maxsize=16)
+def _page_css(paper: str, footer_css: str | None, page_numbers: bool) -> str:
     return environment().get_template("report.css").render(
-        page_size=PAPER_SIZES[paper], footer_left=_css_string(footer_left), page_numbers=page_numbers)
+        page_size=PAPER_SIZES[paper], footer_left=footer_css, page_numbers=page_numbers)
 
 
 def load_plan(fleet_path: str = "", event_path: str = "", plan_path: str = "") -> dict:
@@ -164,15 +174,21 @@ def _reference_text(ref: dict, d: Display = METRIC_EN) -> str:
         "altitude": d.elevation(ref["density_altitude_m"]), "fuel": ref["fuel"]}
 
 
-def _common(plan: dict, paper: str, title: str, page_numbers: bool = True, display: Display = METRIC_EN) -> dict:
+def _footer(title: str) -> str:
+    """The text at the foot of a page: carbfleet's version and ``title``."""
+    return f"carbfleet {__version__} · {title}"
+
+
+def _common(plan: dict, paper: str, title: str | None, page_numbers: bool = True, display: Display = METRIC_EN) -> dict:
+    """The template context every page shares; ``title`` None: the footer comes from the sheet."""
     from tuning import constants
     from tuning.report import CAUTIONS
 
     d = display
     (t_lo, t_hi), (p_lo, p_hi) = constants.SAE_J1349_AIR_TEMPERATURE_RANGE, constants.SAE_J1349_DRY_AIR_PRESSURE_RANGE
     return {
-        "d": d, "_": d._, "lang": d.language,
-        "plan": plan, "css": page_css(paper, f"carbfleet {__version__} · {title}", page_numbers), "stamp": _stamp(plan),
+        "d": d, "_": d._, "lang": d.language, "plan": plan,
+        "css": page_css(paper, None if title is None else _footer(title), page_numbers), "stamp": _stamp(plan),
         "version": __version__,
         "cautions": d._(CAUTIONS), "ref_text": _reference_text(plan["reference"], d),
         "site_elevation": d.elevation(plan["site"]["elevation_m"]),
@@ -198,21 +214,24 @@ LAYOUTS = (("normal", 0), ("compact", 0), ("tight", 0), ("tight", 1), ("tight", 
 
 
 def sheet_html(plan: dict, entries: list[dict], paper: str = "a4", density: str = "normal",
-               condense: int = 0, display: Display = METRIC_EN) -> str:
+               condense: int = 0, display: Display = METRIC_EN, sheet_id: str | None = None) -> str:
     """The setup sheet of one bike (its plan entries, session order) as a self-contained HTML page.
 
     ``density`` (``normal``, ``compact``, ``tight``) shrinks type and chart so a crowded sheet
     (many sessions, many warnings) still prints on one page; ``condense`` (see
     :data:`tables.CONDENSE_LEVELS`) then names a warning's repeats in later sessions instead of
-    writing them out.
+    writing them out. The sheet is one ``div.sheet`` with the id ``sheet_id`` (default
+    ``sheet-<file stem of the bike>``) inside the page's body: :func:`write_sheets` lays several
+    sheets' bodies out as one document and finds each sheet's pages by that id.
     """
     index = _index(plan)
     bike = entries[0]["bike"]
     rows = tables.sheet_rows(entries, index["records"].get(bike), index["work"].get(bike, ()), condense,
                              display, plan.get("sessions", ()))
     # One page by design: no "page n of m" footer (it costs WeasyPrint a second layout pass).
-    context = _common(plan, paper, f"{plan['event']} · sheet {entries[0]['bike']}", page_numbers=False, display=display)
-    context.update(s=rows, density=density, ref_text=_reference_text(entries[0]["reference"], display))
+    context = _common(plan, paper, None, page_numbers=False, display=display)
+    context.update(s=rows, density=density, ref_text=_reference_text(entries[0]["reference"], display),
+                   sheet_id=sheet_id or f"sheet-{safe_stem(bike)}", footer=_footer(f"{plan['event']} · sheet {bike}"))
     return environment().get_template("sheet.html.j2").render(**context)
 
 
@@ -265,16 +284,92 @@ def write_pdf(html: str, path: Path, base_url: Path) -> Path:
     return path
 
 
-def write_sheet(plan: dict, entries: list[dict], html_path: Path, pdf_path: Path, paper: str = "a4") -> int:
-    """Write one bike's sheet as HTML and PDF, on one page if any density allows; return pages."""
-    for density, condense in LAYOUTS:
-        html = sheet_html(plan, entries, paper, density, condense)
-        document = layout(html, pdf_path.parent)
-        if len(document.pages) <= pages_allowed(density):
+def write_sheet(plan: dict, entries: list[dict], html_path: Path, pdf_path: Path, paper: str = "a4",
+                display: Display = METRIC_EN) -> int:
+    """Write one bike's sheet as HTML and PDF, on one page if any layout allows; return pages."""
+    job = SheetJob(entries, html_path, pdf_path, f"sheet-{safe_stem(entries[0]['bike'])}")
+    return write_sheets(plan, [job], paper, display)[0]
+
+
+@dataclass(frozen=True)
+class SheetJob:
+    """One bike's sheet to write: its plan entries, the two files and the sheet's HTML id."""
+
+    entries: list[dict]
+    html_path: Path
+    pdf_path: Path
+    sheet_id: str
+
+
+def write_sheets(plan: dict, jobs: list[SheetJob], paper: str = "a4", display: Display = METRIC_EN) -> list[int]:
+    """Write several bikes' sheets as HTML and PDF, each on one page if any layout allows.
+
+    The sheets are laid out together as ONE WeasyPrint document (their bodies one after
+    another, each starting a page), which saves WeasyPrint's work per document; each bike's
+    pages, found by its sheet's id, are then written as its own PDF. Sheets that spill over a
+    page go through the next entries of :data:`LAYOUTS`, again together. Each HTML file is the
+    bike's own self-contained page, in the layout its PDF got. Returns the page count per job.
+    """
+    pages: list[int] = [0] * len(jobs)
+    pending = list(range(len(jobs)))
+    for step, (density, condense) in enumerate(LAYOUTS):
+        last = step == len(LAYOUTS) - 1
+        htmls = {i: sheet_html(plan, jobs[i].entries, paper, density, condense, display, jobs[i].sheet_id)
+                 for i in pending}
+        document = layout(_one_document([htmls[i] for i in pending]), jobs[pending[0]].pdf_path.parent)
+        by_id = _pages_by_id(document, [jobs[i].sheet_id for i in pending])
+        spilled = []
+        for i in pending:
+            own = by_id[jobs[i].sheet_id]
+            if len(own) > pages_allowed(density) and not last:
+                spilled.append(i)
+                continue
+            jobs[i].html_path.write_text(htmls[i], encoding="utf-8")
+            single = document.copy(own)
+            single.metadata = _sheet_metadata(document, htmls[i])
+            single.write_pdf(str(jobs[i].pdf_path))
+            pages[i] = len(own)
+        del document
+        if not spilled:
             break
-    html_path.write_text(html, encoding="utf-8")
-    document.write_pdf(str(pdf_path))
-    return len(document.pages)
+        pending = spilled
+    return pages
+
+
+def _one_document(pages: list[str]) -> str:
+    """Self-contained sheet pages as one HTML document: the first one's head, every body in order."""
+    first = pages[0]
+    bodies = [page[page.index(">", page.index("<body")) + 1: page.rindex("</body>")] for page in pages]
+    return first[:first.index("<body")] + "<body>" + "".join(bodies) + "</body>\n</html>\n"
+
+
+def _pages_by_id(document, ids: list[str]) -> dict[str, list]:
+    """The pages of each sheet of ``document``, from the page holding its id to the next sheet's."""
+    first_page: dict[str, int] = {}
+    for number, page in enumerate(document.pages):
+        for name in page.anchors:
+            first_page.setdefault(name, number)
+    missing = [i for i in ids if i not in first_page]
+    if missing:
+        raise BuildError(f"sheet {missing[0]!r} has no page in the laid-out document")
+    starts = [first_page[i] for i in ids] + [len(document.pages)]
+    return {i: document.pages[starts[k]:starts[k + 1]] for k, i in enumerate(ids)}
+
+
+_TITLE = re.compile(r"<title>(.*?)</title>", re.S)
+_DESCRIPTION = re.compile(r'<meta name="description" content="([^"]*)">')
+
+
+def _sheet_metadata(document, html: str):
+    """``document``'s PDF metadata with the title and description of the sheet page ``html``
+    (the sheets of one document differ only in these; the rest comes from the first's head)."""
+    import copy
+
+    metadata = copy.copy(document.metadata)
+    title, description = _TITLE.search(html), _DESCRIPTION.search(html)
+    metadata.title = html_lib.unescape(title.group(1)) if title else metadata.title
+    metadata.description = html_lib.unescape(description.group(1)) if description else metadata.description
+    return metadata
 
 
 @lru_cache(maxsize=1)
@@ -301,11 +396,16 @@ class SheetBatch:
                 f"<th>Files</th><th>Warnings</th></tr></thead><tbody>{body}</tbody></table>")
 
 
-def render_setup_sheets(plan: dict, out_dir: str | Path, bikes=(), paper: str = "a4") -> SheetBatch:
+def render_setup_sheets(plan: dict, out_dir: str | Path, bikes=(), paper: str = "a4",
+                        units: str = "metric", language: str = "en") -> SheetBatch:
     """Write ``sheets/<bike>.html`` and ``.pdf`` for ``bikes`` (all when empty) under ``out_dir``.
 
-    Raises :class:`tuning.errors.BuildError` naming the bike whose sheet failed.
+    ``units`` (``metric`` or ``us``) and ``language`` (``en`` or ``de``) are those of what the
+    sheets show (:class:`tuning.display.Display`). The sheets are laid out :data:`SHEETS_PER_DOCUMENT`
+    at a time as one document (:func:`write_sheets`). Raises :class:`tuning.errors.BuildError`
+    naming the bike whose sheet failed.
     """
+    display = Display(units, language)
     out = Path(out_dir)
     (out / "sheets").mkdir(parents=True, exist_ok=True)
     grouped = tables.entries_by_bike(plan)
@@ -316,22 +416,38 @@ def render_setup_sheets(plan: dict, out_dir: str | Path, bikes=(), paper: str = 
         raise UserError(f"bikes: {unknown[0]!r} is not in the plan; give bike ids from the fleet file")
     batch = SheetBatch(out)
     pin_font_timestamps(plan)
-    with gc_paused(collect_every=GC_EVERY_SHEETS) as sheet_done:
-        for bike in wanted:
+    with gc_paused(collect_every=1) as group_done:
+        for start in range(0, len(wanted), SHEETS_PER_DOCUMENT):
+            group = wanted[start:start + SHEETS_PER_DOCUMENT]
+            jobs = [SheetJob(grouped[b], out / "sheets" / f"{names[b]}.html", out / "sheets" / f"{names[b]}.pdf",
+                             f"sheet-{names[b]}") for b in group]
             try:
-                stem = names[bike]
-                write_sheet(plan, grouped[bike], out / "sheets" / f"{stem}.html", out / "sheets" / f"{stem}.pdf", paper)
+                write_sheets(plan, jobs, paper, display)
             except UserError:
                 raise
             except Exception as exc:
-                raise BuildError(f"setup sheet of bike {bike!r} failed: {type(exc).__name__}: {exc}") from exc
-            batch.rows.append((bike, stem, tables.warning_count(grouped[bike], _index(plan)["records"].get(bike))))
-            sheet_done()
+                raise BuildError(f"setup sheet of bike {_failed_bike(plan, group, paper, display)!r} failed: "
+                                 f"{type(exc).__name__}: {exc}") from exc
+            for bike in group:
+                batch.rows.append((bike, names[bike], tables.warning_count(grouped[bike], _index(plan)["records"].get(bike))))
+            group_done()
     return batch
 
 
-#: Sheets rendered between two garbage collections (see :func:`tuning.gcpause.gc_paused`).
-GC_EVERY_SHEETS = 10
+def _failed_bike(plan: dict, group: list[str], paper: str, display: Display) -> str:
+    """The first bike of ``group`` whose sheet cannot be made into HTML (else the group's first)."""
+    grouped = tables.entries_by_bike(plan)
+    for bike in group:
+        try:
+            sheet_html(plan, grouped[bike], paper, display=display)
+        except Exception:
+            return bike
+    return group[0]
+
+
+#: Sheets laid out as one WeasyPrint document (and rendered between two garbage collections,
+#: see :func:`tuning.gcpause.gc_paused`): larger groups save little more and hold more pages in memory.
+SHEETS_PER_DOCUMENT = 10
 
 
 @dataclass
@@ -345,18 +461,23 @@ class FleetReport:
         return self.body_html
 
 
-def render_fleet_report(plan: dict, out_dir: str | Path, paper: str = "a4", notebooks=()) -> FleetReport:
-    """Write ``fleet-summary.html``, ``fleet-summary.pdf`` and ``index.html`` under ``out_dir``."""
+def render_fleet_report(plan: dict, out_dir: str | Path, paper: str = "a4", notebooks=(),
+                        units: str = "metric", language: str = "en") -> FleetReport:
+    """Write ``fleet-summary.html``, ``fleet-summary.pdf`` and ``index.html`` under ``out_dir``.
+
+    ``units`` (``metric`` or ``us``) and ``language`` (``en`` or ``de``): see :class:`tuning.display.Display`.
+    """
+    display = Display(units, language)
     out = Path(out_dir)
     out.mkdir(parents=True, exist_ok=True)
     pin_font_timestamps(plan)
     try:
-        html = summary_html(plan, paper)
+        html = summary_html(plan, paper, display=display)
         (out / "fleet-summary.html").write_text(html, encoding="utf-8")
         # In print the links would point into the temporary build folder: leave them out.
         with gc_paused():
-            write_pdf(summary_html(plan, paper, links=False), out / "fleet-summary.pdf", out)
-        (out / "index.html").write_text(index_html(plan, list(notebooks)), encoding="utf-8")
+            write_pdf(summary_html(plan, paper, links=False, display=display), out / "fleet-summary.pdf", out)
+        (out / "index.html").write_text(index_html(plan, list(notebooks), display=display), encoding="utf-8")
     except UserError:
         raise
     except Exception as exc:
