@@ -117,10 +117,14 @@ def test_us_summary_shows_no_metric_units(demo_plan, tmp_path):
     assert "hPa" not in text and "°C" not in text
 
 
-def test_german_sheet_is_german_with_decimal_commas(demo_plan, tmp_path):
-    bike = demo_plan["entries"][0]["bike"]
+@pytest.mark.parametrize("which", [0, -1])
+def test_german_sheet_is_german_with_decimal_commas(demo_plan, tmp_path, which):
+    bike = demo_plan["entries"][which]["bike"]
     text = _sheet_text(demo_plan, bike, Display("metric", "de"), tmp_path)
     assert "Hauptdüse" in text
     assert "0,9" in text  # the jet-area factor with a decimal comma
-    for english in ("In short", "Air at the sessions", "Change again if", "Cautions"):
-        assert english not in text
+    in_english = _sheet_text(demo_plan, bike, Display(), tmp_path)
+    assert "smaller" in in_english or "larger" in in_english  # the same sheet in English has them
+    for english in ("In short", "Air at the sessions", "Change again if", "Cautions", "smaller", "larger",
+                    "leaner", "richer", "from the shelf", "off bike", "no change", "sheet"):
+        assert english not in text, english

@@ -278,8 +278,8 @@ def say(text_id: str, params: dict | None = None, display: Display = DOCUMENT) -
 
 def _say(text_id: str, params: dict, display: Display) -> str:
     template = TEXTS[text_id]
-    if isinstance(template, tuple):
-        text = display.n_(template[0], template[1], params["count"])
+    if isinstance(template, tuple):  # (one, more): each its own catalogue entry; English and German
+        text = display._(template[0] if params["count"] == 1 else template[1])  # both use one for 1 only
     else:
         text = display._(template)
     values = {name: _shown(name, value, display) for name, value in params.items()}

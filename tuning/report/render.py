@@ -18,7 +18,7 @@ from pathlib import Path
 import jinja2
 
 from tuning import __version__
-from tuning.display import METRIC_EN, Display
+from tuning.display import METRIC_EN, N_, Display
 from tuning.errors import BuildError, UserError
 from tuning.gcpause import gc_paused
 from tuning.report import charts, tables
@@ -27,6 +27,7 @@ from tuning.report.names import safe_file_names, safe_stem
 #: The plan document format this report reads (see tuning/schemas/recommendations.schema.json).
 PLAN_FORMAT = "carbfleet-plan/3"
 PAPER_SIZES = {"a4": "A4 portrait", "letter": "letter portrait"}
+SHEET_WORD = N_("sheet")  # in a sheet's page footer: "<event> · sheet T01"
 TEMPLATES = Path(__file__).resolve().parent / "templates"
 
 # WeasyPrint logs a warning per document when HarfBuzz's subset library is missing; say it once.
@@ -231,7 +232,7 @@ def sheet_html(plan: dict, entries: list[dict], paper: str = "a4", density: str 
     # One page by design: no "page n of m" footer (it costs WeasyPrint a second layout pass).
     context = _common(plan, paper, None, page_numbers=False, display=display)
     context.update(s=rows, density=density, ref_text=_reference_text(entries[0]["reference"], display),
-                   sheet_id=sheet_id or f"sheet-{safe_stem(bike)}", footer=_footer(f"{plan['event']} · sheet {bike}"))
+                   sheet_id=sheet_id or f"sheet-{safe_stem(bike)}", footer=_footer(f"{plan['event']} · {display._(SHEET_WORD)} {bike}"))
     return environment().get_template("sheet.html.j2").render(**context)
 
 
