@@ -28,6 +28,7 @@ from tuning.report.names import safe_file_names, safe_stem
 PLAN_FORMAT = "carbfleet-plan/3"
 PAPER_SIZES = {"a4": "A4 portrait", "letter": "letter portrait"}
 SHEET_WORD = N_("sheet")  # in a sheet's page footer: "<event> · sheet T01"
+SUMMARY_WORD = N_("fleet summary")  # in the summary's page footer
 TEMPLATES = Path(__file__).resolve().parent / "templates"
 
 # WeasyPrint logs a warning per document when HarfBuzz's subset library is missing; say it once.
@@ -188,7 +189,7 @@ def _common(plan: dict, paper: str, title: str | None, page_numbers: bool = True
     d = display
     (t_lo, t_hi), (p_lo, p_hi) = constants.SAE_J1349_AIR_TEMPERATURE_RANGE, constants.SAE_J1349_DRY_AIR_PRESSURE_RANGE
     return {
-        "d": d, "_": d._, "lang": d.language, "plan": plan,
+        "d": d, "_": d._, "ngettext": d.n_, "lang": d.language, "plan": plan,
         "css": page_css(paper, None if title is None else _footer(title), page_numbers), "stamp": _stamp(plan),
         "version": __version__,
         "cautions": d._(CAUTIONS), "ref_text": _reference_text(plan["reference"], d),
@@ -248,7 +249,7 @@ def _index(plan: dict) -> dict:
 
 def summary_html(plan: dict, paper: str = "a4", links: bool = True, display: Display = METRIC_EN) -> str:
     """The fleet summary as a self-contained HTML page."""
-    context = _common(plan, paper, f"{plan['event']} · fleet summary", display=display)
+    context = _common(plan, paper, f"{plan['event']} · {display._(SUMMARY_WORD)}", display=display)
     names = safe_file_names([e["bike"] for e in plan["entries"]])
     context.update(r=tables.summary_rows(plan, names, display), chart_svg=charts.to_svg(charts.weather_chart(plan, display)),
                    links=links)
