@@ -188,3 +188,20 @@ def test_build_passes_units_and_language_on(monkeypatch, capsys, tmp_path, optio
     assert capsys.readouterr().out == "built\n"
     (kwargs,) = calls
     assert (kwargs.get("units"), kwargs.get("language")) == expected
+
+
+def test_build_takes_the_event_files_units_and_the_command_lines_language(demo, capsys):
+    """End to end: ``units: us`` in the event file and ``--language de`` on the command line give
+    German sheets in feet and inHg, a German closing line, and SI files."""
+    add_to_event(demo, "units: us")
+    out = demo / "out"
+    code = main(["build", str(demo / FLEET), str(demo / EVENT), "--out", str(out), "--language", "de", "--workers", "1"])
+    captured = capsys.readouterr()
+    assert code == 0, captured.err
+    assert "Einstellblätter" in captured.out and "built" not in captured.out  # the closing line in German
+    import pypdf
+
+    text = " ".join(pypdf.PdfReader(sorted((out / "sheets").glob("*.pdf"))[0]).pages[0].extract_text().split())
+    assert "5413 ft" in text and "inHg" in text and "hPa" not in text  # 1650 m / 0.3048 (NIST SP 811)
+    assert "Hauptdüse" in text
+    assert "station_pressure_hPa" in (out / "recommendations.csv").read_text(encoding="utf-8").splitlines()[0]

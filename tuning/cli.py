@@ -380,13 +380,11 @@ def cmd_build(args) -> int:
 
     from tuning.report import build
 
-    # Not given: the build takes the event file's setting (tuning.config.display_for). Only the
-    # options given are passed, so a build without them works with a pipeline that lacks them.
-    display = {k: v for k, v in (("units", args.units), ("language", args.language)) if v is not None}
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
+        # units/language None: the event file's setting, else metric/en (tuning.config.display_for)
         result = build(args.fleet, args.event, args.out, paper=args.paper, quiet=args.quiet,
-                       workers=args.workers, policy=args.policy, **display)
+                       workers=args.workers, policy=args.policy, units=args.units, language=args.language)
     for note in dict.fromkeys(str(w.message) for w in caught
                               if not issubclass(w.category, (DeprecationWarning, ResourceWarning))):
         print(one_line(f"carbfleet build: note: {note}"), file=sys.stderr)  # one line each, no source echo

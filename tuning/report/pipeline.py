@@ -117,10 +117,14 @@ class BuildResult:
     warnings: int
     seconds: float
     font_subsetter: str
+    units: str = DEFAULT_UNITS
+    language: str = DEFAULT_LANGUAGE
 
     def summary_line(self) -> str:
-        return (f"built {self.sheets} setup sheets, fleet summary and print pack in {self.out_dir} "
-                f"({self.warnings} warnings, {self.seconds:.1f} s)")
+        d = Display(self.units, self.language)
+        return d._("built %(sheets)s setup sheets, fleet summary and print pack in %(out)s "
+                   "(%(warnings)s warnings, %(seconds)s s)") % {
+            "sheets": self.sheets, "out": self.out_dir, "warnings": self.warnings, "seconds": d.number(self.seconds, 1)}
 
 
 def font_subsetter() -> str:
@@ -323,7 +327,7 @@ def build_from_plan(plan: dict, out_dir: str | Path, paper: str = "a4", quiet: b
             raise output.os_problem("--out", out, exc) from exc
         raise BuildError(f"build failed at step '{step}': {type(exc).__name__}: {exc}") from exc
     return BuildResult(out, len(bikes), int(plan.get("warnings_count", 0)),
-                       time.perf_counter() - started, font_subsetter())
+                       time.perf_counter() - started, font_subsetter(), units, language)
 
 
 def _absolute(path: str) -> str:
