@@ -15,6 +15,9 @@ import warnings
 import pypdf
 import pytest
 
+from tuning.display import Display
+from tuning.plan.notices import say_item
+
 import scenarios
 from test_report import read_cells
 from tuning.config import load_event, load_fleet
@@ -77,7 +80,7 @@ def test_summary_leads_with_the_bikes_in_danger_downhill_without_stock(downhill_
     first = next(e for e in plan["entries"] if e["bike"] == in_danger[0] and
                  any(w["severity"] == "danger" for w in e["warnings"]))
     for w in (w for w in first["warnings"] if w["severity"] == "danger"):
-        assert " ".join(w["message"].split()) in box  # the first session's danger in full
+        assert " ".join(say_item(w, Display()).split()) in box  # the first session's danger in full, as shown
     # on paper too: the first page of the summary's PDF starts with the danger box
     render.write_pdf(render.summary_html(plan, links=False), tmp_path / "summary.pdf", tmp_path)
     page1 = " ".join(pypdf.PdfReader(tmp_path / "summary.pdf").pages[0].extract_text().split())
@@ -95,7 +98,7 @@ def test_summary_groups_warnings_by_severity_and_they_add_up(downhill):
     assert heads == sorted(heads)
     for record in downhill["bikes"]:  # bike notices listed once, with their bikes
         for w in record["notices"]:
-            assert " ".join(w["message"].split()) in text
+            assert " ".join(say_item(w, Display()).split()) in text
 
 
 def test_summary_pick_list_shows_to_order(demo):
