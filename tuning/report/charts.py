@@ -1,8 +1,10 @@
-"""Altair charts of the plan, and their static SVG (vl-convert) for print. No physics here."""
+"""Altair charts of the plan (the fleet summary's weather), and their static SVG (vl-convert) for print.
+
+No physics here. The setup sheets carry no chart: a verdict per throttle range reads quicker.
+"""
 
 from __future__ import annotations
 
-import base64
 import datetime as dt
 import json
 from functools import lru_cache
@@ -57,12 +59,6 @@ def _printable(value):
     if isinstance(value, list):
         return [_printable(item) for item in value]
     return value
-
-
-def svg_data_uri(svg: str) -> str:
-    """The SVG as a ``data:`` URL for an ``<img>``: WeasyPrint lays it out about 15 % faster per
-    sheet than the same SVG inline (its elements stay out of the page's style cascade)."""
-    return "data:image/svg+xml;base64," + base64.b64encode(svg.encode("utf-8")).decode("ascii")
 
 
 @lru_cache(maxsize=256)

@@ -376,7 +376,7 @@ def _sheet_metadata(document, html: str):
 
 @lru_cache(maxsize=1)
 def _no_fetch():
-    """A fetcher that reads ``data:`` URLs only (the sheet's chart); any other URL stops the
+    """A fetcher that reads ``data:`` URLs only; any other URL stops the
     rendering: carbfleet reports load nothing from outside the page."""
     from weasyprint.urls import URLFetcher
 
