@@ -362,3 +362,21 @@ def test_sheets_laid_out_as_one_document_give_each_bike_its_own_page(tmp_path):
     assert order.index(density("T003")) >= order.index(density("T001"))  # a layout no earlier than the others'
     crowded = (tmp_path / "T003.html").read_text(encoding="utf-8")
     assert "also in" in crowded and "also in" not in (tmp_path / "T001.html").read_text(encoding="utf-8")  # condensed
+
+
+def test_remembered_layouts_give_the_sheets_they_would_get_anyway(tmp_path):
+    # regression check of render.write_sheets' memory of layouts by sheet shape (a speed-up, not
+    # validation): the same plan rendered with and without it gives the same layout per sheet
+    plan = report_fixtures.make_plan(n_bikes=6, n_sessions=4)
+    grouped = tables.entries_by_bike(plan)
+    densities = {}
+    for memory in (None, {}):
+        folder = tmp_path / ("with" if memory is not None else "without")
+        folder.mkdir()
+        jobs = [render.SheetJob(entries, folder / f"{bike}.html", folder / f"{bike}.pdf", f"sheet-{bike}")
+                for bike, entries in grouped.items()]
+        for k in range(0, len(jobs), 3):
+            assert render.write_sheets(plan, jobs[k:k + 3], "a4", fitted=memory) == [1] * len(jobs[k:k + 3])
+        densities[memory is not None] = [re.search(r'<div class="sheet ([a-z ]+)"', job.html_path.read_text(
+            encoding="utf-8")).group(1) for job in jobs]
+    assert densities[True] == densities[False]

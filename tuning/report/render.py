@@ -303,7 +303,8 @@ class SheetJob:
     sheet_id: str
 
 
-def write_sheets(plan: dict, jobs: list[SheetJob], paper: str = "a4", display: Display = METRIC_EN) -> list[int]:
+def write_sheets(plan: dict, jobs: list[SheetJob], paper: str = "a4", display: Display = METRIC_EN,
+                 fitted: dict | None = None) -> list[int]:
     """Write several bikes' sheets as HTML and PDF, each on one page if any layout allows.
 
     The sheets are laid out together as ONE WeasyPrint document (their bodies one after
@@ -311,31 +312,60 @@ def write_sheets(plan: dict, jobs: list[SheetJob], paper: str = "a4", display: D
     pages, found by its sheet's id, are then written as its own PDF. Sheets that spill over a
     page go through the next entries of :data:`LAYOUTS`, again together. Each HTML file is the
     bike's own self-contained page, in the layout its PDF got. Returns the page count per job.
+
+    ``fitted`` (kept by the caller across calls, e.g. for one notebook's shard) remembers the
+    layout that sheets of each :func:`sheet_shape` fitted in: a sheet of a shape seen before
+    starts there instead of being laid out again in every looser layout (most of a fleet's
+    sheets share a few shapes; this halves the layout work of a build).
     """
+    fitted = {} if fitted is None else fitted
+    shapes = [sheet_shape(plan, job.entries) for job in jobs]
+    first = [fitted.get(shape, 0) for shape in shapes]
     pages: list[int] = [0] * len(jobs)
     pending = list(range(len(jobs)))
     for step, (density, condense) in enumerate(LAYOUTS):
         last = step == len(LAYOUTS) - 1
+        now = [i for i in pending if first[i] <= step]
+        if not now:
+            continue
         htmls = {i: sheet_html(plan, jobs[i].entries, paper, density, condense, display, jobs[i].sheet_id)
-                 for i in pending}
-        document = layout(_one_document([htmls[i] for i in pending]), jobs[pending[0]].pdf_path.parent)
-        by_id = _pages_by_id(document, [jobs[i].sheet_id for i in pending])
-        spilled = []
-        for i in pending:
+                 for i in now}
+        document = layout(_one_document([htmls[i] for i in now]), jobs[now[0]].pdf_path.parent)
+        by_id = _pages_by_id(document, [jobs[i].sheet_id for i in now])
+        for i in now:
             own = by_id[jobs[i].sheet_id]
             if len(own) > pages_allowed(density) and not last:
-                spilled.append(i)
                 continue
             jobs[i].html_path.write_text(htmls[i], encoding="utf-8")
             single = document.copy(own)
             single.metadata = _sheet_metadata(document, htmls[i])
             single.write_pdf(str(jobs[i].pdf_path))
             pages[i] = len(own)
+            fitted.setdefault(shapes[i], step)
+            pending.remove(i)
         del document
-        if not spilled:
+        if not pending:
             break
-        pending = spilled
     return pages
+
+
+def sheet_shape(plan: dict, entries: list[dict]) -> tuple:
+    """What decides how much room a bike's sheet needs, coarsely: its sessions, notes, warnings
+    (count and length), checks, work-order changes and which circuits change. Sheets of one shape
+    fit the same layout (the ids and numbers that differ between them take the same room)."""
+    index = _index(plan)
+    bike = entries[0]["bike"]
+    record = index["records"].get(bike) or {}
+    return (
+        len(entries), len(entries[0].get("notes") or "") // 60,
+        tuple(len(e["warnings"]) for e in entries),
+        sum(len(w["message"]) for e in entries for w in e["warnings"]) // 120,
+        len(record.get("notices", ())),
+        sum(len(row["changes"]) for _order, row in index["work"].get(bike, ())),
+        tuple(len(e["checks"]) for e in entries),
+        tuple(bool(e["settings"][key].get("steps") or e["settings"][key].get("change_turns"))
+              for e in entries for key in ("main_jet", "pilot_jet", "clip", "mixture_screw")),
+    )
 
 
 def _one_document(pages: list[str]) -> str:
@@ -418,13 +448,14 @@ def render_setup_sheets(plan: dict, out_dir: str | Path, bikes=(), paper: str = 
         raise UserError(f"bikes: {unknown[0]!r} is not in the plan; give bike ids from the fleet file")
     batch = SheetBatch(out)
     pin_font_timestamps(plan)
+    fitted: dict = {}  # sheet shape -> the layout such sheets fitted in (see write_sheets)
     with gc_paused(collect_every=1) as group_done:
         for start in range(0, len(wanted), SHEETS_PER_DOCUMENT):
             group = wanted[start:start + SHEETS_PER_DOCUMENT]
             jobs = [SheetJob(grouped[b], out / "sheets" / f"{names[b]}.html", out / "sheets" / f"{names[b]}.pdf",
                              f"sheet-{names[b]}") for b in group]
             try:
-                write_sheets(plan, jobs, paper, display)
+                write_sheets(plan, jobs, paper, display, fitted)
             except UserError:
                 raise
             except Exception as exc:
