@@ -1,6 +1,6 @@
-# carbfleet: `make demo` builds the demo fleet's reports, `make test` runs the whole suite.
-# Both create the virtual environment .venv on first use; `make demo` installs only what
-# carbfleet needs to run, `make test` adds the test extra.
+# carbfleet: `make demo` builds the demo fleet's reports, `make test` lints (ruff) and runs the
+# whole suite. Both create the virtual environment .venv on first use; `make demo` installs only
+# what carbfleet needs to run, `make test` adds the test extra.
 PYTHON ?= python3
 VENV   ?= .venv
 PY      = $(VENV)/bin/python
@@ -29,6 +29,7 @@ demo: $(STAMP)
 	@echo "open out/index.html (metric, English), out-us/index.html (US units), out-de/index.html (German)"
 
 test: $(TESTSTAMP)
+	$(PY) -m ruff check tuning tests benchmarks
 	$(PY) -m pytest
 
 bench: $(TESTSTAMP)

@@ -13,7 +13,7 @@ import tempfile
 import time
 import warnings
 from dataclasses import replace
-from datetime import datetime, timedelta, timezone
+from datetime import UTC, datetime, timedelta
 from pathlib import Path
 from zoneinfo import ZoneInfo
 
@@ -57,7 +57,7 @@ def build(n_bikes: int, n_hours: int, random_state: int = 7, n_sessions: int = 1
     fleet = m.Fleet("bench", reference, fuels, families, needles, models, tuple(bikes), stock)
     zone = ZoneInfo("Europe/Vienna")
     start = datetime(2026, 6, 13, 0, 0, tzinfo=zone)
-    times = np.array([np.datetime64((start + timedelta(hours=h)).astimezone(timezone.utc).replace(tzinfo=None), "s")
+    times = np.array([np.datetime64((start + timedelta(hours=h)).astimezone(UTC).replace(tzinfo=None), "s")
                       for h in range(n_hours + 2)])
     temperature = 283.15 + 8.0 * np.sin(np.arange(n_hours + 2) / 24 * 2 * np.pi)
     weather = m.Weather(times, temperature, np.full(n_hours + 2, 101500.0), "qnh",

@@ -9,7 +9,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import replace
-from datetime import datetime, timedelta, timezone
+from datetime import UTC, datetime, timedelta
 from zoneinfo import ZoneInfo
 
 import numpy as np
@@ -149,7 +149,7 @@ def event(elevation=1500.0, celsius=15.0, relative_humidity=0.5, pressure=None, 
     start = start_local.replace(tzinfo=zone)
     n = hours + 3
     t0 = start - timedelta(hours=1)
-    times = np.array([np.datetime64((t0 + timedelta(hours=i)).astimezone(timezone.utc).replace(tzinfo=None), "s")
+    times = np.array([np.datetime64((t0 + timedelta(hours=i)).astimezone(UTC).replace(tzinfo=None), "s")
                       for i in range(n)])
     if pressure is None:
         pressure = 101325.0 * (1 - 2.25577e-5 * elevation) ** 5.25588  # ISA barometric formula

@@ -16,9 +16,9 @@ from pathlib import Path
 
 import pypdf
 import pytest
-
 import report_fixtures
 from test_report import read_cells
+
 from tuning.errors import BuildError
 from tuning.report import pipeline, tables, turns_text
 from tuning.report.names import safe_file_names

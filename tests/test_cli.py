@@ -15,8 +15,8 @@ import time
 from pathlib import Path
 
 import pytest
-
 import report_fixtures
+
 from tuning import __version__
 from tuning.cli import main
 from tuning.report import pipeline

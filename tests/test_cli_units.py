@@ -13,10 +13,9 @@ from pathlib import Path
 
 import pytest
 
-from tuning.display import Display
-
 import tuning.report
 from tuning.cli import main
+from tuning.display import Display
 
 DEMO = Path(__file__).resolve().parent.parent / "tuning" / "demo"
 FLEET, EVENT = "demo-fleet.yaml", "demo-event.yaml"

@@ -7,7 +7,7 @@ Each problem test edits the demo files in a temporary folder and checks the mess
 from __future__ import annotations
 
 import math
-from datetime import datetime, timezone
+from datetime import UTC, datetime
 from pathlib import Path
 
 import numpy as np
@@ -110,7 +110,7 @@ def test_demo_event(fleet):
     assert len(event.sessions) == 4 and event.fuel == "e10"
     first = event.sessions[0]
     # 09:00 CEST = 07:00 UTC (Europe/Vienna is UTC+2 in June)
-    assert first.start.astimezone(timezone.utc) == datetime(2026, 6, 13, 7, 0, tzinfo=timezone.utc)
+    assert first.start.astimezone(UTC) == datetime(2026, 6, 13, 7, 0, tzinfo=UTC)
     w = event.weather
     assert w.time.dtype == np.dtype("datetime64[s]") and w.pressure_kind == "qnh" and w.humidity_kind == "relative"
     assert w.time[0] == np.datetime64("2026-06-12T22:00:00")  # 00:00 local
@@ -325,7 +325,7 @@ def test_time_with_offset_needs_no_zone(demo):
     text = text.replace("2026-06-13 12:00", "2026-06-13T12:00+02:00")
     (demo / "x.yaml").write_text(text)
     event = load_event(demo / "x.yaml")
-    assert event.sessions[0].start.astimezone(timezone.utc).hour == 7
+    assert event.sessions[0].start.astimezone(UTC).hour == 7
 
 
 def test_unknown_time_zone(demo):
@@ -381,7 +381,7 @@ def test_csv_time_not_increasing(demo):
 
 
 def test_not_utf8(demo):
-    raw = (demo / FLEET).read_bytes().replace("Invented Riding School".encode(), "Riding Sch\xf6ol".encode("latin-1"))
+    raw = (demo / FLEET).read_bytes().replace(b"Invented Riding School", "Riding Sch\xf6ol".encode("latin-1"))
     (demo / FLEET).write_bytes(raw)
     p = problems(load_fleet, demo / FLEET)[0]
     assert "not UTF-8" in p.message and p.line == 4

@@ -358,7 +358,6 @@ def test_weather_row_in_a_far_year_is_one_located_line(demo, capsys, stamp):
 
 # --- 13. size limits, checked when loading (tuning.config.limits) -----------------------------
 def _with_bikes(demo, count):
-    text = (demo / FLEET).read_text()
     bikes = "".join(f"  - {{id: G{i:06d}, model: trail-125-4s}}\n" for i in range(count))
     return edit(demo / FLEET, "\nstock:\n", bikes + "\nstock:\n")
 

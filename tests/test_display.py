@@ -24,6 +24,7 @@ def demo_plan(tmp_path_factory):
     import warnings
 
     import scenarios
+
     from tuning.config import load_event, load_fleet
     from tuning.plan import make_plan
 

@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from datetime import datetime, timezone
+from datetime import UTC, datetime
 
 import numpy as np
 import pytest
@@ -12,7 +12,7 @@ from tuning.config.spec import Context
 from tuning.config.weather import read_metar
 from tuning.errors import ConfigError
 
-NEAR = datetime(2026, 6, 13, 9, 0, tzinfo=timezone.utc)
+NEAR = datetime(2026, 6, 13, 9, 0, tzinfo=UTC)
 
 
 def read(reports, near=NEAR):
@@ -46,13 +46,13 @@ def test_reports_are_sorted_by_time():
 
 def test_previous_month_when_day_is_far_ahead():
     # a report of the 31st before a session on 1 June is from 31 May, not from a 31 June
-    near = datetime(2026, 6, 1, 8, 0, tzinfo=timezone.utc)
+    near = datetime(2026, 6, 1, 8, 0, tzinfo=UTC)
     weather, found = read(["XKSL 312350Z 27004KT 9999 07/05 Q1021"], near)
     assert not found and weather.time[0] == np.datetime64("2026-05-31T23:50:00")
 
 
 def test_year_turn():
-    near = datetime(2027, 1, 1, 9, 0, tzinfo=timezone.utc)
+    near = datetime(2027, 1, 1, 9, 0, tzinfo=UTC)
     weather, _ = read(["XKSL 312350Z 27004KT 9999 M07/M09 Q1021"], near)
     assert weather.time[0] == np.datetime64("2026-12-31T23:50:00")
 

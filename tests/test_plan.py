@@ -15,12 +15,12 @@ from pathlib import Path
 
 import jsonschema
 import numpy as np
+import plan_fixtures as pf
 import pytest
 from CoolProp.HumidAirProp import HAPropsSI
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-import plan_fixtures as pf
 from tuning import plan
 from tuning.errors import UserError
 

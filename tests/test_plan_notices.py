@@ -14,8 +14,8 @@ from pathlib import Path
 
 import pint
 import pytest
-
 import scenarios
+
 from tuning.config import load_event, load_fleet
 from tuning.display import Display
 from tuning.plan import document, make_plan, notices

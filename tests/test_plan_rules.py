@@ -14,17 +14,18 @@ from __future__ import annotations
 
 import math
 from collections import Counter
+from datetime import UTC
 
+import plan_fixtures as pf
 import pytest
+import scenarios
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-import plan_fixtures as pf
-import scenarios
 from tuning.config import load_event, load_fleet
 from tuning.config import model as m
-from tuning.plan import make_plan
 from tuning.plan import LEAN_GUARD as PLAN_LEAN_GUARD
+from tuning.plan import make_plan
 from tuning.plan.notices import BIKE_CODES, CODES
 
 #: The documented lean guard (README, "How a setting is chosen"): at most 2 % leaner than the
@@ -155,7 +156,7 @@ def test_no_jet_is_claimed_twice(case):
         assert all(n == 1 for n in from_bikes.values()), (name, order["label"], from_bikes)
     if fleet.stock:
         on_shelf = Counter()
-        for (family, size), count in fleet.stock.items():
+        for (_family, size), count in fleet.stock.items():
             on_shelf[size] += count
         for size, used in shelf_used.items():
             assert used <= on_shelf[size], (name, size)
@@ -210,7 +211,7 @@ def test_event_policy_changes_no_more_than_the_session_policy(tmp_path):
 
 def alternating_event(warm_c=24.0, cold_c=8.0, sessions=4, elevation=1500.0):
     """Sessions of two hours alternating warm and cold air (invented weather)."""
-    from datetime import datetime, timedelta, timezone
+    from datetime import datetime, timedelta
     from zoneinfo import ZoneInfo
 
     import numpy as np
@@ -220,7 +221,7 @@ def alternating_event(warm_c=24.0, cold_c=8.0, sessions=4, elevation=1500.0):
     spans = [(start + timedelta(hours=3 * i), start + timedelta(hours=3 * i + 2)) for i in range(sessions)]
     hours = [start - timedelta(hours=1) + timedelta(hours=h) for h in range(3 * sessions + 2)]
     temps = [273.15 + (warm_c if ((t - start).total_seconds() // 3600) // 3 % 2 == 0 else cold_c) for t in hours]
-    weather = m.Weather(np.array([np.datetime64(t.astimezone(timezone.utc).replace(tzinfo=None), "s") for t in hours]),
+    weather = m.Weather(np.array([np.datetime64(t.astimezone(UTC).replace(tzinfo=None), "s") for t in hours]),
                         np.array(temps), np.full(len(hours), 101325.0 * (1 - 2.25577e-5 * elevation) ** 5.25588),
                         "station", np.full(len(hours), 0.5), "relative", "test")
     return m.Event("alternating", m.Site("Test Ridge", elevation, pf.ZONE),
@@ -237,7 +238,7 @@ def test_event_policy_does_not_go_back_and_forth_where_the_session_policy_would(
     default = make_plan(fleet, event)
     flips = 0
     for key in ("main_jet", "pilot_jet", "clip"):
-        for bike, seq in sequences(per_session, key).items():
+        for _bike, seq in sequences(per_session, key).items():
             flips += sum(a == c != b for a, b, c in zip(seq, seq[1:], seq[2:]))
         for bike, seq in sequences(default, key).items():
             for a, b, c in zip(seq, seq[1:], seq[2:]):

@@ -12,8 +12,8 @@ import os
 from pathlib import Path
 
 import pytest
-
 import scenarios
+
 from tuning.cli import main
 
 SNAPSHOTS = Path(__file__).resolve().parent / "snapshots"

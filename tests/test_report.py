@@ -13,8 +13,8 @@ from pathlib import Path
 
 import pypdf
 import pytest
-
 import report_fixtures
+
 from tuning.errors import UserError
 from tuning.plan.notices import BIKE_CODES, CODES
 from tuning.report import CAUTIONS, render, tables
@@ -130,7 +130,7 @@ def test_crowded_sheet_still_fits_one_page(plan4, tmp_path):
 
 
 def test_sheet_html_shows_every_setting_of_the_plan(plan4):
-    for bike, entries in tables.entries_by_bike(plan4).items():
+    for _bike, entries in tables.entries_by_bike(plan4).items():
         cells = read_cells(render.sheet_html(plan4, entries))
         for i, e in enumerate(entries):
             s = e["settings"]

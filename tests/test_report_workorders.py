@@ -14,15 +14,13 @@ import warnings
 
 import pypdf
 import pytest
-
-from tuning.display import Display
-from tuning.plan.notices import say_item
-
 import scenarios
 from test_report import read_cells
+
 from tuning.config import load_event, load_fleet
+from tuning.display import Display
 from tuning.plan import make_plan
-from tuning.plan.notices import SEVERITIES
+from tuning.plan.notices import SEVERITIES, say_item
 from tuning.report import CAUTIONS, render, tables
 from tuning.report.names import safe_file_names
 

@@ -377,7 +377,6 @@ def cmd_build(args) -> int:
     import warnings
 
     from tuning.config.spec import one_line
-
     from tuning.report import build
 
     with warnings.catch_warnings(record=True) as caught:

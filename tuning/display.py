@@ -13,7 +13,7 @@ from __future__ import annotations
 
 import io
 from dataclasses import dataclass
-from functools import lru_cache
+from functools import cache
 from importlib import resources
 
 UNIT_SYSTEMS = ("metric", "us")
@@ -35,7 +35,7 @@ def N_(text: str) -> str:
     return text
 
 
-@lru_cache(maxsize=None)
+@cache
 def translations(language: str):
     """The Babel translations of ``language``, compiled in memory from the shipped ``.po`` file."""
     from babel.messages.mofile import write_mo

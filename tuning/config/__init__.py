@@ -15,7 +15,7 @@ each: ``file:line: path.to.field: problem``.
 from __future__ import annotations
 
 from collections import Counter
-from datetime import timezone
+from datetime import UTC
 from zoneinfo import ZoneInfo
 
 import numpy as np
@@ -122,8 +122,8 @@ def summarize(fleet: model.Fleet, event: model.Event | None = None) -> str:
         start, end = s.start.astimezone(zone), s.end.astimezone(zone)
         lines.append(f"  session {s.name}: {start:%Y-%m-%d %H:%M}–{end:%H:%M} {start:%Z}")
     w = event.weather
-    first = w.time[0].astype("datetime64[s]").item().replace(tzinfo=timezone.utc).astimezone(zone)
-    last = w.time[-1].astype("datetime64[s]").item().replace(tzinfo=timezone.utc).astimezone(zone)
+    first = w.time[0].astype("datetime64[s]").item().replace(tzinfo=UTC).astimezone(zone)
+    last = w.time[-1].astype("datetime64[s]").item().replace(tzinfo=UTC).astimezone(zone)
     t = _celsius(np.asarray(w.air_temperature))
     lines.append(
         f"  weather: {w.source}, {len(w.time)} samples {first:%Y-%m-%d %H:%M}..{last:%Y-%m-%d %H:%M} {last:%Z}, "

@@ -18,7 +18,7 @@ interpolates in time and never extrapolates.
 from __future__ import annotations
 
 import zoneinfo
-from datetime import datetime, timezone
+from datetime import UTC, datetime
 from pathlib import Path
 
 import numpy as np
@@ -245,7 +245,7 @@ def _line_key(problem) -> int:
 
 
 def _utc64(t: datetime) -> np.datetime64:
-    return np.datetime64(t.astimezone(timezone.utc).replace(tzinfo=None), "s")
+    return np.datetime64(t.astimezone(UTC).replace(tzinfo=None), "s")
 
 
 def _check_coverage(weather: model.Weather, sessions, ctx: Context) -> None:

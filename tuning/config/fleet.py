@@ -25,7 +25,6 @@ import numpy as np
 from tuning import air
 from tuning.config import model
 from tuning.config.limits import MAX_BIKES
-from tuning.fuel import blend
 from tuning.config.source import display_name, load_yaml
 from tuning.config.spec import (
     INVALID,
@@ -47,6 +46,7 @@ from tuning.config.spec import (
     top_level_keys,
 )
 from tuning.errors import ConfigError, Problem, WrongFileError
+from tuning.fuel import blend
 
 __all__ = ["load_fleet", "fleet_spec", "DEFAULT_NEEDLE", "DEFAULT_SCREW_RANGE"]
 

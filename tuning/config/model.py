@@ -13,10 +13,11 @@ Conventions of the trade kept here (common practice):
 
 from __future__ import annotations
 
+from collections.abc import Mapping
 from dataclasses import dataclass
 from datetime import datetime
 from pathlib import Path
-from typing import Literal, Mapping
+from typing import Literal
 
 import numpy as np
 

@@ -13,8 +13,9 @@ from __future__ import annotations
 
 import difflib
 import math
+from collections.abc import Callable
 from dataclasses import dataclass, field
-from typing import Any, Callable
+from typing import Any
 
 import yaml
 

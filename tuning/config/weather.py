@@ -51,7 +51,7 @@ import math
 import re
 import warnings
 import zoneinfo
-from datetime import datetime, timedelta, timezone
+from datetime import UTC, datetime, timedelta
 
 import numpy as np
 
@@ -63,8 +63,8 @@ from tuning.config.fleet import (
     PRESSURE_RANGE,
     STATION_PRESSURE_MIN,
     TEMPERATURE_RANGE,
-    station_pressures,
     station_pressure_problem,
+    station_pressures,
 )
 from tuning.config.limits import MAX_WEATHER_ROWS
 from tuning.config.source import display_name, read_text
@@ -117,7 +117,7 @@ def parse_local_time(text: str, zone: zoneinfo.ZoneInfo | None) -> datetime:
             "add site.time_zone (an IANA name such as Europe/Vienna) or an offset such as +02:00"
         )
     local = value.replace(tzinfo=zone)
-    back = local.astimezone(timezone.utc).astimezone(zone)
+    back = local.astimezone(UTC).astimezone(zone)
     if back.replace(tzinfo=None) != value:
         before = (local - timedelta(hours=12)).utcoffset()
         after = (local + timedelta(hours=12)).utcoffset()
@@ -145,7 +145,7 @@ def _second_of_repeated(when: datetime, previous: datetime | None) -> datetime:
     second = when.replace(fold=1)
     if second.utcoffset() == when.utcoffset():  # not a repeated time
         return when
-    if when.astimezone(timezone.utc) <= previous < second.astimezone(timezone.utc):
+    if when.astimezone(UTC) <= previous < second.astimezone(UTC):
         return second
     return when
 
@@ -227,7 +227,7 @@ def read_weather_csv(path, zone: zoneinfo.ZoneInfo | None, elevation: float | No
         except ValueError as exc:
             ctx.add(line, "time", str(exc))
             continue
-        when = _second_of_repeated(when, times[-1] if times else None).astimezone(timezone.utc)
+        when = _second_of_repeated(when, times[-1] if times else None).astimezone(UTC)
         if times and when <= times[-1]:
             ctx.add(line, "time", f"{row[columns['time'][0]]} is not after the previous row's time; sort the rows, one per time")
             continue
@@ -306,7 +306,7 @@ def _rows(text: str):
 
 
 def _utc_array(times: list[datetime]) -> np.ndarray:
-    return np.array([t.astimezone(timezone.utc).replace(tzinfo=None) for t in times], dtype="datetime64[s]")
+    return np.array([t.astimezone(UTC).replace(tzinfo=None) for t in times], dtype="datetime64[s]")
 
 
 def read_metar(reports: list[str], near: datetime, ctx: Context, path: str, elevation: float | None = None) -> model.Weather | None:
@@ -318,7 +318,7 @@ def read_metar(reports: list[str], near: datetime, ctx: Context, path: str, elev
     """
     from metar import Metar  # imported here: only needed for METAR lists
 
-    near_utc = near.astimezone(timezone.utc)
+    near_utc = near.astimezone(UTC)
     samples = []
     for i, text in enumerate(reports):
         sub = f"{path}[{i}]"
@@ -341,7 +341,7 @@ def read_metar(reports: list[str], near: datetime, ctx: Context, path: str, elev
                 continue
             if report.time is None:
                 continue
-            when = report.time.replace(tzinfo=timezone.utc)
+            when = report.time.replace(tzinfo=UTC)
             candidates.append((abs(when - near_utc), when, report))
         if not candidates:
             ctx.at_path(sub, f"cannot read this METAR report: {error or 'no day/time group (DDHHMMZ)'}")

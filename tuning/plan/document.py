@@ -7,7 +7,7 @@ precision; no clock. Described field by field in ``tuning/schemas/recommendation
 from __future__ import annotations
 
 import warnings as pywarnings
-from datetime import datetime, timezone
+from datetime import UTC, datetime
 from zoneinfo import ZoneInfo
 
 import numpy as np
@@ -57,7 +57,7 @@ def jet_number(value):
 
 
 def _iso(seconds, zone):
-    return datetime.fromtimestamp(int(seconds), timezone.utc).astimezone(zone).isoformat()
+    return datetime.fromtimestamp(int(seconds), UTC).astimezone(zone).isoformat()
 
 
 def _air_fields(state, index=None):

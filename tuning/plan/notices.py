@@ -28,7 +28,7 @@ Parameters are plain JSON values, stored at the precision the English text print
 from __future__ import annotations
 
 from dataclasses import dataclass
-from functools import lru_cache
+from functools import cache, lru_cache
 
 from tuning.display import N_, Display
 
@@ -288,7 +288,7 @@ def _say(text_id: str, params: dict, display: Display) -> str:
     return text % values
 
 
-@lru_cache(maxsize=None)
+@cache
 def _said_alone(text_id: str, display: Display) -> str:
     return _say(text_id, {}, display)
 

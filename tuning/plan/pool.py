@@ -115,7 +115,7 @@ def pick_list(fitted, plan, stock):
     fitted_now = Counter(f[kind] for f in fitted for kind in KINDS)
     keys = set()
     for b, per_session in enumerate(plan):
-        for s, chosen in enumerate(per_session):
+        for chosen in per_session:
             for kind in KINDS:
                 if chosen[kind] != fitted[b][kind]:
                     keys.add(chosen[kind])

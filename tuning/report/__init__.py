@@ -29,7 +29,6 @@ CAUTIONS = N_(
     "Return to the baseline settings before riding at low altitude again."
 )
 
-from tuning.report.tables import turns as turns_text  # noqa: E402
 from tuning.report.render import (  # noqa: E402
     FleetReport,
     SheetBatch,
@@ -37,6 +36,7 @@ from tuning.report.render import (  # noqa: E402
     render_fleet_report,
     render_setup_sheets,
 )
+from tuning.report.tables import turns as turns_text  # noqa: E402
 
 
 def build(*args, **kwargs):

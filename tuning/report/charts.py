@@ -15,6 +15,7 @@ import vl_convert
 from tuning.config.spec import one_line
 from tuning.display import METRIC_EN, Display
 
+
 def weather_chart(plan: dict, display: Display = METRIC_EN, width: int = 560, height: int = 110) -> alt.VConcatChart:
     """Density altitude (display units) and the air-only jet-area factor over time, sessions shaded."""
     d = display

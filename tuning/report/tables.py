@@ -66,7 +66,7 @@ def window(start: str, end: str, display: Display = METRIC_EN) -> str:
     return f"{day(start, display)} {clock(start)} – {day(end, display)} {clock(end)}"
 
 
-def entries_by_bike(plan: dict) -> "OrderedDict[str, list[dict]]":
+def entries_by_bike(plan: dict) -> OrderedDict[str, list[dict]]:
     """Group the plan's entries by bike, keeping the fleet file's bike order and session order."""
     grouped: OrderedDict[str, list[dict]] = OrderedDict()
     for entry in plan["entries"]:
@@ -124,7 +124,7 @@ def _changed(key: str, s: dict) -> bool:
     return bool(s.get("steps"))
 
 
-def _grouped_warnings(entries: list[dict], d: Display = METRIC_EN) -> "OrderedDict[tuple[str, str, str], list[str]]":
+def _grouped_warnings(entries: list[dict], d: Display = METRIC_EN) -> OrderedDict[tuple[str, str, str], list[str]]:
     """(severity, code, message) -> the sessions that carry it, in the plan's order."""
     grouped: OrderedDict[tuple[str, str, str], list[str]] = OrderedDict()
     for e in entries:
