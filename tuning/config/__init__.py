@@ -23,6 +23,7 @@ import numpy as np
 from tuning.config import model
 from tuning.config.event import event_spec, load_event
 from tuning.config.fleet import fleet_spec, load_fleet
+from tuning.constants import ZERO_CELSIUS
 from tuning.display import DEFAULT_LANGUAGE, DEFAULT_UNITS, Display
 
 __all__ = ["load_fleet", "load_event", "fleet_schema", "event_schema", "summarize", "display_for", "model"]
@@ -65,7 +66,7 @@ def display_for(event: model.Event | None = None, units: str | None = None, lang
 
 
 def _celsius(kelvin: float) -> float:
-    return kelvin - 273.15
+    return kelvin - ZERO_CELSIUS
 
 
 def summarize(fleet: model.Fleet, event: model.Event | None = None) -> str:

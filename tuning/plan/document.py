@@ -27,15 +27,15 @@ FORMAT = "carbfleet-plan/3"
 #: Acceptable mixture, × reference AFR: 5 % rich .. the lean guard (our choice).
 TARGET_BAND = (0.95, 1.0 + LEAN_GUARD)
 FACTOR_RANGE = (0.80, 1.15)  #: area factors the model is trusted in (our choice)
-COLD_START_K = 273.15 + 5.0  #: below this at the session start: cold-start warning
-CHOKE_K = 273.15 + 10.0  #: below this during the session: choke check
-HOT_FUEL_K = 273.15 + 30.0  #: above this: hot-fuel warning (from memory)
+COLD_START_K = constants.ZERO_CELSIUS + 5.0  #: below this at the session start: cold-start warning
+CHOKE_K = constants.ZERO_CELSIUS + 10.0  #: below this during the session: choke check
+HOT_FUEL_K = constants.ZERO_CELSIUS + 30.0  #: above this: hot-fuel warning (from memory)
 #: Icing band from which a note is given: only the serious one. The bands (tuning.air.ICING_BANDS)
 #: are drawn from memory after light-aircraft charts, whose carburetors sit far from engine heat;
 #: a motorcycle carburetor beside a warm engine ices less, so light and moderate are no warning.
 ICING_WARN_LEVEL = 3
 
-HOT_FUEL_C = int(round(HOT_FUEL_K - 273.15))  #: the same threshold as said in the words [°C]
+HOT_FUEL_C = int(round(HOT_FUEL_K - constants.ZERO_CELSIUS))  #: the same threshold as said in the words [°C]
 
 
 def rounded(values, digits):
@@ -63,10 +63,10 @@ def _iso(seconds, zone):
 def _air_fields(state, index=None):
     pick = (lambda a: np.asarray(a, float)[index]) if index is not None else (lambda a: np.asarray(a, float))
     return {
-        "air_temperature_C": rounded(pick(state.air_temperature) - 273.15, 2),
+        "air_temperature_C": rounded(pick(state.air_temperature) - constants.ZERO_CELSIUS, 2),
         "station_pressure_hPa": rounded(pick(state.station_pressure) / 100.0, 2),
         "relative_humidity_pct": rounded(pick(state.relative_humidity) * 100.0, 1),
-        "dew_point_C": rounded(pick(state.dew_point) - 273.15, 2),
+        "dew_point_C": rounded(pick(state.dew_point) - constants.ZERO_CELSIUS, 2),
         "moist_air_density_kg_m3": rounded(pick(state.moist_air_density), 4),
         "dry_air_density_kg_m3": rounded(pick(state.dry_air_density), 4),
         "density_altitude_m": rounded(pick(state.density_altitude), 0),
@@ -244,8 +244,8 @@ def _session_stats(hours, s_count):
         out.append({
             "t_min": float(t_all[sl].min()), "t_max": float(t_all[sl].max()), "t_start": float(t_all[hours.offsets[s]]),
             "icing": int(np.max(icing[sl])),
-            "air_temperature_C_min": rounded(t_all[sl].min() - 273.15, 2),
-            "air_temperature_C_max": rounded(t_all[sl].max() - 273.15, 2),
+            "air_temperature_C_min": rounded(t_all[sl].min() - constants.ZERO_CELSIUS, 2),
+            "air_temperature_C_max": rounded(t_all[sl].max() - constants.ZERO_CELSIUS, 2),
             "station_pressure_hPa_mean": rounded(np.mean(hours.air.station_pressure[sl]) / 100.0, 2),
             "relative_humidity_pct_mean": rounded(np.mean(hours.air.relative_humidity[sl]) * 100.0, 1),
             "density_altitude_m_min": rounded(np.min(hours.air.density_altitude[sl]), 0),
@@ -418,9 +418,9 @@ def _weather_notes(stat, model, found):
         found.append(warning("icing-risk"))
     if stat["t_start"] < COLD_START_K:
         found.append(warning("cold-start", "cold-start/accelerator-pump" if model.carburetor.accelerator_pump else "cold-start",
-                             {"start_C": printed(stat["t_start"] - 273.15, ".1f")}))
+                             {"start_C": printed(stat["t_start"] - constants.ZERO_CELSIUS, ".1f")}))
     if stat["t_max"] > HOT_FUEL_K:
-        found.append(warning("hot-fuel", params={"t_max_C": printed(stat["t_max"] - 273.15, ".1f"), "hot_fuel_C": HOT_FUEL_C}))
+        found.append(warning("hot-fuel", params={"t_max_C": printed(stat["t_max"] - constants.ZERO_CELSIUS, ".1f"), "hot_fuel_C": HOT_FUEL_C}))
 
 
 def _checks(st, model, stat):
@@ -431,7 +431,7 @@ def _checks(st, model, stat):
     if model.carburetor.accelerator_pump:
         checks.append(said("check/accelerator-pump"))
     if stat["t_min"] < CHOKE_K:
-        checks.append(said("check/choke", {"t_min_C": printed(stat["t_min"] - 273.15, ".1f")}))
+        checks.append(said("check/choke", {"t_min_C": printed(stat["t_min"] - constants.ZERO_CELSIUS, ".1f")}))
     if stat["t_max"] > HOT_FUEL_K:
         checks.append(said("check/hot-fuel", {"hot_fuel_C": HOT_FUEL_C}))
     return checks

@@ -17,6 +17,7 @@ import warnings
 import numpy as np
 
 from tuning import air, carb
+from tuning.constants import ZERO_CELSIUS
 from tuning.plan.document import jet_number
 from tuning.plan.window import LEAN_GUARD
 
@@ -97,8 +98,8 @@ def rejet_thresholds(fleet, rows, hours, refs, meter, main):
         colder = _solve(factor, d_fit * (1.0 + LEAN_GUARD), -SHIFT_RANGE_K, 0.0)
         switch = np.minimum(3.0 / (2.0 / d_dn + 1.0 / d_fit), d_dn * (1.0 + LEAN_GUARD))
         warmer = _solve(factor, switch, 0.0, SHIFT_RANGE_K)
-    below = np.round(run_tmin + np.minimum(colder, 0.0) - 273.15 - 0.05, 1)
-    above = np.round(run_tmax + np.maximum(warmer, 0.0) - 273.15 + 0.05, 1)
+    below = np.round(run_tmin + np.minimum(colder, 0.0) - ZERO_CELSIUS - 0.05, 1)
+    above = np.round(run_tmax + np.maximum(warmer, 0.0) - ZERO_CELSIUS + 0.05, 1)
     has_up = np.isfinite(colder) & np.isfinite(sizes_up)
     has_dn = np.isfinite(warmer) & (warmer > 0.0) & np.isfinite(sizes_dn)
     for r in range(n):

@@ -194,7 +194,7 @@ def _common(plan: dict, paper: str, title: str | None, page_numbers: bool = True
         "version": __version__,
         "cautions": d._(CAUTIONS), "ref_text": _reference_text(plan["reference"], d),
         "site_elevation": d.elevation(plan["site"]["elevation_m"]),
-        "j1349_t_range": f"{d.temperature(t_lo - 273.15, unit=False)}…{d.temperature(t_hi - 273.15)}",
+        "j1349_t_range": f"{d.temperature(t_lo - constants.ZERO_CELSIUS, unit=False)}…{d.temperature(t_hi - constants.ZERO_CELSIUS)}",
         "j1349_p_range": f"{d.pressure(p_lo / 100.0, unit=False)}…{d.pressure(p_hi / 100.0)}",
     }
 
