@@ -176,8 +176,7 @@ def _air_table(result: dict, display=None) -> str:
     _ = d._
     us = d.units == "us"
 
-    def number(value, digits):  # rounded first: a small negative value shows as 0, not −0
-        return d.number(round(value, digits) + 0.0, digits)
+    number = d.number  # a small negative value shows as 0, not −0
 
     rows = [
         (_("pressure given as"), _(result["pressure_kind"].replace("_", " ")), ""),
@@ -323,10 +322,7 @@ def cmd_plan(args) -> int:
         or e["settings"]["mixture_screw"]["change_turns"]
     )
     to_order = sum(p["to_order"] or 0 for p in plan["pick_list"])
-    # the words of tuning.report.tables.to_order_text and NO_STOCK_LIST, through the catalogue
-    ngettext = display.n_  # the name the catalogue's extractor looks for
-    stock = (ngettext("{count} jet to order", "{count} jets to order", to_order).format(count=to_order)
-             if tables.stock_kept(plan) else _("no stock list kept"))
+    stock = tables.to_order_text(to_order, display) if tables.stock_kept(plan) else display._(tables.NO_STOCK_LIST)
     bikes, sessions = len({e["bike"] for e in entries}), len(plan["sessions"])
     say(_("{fleet} at {event} ({site}, {elevation}): {bikes} bikes x {sessions} sessions, {changed} with changes, "
           "{warnings} warnings, {stock}").format(
@@ -336,7 +332,7 @@ def cmd_plan(args) -> int:
     row = _("main {main}  pilot {pilot}  clip {clip}  factor {factor}")
     for e in entries[:40]:
         m, pj, c = e["settings"]["main_jet"], e["settings"]["pilot_jet"], e["settings"]["clip"]
-        clip = tables.number(None) if c["current"] is None else f"{c['current']}->{c['recommended']}"  # no needle on record
+        clip = display.number(None) if c["current"] is None else f"{c['current']}->{c['recommended']}"  # no needle on record
         moves = row.format(main=f"{_plain(display, m['current'])}->{_plain(display, m['recommended'])}",
                            pilot=f"{_plain(display, pj['current'])}->{_plain(display, pj['recommended'])}",
                            clip=clip, factor=_plain(display, e["summary"]["area_factor_mean"]))

@@ -181,8 +181,10 @@ def _footer(title: str) -> str:
     return f"carbfleet {__version__} · {title}"
 
 
-def _common(plan: dict, paper: str, title: str | None, page_numbers: bool = True, display: Display = METRIC_EN) -> dict:
-    """The template context every page shares; ``title`` None: the footer comes from the sheet."""
+def _common(plan: dict, paper: str, title: str | None, page_numbers: bool = True, display: Display = METRIC_EN,
+            reference: dict | None = None) -> dict:
+    """The template context every page shares; ``title`` None: the footer comes from the sheet.
+    ``reference``: the conditions ``ref_text`` describes (a bike's own; default the fleet's)."""
     from tuning import constants
     from tuning.report import CAUTIONS
 
@@ -192,7 +194,7 @@ def _common(plan: dict, paper: str, title: str | None, page_numbers: bool = True
         "d": d, "_": d._, "ngettext": d.n_, "lang": d.language, "plan": plan,
         "css": page_css(paper, None if title is None else _footer(title), page_numbers), "stamp": _stamp(plan),
         "version": __version__,
-        "cautions": d._(CAUTIONS), "ref_text": _reference_text(plan["reference"], d),
+        "cautions": d._(CAUTIONS), "ref_text": _reference_text(reference or plan["reference"], d),
         "site_elevation": d.elevation(plan["site"]["elevation_m"]),
         "j1349_t_range": f"{d.temperature(t_lo - constants.ZERO_CELSIUS, unit=False)}…{d.temperature(t_hi - constants.ZERO_CELSIUS)}",
         "j1349_p_range": f"{d.pressure(p_lo / 100.0, unit=False)}…{d.pressure(p_hi / 100.0)}",
@@ -231,8 +233,8 @@ def sheet_html(plan: dict, entries: list[dict], paper: str = "a4", density: str 
     rows = tables.sheet_rows(entries, index["records"].get(bike), index["work"].get(bike, ()), condense,
                              display, plan.get("sessions", ()))
     # One page by design: no "page n of m" footer (it costs WeasyPrint a second layout pass).
-    context = _common(plan, paper, None, page_numbers=False, display=display)
-    context.update(s=rows, density=density, ref_text=_reference_text(entries[0]["reference"], display),
+    context = _common(plan, paper, None, page_numbers=False, display=display, reference=entries[0]["reference"])
+    context.update(s=rows, density=density,
                    sheet_id=sheet_id or f"sheet-{safe_stem(bike)}", footer=_footer(f"{plan['event']} · {display._(SHEET_WORD)} {bike}"))
     return environment().get_template("sheet.html.j2").render(**context)
 

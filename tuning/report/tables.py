@@ -29,11 +29,6 @@ SEVERITY_WORDS = (N_("danger"), N_("action"), N_("note"))
 NO_STOCK_LIST = N_("no stock list kept")
 
 
-def number(value, digits: int = 0, unit: str = "", signed: bool = False, display: Display = METRIC_EN) -> str:
-    """Format a number for print with ``digits`` decimals; ``None`` shows as an en dash."""
-    return display.number(value, digits, unit, signed)
-
-
 def turns(value, display: Display = METRIC_EN) -> str:
     """Format mixture-screw turns in quarters where exact (1.5 -> "1½"), else with 2 decimals."""
     if value is None:
@@ -305,18 +300,15 @@ def _verdict(richest: float, leanest: float, lo: float, hi: float, d: Display) -
     return {"kind": "ok", "text": d._("ok %(afr)s") % {"afr": low if low == high else f"{low}…{high}"}}
 
 
-def _form_rows(entries: list[dict], work, d: Display) -> list[dict]:
-    """The hand-filled form: per session the changes planned before it (a tick each), then the
-    return to the proven settings after the event."""
+def _form_rows(entries: list[dict], work, d: Display) -> tuple[list[dict], list[dict]]:
+    """The hand-filled form: per session the changes planned before it (a tick each), and the
+    changes back to the proven settings after the event."""
+    def ticks(row) -> list[dict]:
+        return [{"text": say_item(c, d), "minutes": minutes(c["minutes"])} for c in row["changes"]] if row else []
+
     before = {order.get("before_session"): row for order, row in (work or ())}
-    after = next((row for order, row in (work or ()) if order.get("before_session") is None), None)
-    rows = []
-    for e in entries:
-        row = before.get(e["session"])
-        rows.append({"session": e["session"], "window": window(e["start"], e["end"], d),
-                     "minutes": minutes(row["minutes"]) if row else "",
-                     "changes": [{"text": say_item(c, d), "minutes": minutes(c["minutes"])} for c in row["changes"]] if row else []})
-    return rows, ([{"text": say_item(c, d), "minutes": minutes(c["minutes"])} for c in after["changes"]] if after else [])
+    rows = [{"session": e["session"], "changes": ticks(before.get(e["session"]))} for e in entries]
+    return rows, ticks(before.get(None))  # the transition after the last session comes before none
 
 
 def sheet_rows(entries: list[dict], record: dict | None = None, work=None, condense: int = 0,
