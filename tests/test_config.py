@@ -288,10 +288,21 @@ def test_yaml_syntax(demo):
     assert p.message.startswith("YAML syntax") and p.line >= line_of(text, "{id: T03")
 
 
-def test_all_problems_at_once(demo):
-    edit(demo / FLEET, "elevation: 150 m", "elevation: 12 kg")
-    edit(demo / FLEET, "{id: T02,", "{id: T01,")
-    edit(demo / FLEET, "settings: {needle: {clip: 4}}", "settings: {needle: {clip: 6}}")
+@pytest.mark.parametrize(
+    "edits",
+    [
+        # problems of the structure (keys, units, ranges), all said at once
+        (("elevation: 150 m", "elevation: 12 kg"), ("reference_afr: 12.5", "referense_afr: 12.5"),
+         ("settings: {needle: {clip: 4}}", "settings: {needle: {clip: 12}}")),
+        # problems between the parts (ids, names, needle grooves), all said at once when the structure is sound
+        (("{id: T02,", "{id: T01,"), ("{id: K02, model: trail-125-4s}", "{id: K02, model: trail-125-s4}"),
+         ("settings: {needle: {clip: 4}}", "settings: {needle: {clip: 6}}")),
+    ],
+    ids=["structure", "between-parts"],
+)
+def test_all_problems_at_once(demo, edits):
+    for old, new in edits:
+        edit(demo / FLEET, old, new)
     with pytest.raises(ConfigError) as info:
         load_fleet(demo / FLEET)
     assert len(info.value.problems) == 3

@@ -21,8 +21,9 @@ from zoneinfo import ZoneInfo
 import numpy as np
 
 from tuning.config import model
-from tuning.config.event import event_spec, load_event
-from tuning.config.fleet import fleet_spec, load_fleet
+from tuning.config.event import EventFile, load_event
+from tuning.config.fleet import FleetFile, load_fleet
+from tuning.config.spec import json_schema, one_line
 from tuning.constants import ZERO_CELSIUS
 from tuning.display import DEFAULT_LANGUAGE, DEFAULT_UNITS, Display
 
@@ -33,12 +34,12 @@ _DIALECT = "https://json-schema.org/draft/2020-12/schema"
 
 def fleet_schema() -> dict:
     """JSON Schema (draft 2020-12) of the fleet file."""
-    return {"$schema": _DIALECT, "title": "carbfleet fleet file", **fleet_spec().schema()}
+    return {"$schema": _DIALECT, "title": "carbfleet fleet file", **json_schema(FleetFile)}
 
 
 def event_schema() -> dict:
     """JSON Schema (draft 2020-12) of the event file (the weather CSV is described in its docs)."""
-    return {"$schema": _DIALECT, "title": "carbfleet event file", **event_spec().schema()}
+    return {"$schema": _DIALECT, "title": "carbfleet event file", **json_schema(EventFile)}
 
 
 def display_for(event: model.Event | None = None, units: str | None = None, language: str | None = None) -> Display:
@@ -75,8 +76,6 @@ def summarize(fleet: model.Fleet, event: model.Event | None = None) -> str:
     Names come from the user's files: control characters in them (an escape sequence, a carriage
     return, a bell) are shown escaped, as in problem lines, so they cannot act on the terminal.
     """
-    from tuning.config.spec import one_line  # the one escaper of user text for the terminal
-
     lines = [f"fleet: {fleet.name} — {len(fleet.bikes)} bikes, {len(fleet.models)} models"]
     ref = fleet.reference
     lines.append(

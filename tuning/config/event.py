@@ -15,45 +15,64 @@ Every session must lie inside the weather samples, with no gap longer than
 interpolates in time and never extrapolates.
 """
 
-from __future__ import annotations
-
 import zoneinfo
 from datetime import UTC, datetime
 from pathlib import Path
+from typing import Annotated
 
 import numpy as np
+from pydantic import Field
 
 from tuning.config import model
-from tuning.config.fleet import CHANGE_POLICY, CHANGE_THRESHOLD, ELEVATION_RANGE, refuse_other_kind
+from tuning.config.fleet import CHANGE_POLICY, CHANGE_THRESHOLD, refuse_other_kind
 from tuning.config.limits import MAX_BIKE_HOURS, MAX_BIKE_SESSIONS, MAX_METAR_REPORTS, MAX_SESSIONS
+from tuning.config.quantities import FILE_RANGES
 from tuning.config.source import display_name, load_yaml
 from tuning.config.spec import (
-    INVALID,
     Choice,
     Context,
     Either,
-    Field,
-    Obj,
+    FileModel,
     Quantity,
-    Sequence,
     Text,
     did_you_mean,
     known_list,
+    plain,
+    structural_problems,
 )
 from tuning.config.weather import MAX_GAP, parse_local_time, read_metar, read_weather_csv
 from tuning.display import LANGUAGES, UNIT_SYSTEMS
 from tuning.errors import ConfigError
 
-__all__ = ["load_event", "event_spec"]
+__all__ = ["load_event", "EventFile"]
 
-SESSION = Obj(
-    {
-        "name": Field(Text("Name of the session, unique in the event."), True),
-        "start": Field(Text("Start, ISO 8601 in the site's time zone unless an offset is given, e.g. '2026-06-13 09:00'."), True),
-        "end": Field(Text("End, after the start."), True),
-    },
-    description="A riding session.",
-)
+
+# --- the file model (a new key is one line in its class) -------------------------------------
+class Session(FileModel):
+    """A riding session."""
+
+    name: Text("Name of the session, unique in the event.")
+    start: Text("Start, ISO 8601 in the site's time zone unless an offset is given, e.g. '2026-06-13 09:00'.")
+    end: Text("End, after the start.")
+
+
+class Site(FileModel):
+    """Where the event takes place."""
+
+    name: Text("Name of the site.")
+    elevation: Quantity(FILE_RANGES["elevation"], "Elevation of the site above mean sea level.")
+    time_zone: Text("IANA time zone of the site, e.g. Europe/Vienna; needed for times without an offset.") = None
+
+
+class Metar(FileModel):
+    """METAR reports instead of a table."""
+
+    metar: Annotated[list[Text("One METAR report (WMO FM 15).")], Field(min_length=1, description="METAR reports of the nearest station.")]
+
+
+def _weather_form(value) -> str | None:
+    return "metar" if isinstance(value, (dict, Metar)) else None if isinstance(value, list) else "path"
+
 
 UNITS = Choice(UNIT_SYSTEMS, "Units of what people read (sheets, summary, index, terminal): metric (degC, m, hPa; "
                "the default) or us (degF, ft, inHg). The JSON and CSV files stay SI. The command line's --units wins.")
@@ -61,43 +80,20 @@ LANGUAGE = Choice(LANGUAGES, "Language of what people read: en (English, the def
                   "decimal comma). The command line's --language wins.")
 
 
-def event_spec() -> Obj:
-    """The spec of the event file."""
-    return Obj(
-        {
-            "event": Field(Text("Name of the event."), True),
-            "site": Field(
-                Obj(
-                    {
-                        "name": Field(Text("Name of the site."), True),
-                        "elevation": Field(Quantity("m", "Elevation of the site above mean sea level.", *ELEVATION_RANGE), True),
-                        "time_zone": Field(Text("IANA time zone of the site, e.g. Europe/Vienna; needed for times without an offset.")),
-                    },
-                    description="Where the event takes place.",
-                ),
-                True,
-            ),
-            "sessions": Field(Sequence(SESSION, "Sessions; they may not overlap.", 1), True),
-            "fuel": Field(Text("Fuel used at the event (a name under the fleet's `fuels`); the reference fuel when left out.")),
-            "change_policy": Field(CHANGE_POLICY),
-            "change_threshold": Field(CHANGE_THRESHOLD),
-            "weather": Field(
-                Either(
-                    scalar=Text("Path of the weather CSV table, relative to this file."),
-                    mapping=Obj(
-                        {"metar": Field(Sequence(Text("One METAR report (WMO FM 15)."), "METAR reports of the nearest station.", 1), True)},
-                        description="METAR reports instead of a table.",
-                    ),
-                    description="Weather: a CSV path, or {metar: [reports]}.",
-                    expected="a CSV path or a mapping {metar: [reports]}",
-                ),
-                True,
-            ),
-            "units": Field(UNITS),
-            "language": Field(LANGUAGE),
-        },
-        description="A carbfleet event file.",
-    )
+class EventFile(FileModel):
+    """A carbfleet event file."""
+
+    event: Text("Name of the event.")
+    site: Site
+    sessions: Annotated[list[Session], Field(min_length=1, description="Sessions; they may not overlap.")]
+    fuel: Text("Fuel used at the event (a name under the fleet's `fuels`); the reference fuel when left out.") = None
+    change_policy: CHANGE_POLICY = None
+    change_threshold: CHANGE_THRESHOLD = None
+    weather: Either({"path": Text("Path of the weather CSV table, relative to this file."), "metar": Metar},
+                    _weather_form, "expected a CSV path or a mapping {metar: [reports]}",
+                    "Weather: a CSV path, or {metar: [reports]}.")
+    units: UNITS = None
+    language: LANGUAGE = None
 
 
 def _zone(name: str | None, ctx: Context):
@@ -133,23 +129,52 @@ def load_event(path, fleet: model.Fleet | None = None) -> model.Event:
     Raises
     ------
     tuning.errors.ConfigError
-        Every problem of the event file and of its weather table, each ``file:line: field: problem``.
+        Every problem of the event file and of its weather table, each ``file:line: field: problem``
+        (the structure's problems first, all at once; then those between its parts and the weather's).
     """
     ctx = Context(display_name(path))
     root = load_yaml(path, {"sessions": (MAX_SESSIONS, "sessions")})
     refuse_other_kind(root, ctx.file, "event")
-    ctx.lines[""] = root.start_mark.line + 1
-    raw = event_spec().check(root, "", ctx)
-    if raw is INVALID:
-        raise ConfigError(ctx.problems)
-    site = raw.get("site", {})
+    keys: list = []
+    checked = structural_problems(EventFile, plain(root, ctx, "", keys), ctx, keys)
+    if checked is None:
+        raise ConfigError(sorted(ctx.problems, key=_line_key))
+    raw = checked.model_dump(exclude_unset=True)
+    site = raw["site"]
     zone = _zone(site.get("time_zone"), ctx)
+    sessions = _sessions(raw["sessions"], zone, ctx)
+    if fleet is not None and sessions:
+        _check_size(len(fleet.bikes), [s for _, s in sessions], ctx)
+    fuel = raw.get("fuel")
+    if fuel is not None and fleet is not None and fuel not in fleet.fuels:
+        ctx.at_path("fuel", f"unknown fuel '{fuel}'{did_you_mean(fuel, fleet.fuels)}; {known_list(fleet.fuels)}")
+    weather, weather_problems = None, []
+    if zone is not False:
+        weather, weather_problems = _weather(raw["weather"], Path(path), zone, site["elevation"], sessions, ctx)
+    if weather is not None:
+        _check_coverage(weather, sessions, ctx)
+    problems = sorted(ctx.problems, key=_line_key) + sorted(weather_problems, key=_line_key)
+    if problems:
+        raise ConfigError(problems)
+    return model.Event(
+        name=raw["event"],
+        site=model.Site(name=site["name"], elevation=site["elevation"], time_zone=site.get("time_zone", "UTC")),
+        sessions=tuple(s for _, s in sorted(sessions, key=lambda item: item[1].start)),
+        weather=weather,
+        fuel=fuel,
+        source=Path(path),
+        change_policy=raw.get("change_policy"),
+        change_threshold=raw.get("change_threshold"),
+        units=raw.get("units"),
+        language=raw.get("language"),
+    )
 
+
+def _sessions(raw: list[dict], zone, ctx: Context) -> list[tuple[int, model.Session]]:
+    """(index in the file, session) of every session whose times read; problems into ``ctx``."""
     sessions: list[tuple[int, model.Session]] = []
     names: dict[str, int] = {}
-    for i, s in enumerate(raw.get("sessions", [])):
-        if s is INVALID or not {"name", "start", "end"} <= s.keys():
-            continue
+    for i, s in enumerate(raw):
         if s["name"] in names:
             ctx.at_path(f"sessions[{i}].name", f"session name '{s['name']}' is used twice (also sessions[{names[s['name']]}])")
         names.setdefault(s["name"], i)
@@ -171,54 +196,28 @@ def load_event(path, fleet: model.Fleet | None = None) -> model.Event:
         if b.start < a.end:
             later = max(i0, i1)
             ctx.at_path(f"sessions[{later}].start", f"sessions '{a.name}' and '{b.name}' overlap ({_fmt(b.start)} is before {_fmt(a.end)})")
+    return sessions
 
-    if fleet is not None and sessions:
-        _check_size(len(fleet.bikes), [s for _, s in sessions], ctx)
 
-    fuel = raw.get("fuel")
-    if fuel is not None and fleet is not None and fuel not in fleet.fuels:
-        ctx.at_path("fuel", f"unknown fuel '{fuel}'{did_you_mean(fuel, fleet.fuels)}; {known_list(fleet.fuels)}")
-
-    weather, weather_problems = None, []
-    source = raw.get("weather")
-    if isinstance(source, str) and zone is not False:
-        csv_path = Path(path).parent / source
+def _weather(source, path: Path, zone, elevation: float, sessions, ctx: Context):
+    """(weather or None, problems of the weather table) from the event's ``weather`` value."""
+    if isinstance(source, str):
         try:
-            weather, weather_problems = read_weather_csv(csv_path, zone or None, site.get("elevation"))
+            return read_weather_csv(path.parent / source, zone or None, elevation)
         except ConfigError as exc:  # missing or unreadable table: said at the line that names it
             for p in exc.problems:
                 if p.line is None:
                     ctx.at_path("weather", p.message)
-                else:
-                    weather_problems.append(p)
-    elif isinstance(source, dict) and "metar" in source and zone is not False:
-        if len(source["metar"]) > MAX_METAR_REPORTS:
-            ctx.at_path(f"weather.metar[{MAX_METAR_REPORTS}]", f"more than {MAX_METAR_REPORTS:,} METAR reports (the limit, "
-                        "see FORMATS.md); give the reports around the event's sessions only")
-        elif sessions:
-            weather = read_metar(source["metar"], min(s.start for _, s in sessions), ctx, "weather.metar",
-                                 site.get("elevation"))
-        elif not ctx.problems:
-            ctx.at_path("weather.metar", "METAR reports carry no month; it is taken from the sessions, which are missing")
-
-    if weather is not None and zone is not False:
-        _check_coverage(weather, sessions, ctx)
-
-    problems = sorted(ctx.problems, key=_line_key) + sorted(weather_problems, key=_line_key)
-    if problems:
-        raise ConfigError(problems)
-    return model.Event(
-        name=raw["event"],
-        site=model.Site(name=site["name"], elevation=site["elevation"], time_zone=site.get("time_zone", "UTC")),
-        sessions=tuple(s for _, s in sorted(sessions, key=lambda item: item[1].start)),
-        weather=weather,
-        fuel=fuel,
-        source=Path(path),
-        change_policy=raw.get("change_policy"),
-        change_threshold=raw.get("change_threshold"),
-        units=raw.get("units"),
-        language=raw.get("language"),
-    )
+            return None, [p for p in exc.problems if p.line is not None]
+    reports = source["metar"]
+    if len(reports) > MAX_METAR_REPORTS:
+        ctx.at_path(f"weather.metar[{MAX_METAR_REPORTS}]", f"more than {MAX_METAR_REPORTS:,} METAR reports (the limit, "
+                    "see FORMATS.md); give the reports around the event's sessions only")
+    elif sessions:
+        return read_metar(reports, min(s.start for _, s in sessions), ctx, "weather.metar", elevation), []
+    elif not ctx.problems:
+        ctx.at_path("weather.metar", "METAR reports carry no month; it is taken from the sessions, which are missing")
+    return None, []
 
 
 def _session_hours(session: model.Session) -> int:

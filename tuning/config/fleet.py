@@ -15,40 +15,39 @@ sheet can say so):
 * a bike's own ``reference`` may leave out ``fuel``: the fleet reference's fuel is used.
 """
 
-from __future__ import annotations
-
 import math
 import warnings
+from typing import Annotated
 
 import numpy as np
+from pydantic import Field, create_model
 
 from tuning import air
 from tuning.config import model
 from tuning.config.limits import MAX_BIKES
+from tuning.config.quantities import FILE_RANGES, PRESSURE_KEYS, PRESSURE_NAMES, STATION_PRESSURE_MIN, Range
 from tuning.config.source import display_name, load_yaml
 from tuning.config.spec import (
-    INVALID,
     Boolean,
     Choice,
     Context,
     Custom,
     Either,
-    Field,
+    FileModel,
     Integer,
-    Mapping,
     Number,
-    Obj,
     Quantity,
-    Sequence,
     Text,
     did_you_mean,
     known_list,
+    plain,
+    structural_problems,
     top_level_keys,
 )
 from tuning.errors import ConfigError, Problem, WrongFileError
 from tuning.fuel import blend
 
-__all__ = ["load_fleet", "fleet_spec", "DEFAULT_NEEDLE", "DEFAULT_SCREW_RANGE"]
+__all__ = ["load_fleet", "FleetFile", "DEFAULT_NEEDLE", "DEFAULT_SCREW_RANGE"]
 
 #: Needle geometry used where the fleet file gives none [m, rad]. A generic needle of the
 #: usual order of magnitude (from memory, no maker's part): sheets say it was assumed.
@@ -62,43 +61,39 @@ DEFAULT_NEEDLE = {
 #: Usable mixture-screw range where the file gives none [turns out] (common practice: 1..3).
 DEFAULT_SCREW_RANGE = (1.0, 3.0)
 
-#: Accepted ranges, in the unit named (also used for the weather table and METAR).
-ELEVATION_RANGE = (-500.0, 5000.0)  # [m]
-TEMPERATURE_RANGE = (-40.0, 55.0)  # [degC]
-DEW_POINT_RANGE = (-60.0, 55.0)  # [degC]
-PRESSURE_RANGE = (300.0, 1100.0)  # [hPa], for every pressure kind
-HUMIDITY_RANGE = (0.0, 100.0)  # [%]
 
-PRESSURE_KEYS = {"station_pressure": "station", "qnh": "qnh", "sea_level_pressure": "sea_level"}
-#: Lowest station pressure accepted once a QNH or sea-level pressure is converted with the
-#: elevation [hPa]: about that on the highest summits (8,849 m: about 330 hPa in the standard
-#: atmosphere). Below it the air of a hot day would be mostly water vapour (saturation at
-#: 55 degC is about 158 hPa) and the moist-air formulas no longer apply.
-STATION_PRESSURE_MIN = 300.0
-_PRESSURE_NAMES = {"station": "station pressure", "qnh": "QNH", "sea_level": "sea-level pressure"}
+# --- the file model ------------------------------------------------------------------------
+def _pressure(what: str):
+    return Quantity(FILE_RANGES["pressure"], f"{what}.")
 
 
-# --- specs -------------------------------------------------------------------------------
-def pressure_field(what: str) -> Field:
-    return Field(Quantity("hPa", f"{what}.", *PRESSURE_RANGE))
+_CONDITIONS = "Give exactly one of station_pressure / qnh / sea_level_pressure and one of relative_humidity / dew_point."
 
 
-def conditions_spec(fuel_required: bool, what: str) -> Obj:
-    return Obj(
-        {
-            "elevation": Field(Quantity("m", "Elevation above mean sea level.", *ELEVATION_RANGE), True),
-            "air_temperature": Field(Quantity("degC", "Air temperature (shade, about 2 m above ground).", *TEMPERATURE_RANGE), True),
-            "station_pressure": pressure_field("Absolute air pressure at the site (not reduced to sea level)"),
-            "qnh": pressure_field("QNH / altimeter setting, as airfields and METAR give it"),
-            "sea_level_pressure": pressure_field("Pressure reduced to mean sea level, as weather maps give it"),
-            "relative_humidity": Field(Quantity("percent", "Relative humidity over water.", *HUMIDITY_RANGE, unit_label="%")),
-            "dew_point": Field(Quantity("degC", "Dew point.", *DEW_POINT_RANGE)),
-            "fuel": Field(Text("Name of a fuel under `fuels`" + ("." if fuel_required else "; the fleet reference's fuel when left out.")), fuel_required),
-        },
-        description=what
-        + " Give exactly one of station_pressure / qnh / sea_level_pressure and one of relative_humidity / dew_point.",
-        one_of=(tuple(PRESSURE_KEYS), ("relative_humidity", "dew_point")),
-    )
+class Conditions(FileModel):
+    """Conditions under which the recorded settings were proven."""
+
+    one_of = (tuple(PRESSURE_KEYS), ("relative_humidity", "dew_point"))
+    elevation: Quantity(FILE_RANGES["elevation"], "Elevation above mean sea level.")
+    air_temperature: Quantity(FILE_RANGES["air_temperature"], "Air temperature (shade, about 2 m above ground).")
+    station_pressure: _pressure("Absolute air pressure at the site (not reduced to sea level)") = None
+    qnh: _pressure("QNH / altimeter setting, as airfields and METAR give it") = None
+    sea_level_pressure: _pressure("Pressure reduced to mean sea level, as weather maps give it") = None
+    relative_humidity: Quantity(FILE_RANGES["relative_humidity"], "Relative humidity over water.") = None
+    dew_point: Quantity(FILE_RANGES["dew_point"], "Dew point.") = None
+    fuel: Text("Name of a fuel under `fuels`.")
+
+
+Conditions.__doc__ += " " + _CONDITIONS
+
+
+class BikeConditions(Conditions):
+    """This bike's own reference conditions (replaces the fleet's)."""
+
+    fuel: Text("Name of a fuel under `fuels`; the fleet reference's fuel when left out.") = None
+
+
+BikeConditions.__doc__ += " " + _CONDITIONS
 
 
 def _read_premix(value) -> float:
@@ -138,162 +133,169 @@ CHANGE_THRESHOLD = Number("Mixture improvement a main-jet change between session
                           "(default 0.03, about one main-jet step); other changes are scaled by their work.", 0.0, 0.5)
 JET_SIZE = Number("Jet number as stamped (diameter-coded: orifice in 0.01 mm; flow-coded: proportional to flow).", 0.0, exclusive_minimum=True)
 SCREW_TURNS = Number("Turns out from lightly seated.", 0.0, 10.0)
+_FAMILY = "Name of a family under `jet_families`."
 
 
-def jet_spec(full: bool, what: str) -> Obj:
-    return Obj(
-        {"family": Field(Text("Name of a family under `jet_families`."), full), "size": Field(JET_SIZE, full)},
-        description=what,
-    )
+class Jet(FileModel):
+    """Main jet (3/4 to full throttle)."""
+
+    family: Text(_FAMILY)
+    size: JET_SIZE
 
 
-def settings_spec(full: bool) -> Obj:
-    what = "Proven settings of the model." if full else "This bike's deviations from its model's settings (give only what differs)."
-    return Obj(
-        {
-            "main_jet": Field(jet_spec(full, "Main jet (3/4 to full throttle)."), full),
-            "pilot_jet": Field(jet_spec(full, "Pilot (slow) jet (idle to about 1/4 throttle)."), full),
-            "needle": Field(
-                Obj(
-                    {
-                        "name": Field(Text("Name of a needle under `needles`."), full),
-                        "clip": Field(Integer("Clip groove, 1 = top groove (needle lowest, leanest).", 1, 9), full),
-                    },
-                    description="Jet needle and clip position.",
-                )
-            ),
-            "mixture_screw": Field(
-                Obj(
-                    {
-                        "kind": Field(Choice(("air", "fuel"), "air: turning out leans the idle mixture; fuel: turning out richens it."), full),
-                        "turns": Field(SCREW_TURNS, full),
-                        "usable_range": Field(Sequence(SCREW_TURNS, "[min, max] turns out; outside it a pilot-jet change is due. Default [1, 3], marked 'assumed'.", 2, 2)),
-                    },
-                    description="Idle mixture screw.",
-                ),
-                full,
-            ),
-            "float_level": Field(Quantity("mm", "Float level as the service manual measures it.", 0, 60)),
-        },
-        description=what,
-    )
+class PilotJet(Jet):
+    """Pilot (slow) jet (idle to about 1/4 throttle)."""
 
 
-FUEL = Obj(
-    {
-        "ethanol": Field(Quantity("percent", "Ethanol content by volume.", 0, 100, unit_label="%")),
-        "methanol": Field(Quantity("percent", "Methanol content by volume.", 0, 100, unit_label="%")),
-        "stoichiometric_afr": Field(Number("Stoichiometric air-fuel mass ratio; computed from the blend when left out.", 5.0, 20.0)),
-        "density": Field(Quantity("kg/L", "Density at about 15 degC; computed from the blend when left out.", 0.6, 1.0)),
-    },
-    description="A pump fuel: gasoline with ethanol/methanol by volume (0 % when left out), or explicit properties.",
-    allow_null=True,
-)
+class NeedleSetting(FileModel):
+    """Jet needle and clip position."""
 
-JET_FAMILY = Obj(
-    {
-        "coding": Field(Choice(("diameter", "flow"), "diameter: number = orifice diameter in 0.01 mm; flow: number proportional to flow."), True),
-        "sizes": Field(
-            Either(
-                sequence=Sequence(JET_SIZE, "Every size available, e.g. [140, 142, 145].", 1),
-                mapping=Obj(
-                    {
-                        "from": Field(JET_SIZE, True),
-                        "to": Field(JET_SIZE, True),
-                        "step": Field(Number("Step between sizes.", 0.0, exclusive_minimum=True), True),
-                    },
-                    description="Sizes from..to (both included) in equal steps.",
-                ),
-                description="Available sizes: a list, or {from, to, step}.",
-                expected="a list of sizes or a mapping {from, to, step}",
-            ),
-            True,
-        ),
-    },
-    description="A family of interchangeable jets.",
-)
-
-NEEDLE = Obj(
-    {
-        "straight_diameter": Field(Quantity("mm", "Diameter of the straight (upper) part.", 0.5, 10.0)),
-        "taper_start": Field(Quantity("mm", "Slide lift at which the taper reaches the needle jet, clip in groove 1.", 0, 100)),
-        "taper_angle": Field(Quantity("deg", "Included angle of the taper.", 0, 10)),
-        "grooves": Field(Integer("Number of clip grooves.", 1, 9)),
-        "groove_pitch": Field(Quantity("mm", "Distance between clip grooves.", 0.1, 5.0)),
-    },
-    description="Jet needle geometry. Anything left out takes a generic default (straight diameter 2.70 mm, "
-    "taper start 12 mm, taper angle 1.0 deg, 5 grooves, groove pitch 1.0 mm) and the sheet says 'assumed'.",
-    allow_null=True,
-)
-
-CARBURETOR = Obj(
-    {
-        "slide": Field(Choice(("round", "flat"), "Slide kind."), True),
-        "bore": Field(Quantity("mm", "Venturi/slide bore.", 10, 60), True),
-        "needle_jet": Field(Quantity("mm", "Bore of the needle jet (unknown when left out).", 1, 6)),
-        "accelerator_pump": Field(Boolean("Has an accelerator pump (default false).")),
-    },
-    description="The model's carburetor.",
-)
-
-MODEL = Obj(
-    {
-        "strokes": Field(Choice((2, 4), "2 or 4."), True),
-        "displacement": Field(Quantity("cc", "Displacement.", 10, 2000), True),
-        "premix": Field(PREMIX),
-        "density_exponent": Field(DENSITY_EXPONENT),
-        "carburetor": Field(CARBURETOR, True),
-        "settings": Field(settings_spec(True), True),
-    },
-    description="A bike model.",
-)
-
-BIKE = Obj(
-    {
-        "id": Field(Text("Fleet number, unique."), True),
-        "model": Field(Text("Name of a model under `models`."), True),
-        "settings": Field(settings_spec(False)),
-        "reference": Field(conditions_spec(False, "This bike's own reference conditions (replaces the fleet's).")),
-        "premix": Field(PREMIX),
-        "density_exponent": Field(DENSITY_EXPONENT),
-        "notes": Field(Text("Free text shown on the sheet.")),
-    },
-    description="One bike.",
-)
-
-STOCK_ITEM = Obj(
-    {
-        "family": Field(Text("Name of a jet family."), True),
-        "size": Field(JET_SIZE, True),
-        "count": Field(Integer("Jets of this size on the shelf.", 0, 100000), True),
-    },
-    description="Jets on the shelf.",
-)
+    name: Text("Name of a needle under `needles`.")
+    clip: Integer("Clip groove, 1 = top groove (needle lowest, leanest).", 1, 9)
 
 
-def fleet_spec() -> Obj:
-    """The spec of the whole fleet file."""
-    return Obj(
-        {
-            "fleet": Field(Text("Name of the fleet."), True),
-            "reference": Field(conditions_spec(True, "Conditions under which the recorded settings were proven."), True),
-            "density_exponent": Field(DENSITY_EXPONENT),
-            "reference_afr": Field(Number("Air-fuel mass ratio the proven settings are assumed to give (default 12.0).", 8.0, 20.0)),
-            "change_policy": Field(CHANGE_POLICY),
-            "change_threshold": Field(CHANGE_THRESHOLD),
-            "premix": Field(PREMIX),
-            "fuels": Field(Mapping(FUEL, "Fuels by name.", 1), True),
-            "jet_families": Field(Mapping(JET_FAMILY, "Jet families by name.", 1), True),
-            "needles": Field(Mapping(NEEDLE, "Jet needles by name.")),
-            "models": Field(Mapping(MODEL, "Bike models by name.", 1), True),
-            "bikes": Field(Sequence(BIKE, "The bikes.", 1), True),
-            "stock": Field(Sequence(STOCK_ITEM, "Jets on the shelf (a size not listed counts as 0).")),
-        },
-        description="A carbfleet fleet file.",
-    )
+class MixtureScrew(FileModel):
+    """Idle mixture screw."""
+
+    kind: Choice(("air", "fuel"), "air: turning out leans the idle mixture; fuel: turning out richens it.")
+    turns: SCREW_TURNS
+    usable_range: Annotated[list[SCREW_TURNS], Field(min_length=2, max_length=2, description="[min, max] turns out; outside it a pilot-jet change is due. Default [1, 3], marked 'assumed'.")] = None
 
 
-#: Top-level keys that only an event file has (tuning.config.event.event_spec), and only a fleet file.
+FLOAT_LEVEL = Quantity(Range("mm", 0, 60), "Float level as the service manual measures it.")
+
+
+class Settings(FileModel):
+    """Proven settings of the model."""
+
+    main_jet: Jet
+    pilot_jet: PilotJet
+    needle: NeedleSetting = None
+    mixture_screw: MixtureScrew
+    float_level: FLOAT_LEVEL = None
+
+
+def _partial(full: type[FileModel], doc: str) -> type[FileModel]:
+    """``full`` with every key optional: a bike's deviations from its model (give only what differs)."""
+    fields = {}
+    for name, field in full.model_fields.items():
+        annotation = field.annotation
+        if isinstance(annotation, type) and issubclass(annotation, FileModel):
+            annotation = _partial(annotation, annotation.__doc__)
+        extra = [*field.metadata, *([Field(description=field.description)] if field.description else [])]
+        fields[name] = (Annotated[annotation, *extra] if extra else annotation, None)
+    return create_model("Bike" + full.__name__, __base__=FileModel, __doc__=doc, **fields)
+
+
+BikeSettings = _partial(Settings, "This bike's deviations from its model's settings (give only what differs).")
+
+
+class Fuel(FileModel):
+    """A pump fuel: gasoline with ethanol/methanol by volume (0 % when left out), or explicit properties."""
+
+    null_is_empty = True
+    ethanol: Quantity(Range("percent", 0, 100), "Ethanol content by volume.") = None
+    methanol: Quantity(Range("percent", 0, 100), "Methanol content by volume.") = None
+    stoichiometric_afr: Number("Stoichiometric air-fuel mass ratio; computed from the blend when left out.", 5.0, 20.0) = None
+    density: Quantity(Range("kg/L", 0.6, 1.0), "Density at about 15 degC; computed from the blend when left out.") = None
+
+
+class SizeRange(FileModel):
+    """Sizes from..to (both included) in equal steps."""
+
+    start: JET_SIZE = Field(alias="from")
+    to: JET_SIZE
+    step: Number("Step between sizes.", 0.0, exclusive_minimum=True)
+
+
+def _sizes_form(value) -> str | None:
+    return "list" if isinstance(value, list) else "range" if isinstance(value, (dict, SizeRange)) else None
+
+
+class JetFamily(FileModel):
+    """A family of interchangeable jets."""
+
+    coding: Choice(("diameter", "flow"), "diameter: number = orifice diameter in 0.01 mm; flow: number proportional to flow.")
+    sizes: Either(
+        {"list": Annotated[list[JET_SIZE], Field(min_length=1, description="Every size available, e.g. [140, 142, 145].")],
+         "range": SizeRange},
+        _sizes_form, "expected a list of sizes or a mapping {from, to, step}", "Available sizes: a list, or {from, to, step}.")
+
+
+class Needle(FileModel):
+    """Jet needle geometry. Anything left out takes a generic default (straight diameter 2.70 mm, taper start 12 mm, taper angle 1.0 deg, 5 grooves, groove pitch 1.0 mm) and the sheet says 'assumed'."""
+
+    null_is_empty = True
+    straight_diameter: Quantity(Range("mm", 0.5, 10.0), "Diameter of the straight (upper) part.") = None
+    taper_start: Quantity(Range("mm", 0, 100), "Slide lift at which the taper reaches the needle jet, clip in groove 1.") = None
+    taper_angle: Quantity(Range("deg", 0, 10), "Included angle of the taper.") = None
+    grooves: Integer("Number of clip grooves.", 1, 9) = None
+    groove_pitch: Quantity(Range("mm", 0.1, 5.0), "Distance between clip grooves.") = None
+
+
+class Carburetor(FileModel):
+    """The model's carburetor."""
+
+    slide: Choice(("round", "flat"), "Slide kind.")
+    bore: Quantity(Range("mm", 10, 60), "Venturi/slide bore.")
+    needle_jet: Quantity(Range("mm", 1, 6), "Bore of the needle jet (unknown when left out).") = None
+    accelerator_pump: Boolean("Has an accelerator pump (default false).") = None
+
+
+class Model(FileModel):
+    """A bike model."""
+
+    strokes: Choice((2, 4), "2 or 4.")
+    displacement: Quantity(Range("cc", 10, 2000), "Displacement.")
+    premix: PREMIX = None
+    density_exponent: DENSITY_EXPONENT = None
+    carburetor: Carburetor
+    settings: Settings
+
+
+class Bike(FileModel):
+    """One bike."""
+
+    id: Text("Fleet number, unique.")
+    model: Text("Name of a model under `models`.")
+    settings: BikeSettings = None
+    reference: BikeConditions = None
+    premix: PREMIX = None
+    density_exponent: DENSITY_EXPONENT = None
+    notes: Text("Free text shown on the sheet.") = None
+
+
+class StockItem(FileModel):
+    """Jets on the shelf."""
+
+    family: Text("Name of a jet family.")
+    size: JET_SIZE
+    count: Integer("Jets of this size on the shelf.", 0, 100000)
+
+
+def _names(tp, description: str, least: int = 0):
+    return Annotated[dict[str, tp], Field(min_length=least or None, description=description)]
+
+
+class FleetFile(FileModel):
+    """A carbfleet fleet file."""
+
+    fleet: Text("Name of the fleet.")
+    reference: Conditions
+    density_exponent: DENSITY_EXPONENT = None
+    reference_afr: Number("Air-fuel mass ratio the proven settings are assumed to give (default 12.0).", 8.0, 20.0) = None
+    change_policy: CHANGE_POLICY = None
+    change_threshold: CHANGE_THRESHOLD = None
+    premix: PREMIX = None
+    fuels: _names(Fuel, "Fuels by name.", 1)
+    jet_families: _names(JetFamily, "Jet families by name.", 1)
+    needles: _names(Needle, "Jet needles by name.") = None
+    models: _names(Model, "Bike models by name.", 1)
+    bikes: Annotated[list[Bike], Field(min_length=1, description="The bikes.")]
+    stock: Annotated[list[StockItem], Field(description="Jets on the shelf (a size not listed counts as 0).")] = None
+
+
+#: Top-level keys that only an event file has (tuning.config.event.EventFile), and only a fleet file.
 EVENT_KEYS = ("event", "site", "sessions", "weather", "fuel")
 FLEET_KEYS = ("fleet", "reference", "density_exponent", "reference_afr", "premix", "fuels", "jet_families", "needles",
               "models", "bikes", "stock")  # change_policy and change_threshold belong to both kinds
@@ -345,7 +347,7 @@ def station_pressures(pressure, kind: str, elevation: float, air_temperature) ->
 def station_pressure_problem(pressure: float, kind: str, elevation: float, station: float) -> str:
     """The message for a station pressure below :data:`STATION_PRESSURE_MIN` (pressures in Pa)."""
     return (
-        f"{_PRESSURE_NAMES[kind]} {pressure / 100:.6g} hPa at {elevation:.6g} m elevation is a station pressure of "
+        f"{PRESSURE_NAMES[kind]} {pressure / 100:.6g} hPa at {elevation:.6g} m elevation is a station pressure of "
         f"{station / 100:.0f} hPa, below the accepted {STATION_PRESSURE_MIN:g} hPa (about that of the highest summits); "
         "check the value, its unit, which pressure it is and the elevation"
     )
@@ -383,12 +385,8 @@ def make_fuel(name: str, raw: dict, path: str, ctx: Context) -> model.Fuel | Non
 
 
 def make_family(name: str, raw: dict, path: str, ctx: Context) -> model.JetFamily | None:
-    sizes = raw.get("sizes")
-    if sizes is None:
-        return None
+    sizes = raw["sizes"]
     if isinstance(sizes, dict):
-        if not {"from", "to", "step"} <= sizes.keys():
-            return None
         start, stop, step = sizes["from"], sizes["to"], sizes["step"]
         count = (stop - start) / step
         if stop <= start:
@@ -402,11 +400,11 @@ def make_family(name: str, raw: dict, path: str, ctx: Context) -> model.JetFamil
             return None
         values = [round(start + i * step, 6) for i in range(round(count) + 1)]
     else:
-        values = [s for s in sizes if s is not INVALID]
+        values = sizes
         for i, s in enumerate(sizes):
-            if s is not INVALID and sizes.index(s) != i:
+            if sizes.index(s) != i:
                 ctx.at_path(f"{path}.sizes[{i}]", f"size {s:g} is listed twice")
-    return model.JetFamily(name=name, coding=raw.get("coding", "diameter"), sizes=tuple(sorted(set(values))))
+    return model.JetFamily(name=name, coding=raw["coding"], sizes=tuple(sorted(set(values))))
 
 
 def make_needle(name: str, raw: dict) -> model.Needle:
@@ -461,8 +459,6 @@ def check_settings(settings: dict, given: dict, path: str, families, needles, ct
         if name is None and clip is not None:
             ctx.at_path(f"{path}.needle", "a clip is given but no needle name (the model has none)")
         elif name is not None and name not in needles:
-            if name in ctx.names.get("needles", ()):  # given, but with a problem said there
-                return
             ctx.at_path(f"{path}.needle.name", f"unknown needle '{name}'{did_you_mean(name, needles)}; {known_list(needles)}")
         elif name is not None and clip is not None and clip > needles[name].grooves:
             ctx.at_path(
@@ -473,9 +469,9 @@ def check_settings(settings: dict, given: dict, path: str, families, needles, ct
     if "mixture_screw" in given and isinstance(screw, dict):
         usable, turns = screw.get("usable_range"), screw.get("turns")
         own = given["mixture_screw"] if isinstance(given["mixture_screw"], dict) else {}
-        if isinstance(usable, list) and INVALID not in usable and usable[0] >= usable[1]:
+        if isinstance(usable, list) and usable[0] >= usable[1]:
             ctx.at_path(f"{path}.mixture_screw.usable_range", f"expected [min, max] with min below max, got {usable}")
-        elif isinstance(usable, list) and INVALID not in usable and turns is not None and not usable[0] <= turns <= usable[1]:
+        elif isinstance(usable, list) and turns is not None and not usable[0] <= turns <= usable[1]:
             where = "turns" if "turns" in own else "usable_range" if "usable_range" in own else None
             if where is not None:  # else both come from the model, said there
                 ctx.at_path(
@@ -545,60 +541,67 @@ def load_fleet(path) -> model.Fleet:
     Raises
     ------
     tuning.errors.ConfigError
-        With every problem of the file, each ``file:line: field: problem``.
+        With every problem of the file, each ``file:line: field: problem``: first every
+        problem of its structure (keys, types, units, ranges) at once; when there is none,
+        every problem between its parts (names, sizes, needle fit, screw range, pressures).
     """
     ctx = Context(display_name(path))
     root = load_yaml(path, {"bikes": (MAX_BIKES, "bikes")})
     refuse_other_kind(root, ctx.file, "fleet")
-    ctx.lines[""] = root.start_mark.line + 1
-    raw = fleet_spec().check(root, "", ctx)
-    if raw is INVALID:
-        raise ConfigError(ctx.problems)
-    fuels = {n: f for n, r in raw.get("fuels", {}).items() if (f := make_fuel(n, r, f"fuels.{n}", ctx))}
-    families = {n: f for n, r in raw.get("jet_families", {}).items() if (f := make_family(n, r, f"jet_families.{n}", ctx))}
+    keys: list = []
+    checked = structural_problems(FleetFile, plain(root, ctx, "", keys), ctx, keys)
+    if checked is None:
+        raise ConfigError(sorted(ctx.problems, key=lambda p: p.line or 0))
+    raw = checked.model_dump(by_alias=True, exclude_unset=True)
+    ctx.names = {key: set(raw[key]) for key in ("fuels", "jet_families")}
+    fuels = {n: f for n, r in raw["fuels"].items() if (f := make_fuel(n, r, f"fuels.{n}", ctx))}
+    families = {n: f for n, r in raw["jet_families"].items() if (f := make_family(n, r, f"jet_families.{n}", ctx))}
     needles = {n: make_needle(n, r) for n, r in raw.get("needles", {}).items()}
-    reference_raw = raw.get("reference", {})
-    check_conditions(reference_raw, "reference", fuels, ctx)
+    check_conditions(raw["reference"], "reference", fuels, ctx)
+    check_models(raw, families, needles, ctx)
+    check_bikes(raw, families, needles, fuels, ctx)
+    stock = read_stock(raw.get("stock", []), families, ctx)
+    if ctx.problems:
+        raise ConfigError(sorted(ctx.problems, key=lambda p: p.line or 0))
+    return _build(raw, fuels, families, needles, stock, path)
 
-    models_raw = raw.get("models", {})
-    for name, m in models_raw.items():
+
+def check_models(raw: dict, families, needles, ctx: Context) -> None:
+    for name, m in raw["models"].items():
         path_m = f"models.{name}"
-        settings = m.get("settings", {})
+        settings = m["settings"]
         check_settings(settings, settings, f"{path_m}.settings", families, needles, ctx)
         check_needle_fit(settings, settings, m, raw.get("needles", {}), f"{path_m}.settings", ctx)
-        if m.get("strokes") == 4 and "premix" in m:
+        if m["strokes"] == 4 and "premix" in m:
             ctx.at_path(f"{path_m}.premix", "a four-stroke takes no premix; remove it")
 
-    bikes_raw = raw.get("bikes", [])
+
+def check_bikes(raw: dict, families, needles, fuels, ctx: Context) -> None:
+    models_raw = raw["models"]
     seen_ids: dict[str, int] = {}
-    for i, b in enumerate(bikes_raw):
+    for i, b in enumerate(raw["bikes"]):
         path_b = f"bikes[{i}]"
-        if b is INVALID:
+        bike_id = b["id"]
+        if bike_id in seen_ids:
+            ctx.at_path(f"{path_b}.id", f"duplicate bike id '{bike_id}' (first used by bikes[{seen_ids[bike_id]}])")
+        else:
+            seen_ids[bike_id] = i
+        model_name = b["model"]
+        if model_name not in models_raw:
+            ctx.at_path(f"{path_b}.model", f"unknown model '{model_name}'{did_you_mean(model_name, models_raw)}; {known_list(models_raw)}")
             continue
-        bike_id = b.get("id")
-        if bike_id is not None:
-            if bike_id in seen_ids:
-                ctx.at_path(f"{path_b}.id", f"duplicate bike id '{bike_id}' (first used by bikes[{seen_ids[bike_id]}])")
-            else:
-                seen_ids[bike_id] = i
-        model_name = b.get("model")
-        if model_name is not None and model_name not in models_raw:
-            if model_name not in ctx.names.get("models", ()):  # else given, with a problem said there
-                ctx.at_path(f"{path_b}.model", f"unknown model '{model_name}'{did_you_mean(model_name, models_raw)}; {known_list(models_raw)}")
-            continue
-        base = models_raw.get(model_name, {}).get("settings", {})
         override = b.get("settings", {})
-        merged = merge_settings(base, override)
+        merged = merge_settings(models_raw[model_name]["settings"], override)
         check_settings(merged, override, f"{path_b}.settings", families, needles, ctx)
-        check_needle_fit(merged, override, models_raw.get(model_name, {}), raw.get("needles", {}), f"{path_b}.settings", ctx)
+        check_needle_fit(merged, override, models_raw[model_name], raw.get("needles", {}), f"{path_b}.settings", ctx)
         check_conditions(b.get("reference"), f"{path_b}.reference", fuels, ctx)
-        if "premix" in b and models_raw.get(model_name, {}).get("strokes") == 4:
+        if "premix" in b and models_raw[model_name]["strokes"] == 4:
             ctx.at_path(f"{path_b}.premix", "this bike's model is a four-stroke, which takes no premix; remove it")
 
+
+def read_stock(items: list[dict], families, ctx: Context) -> dict[tuple[str, float], int]:
     stock: dict[tuple[str, float], int] = {}
-    for i, item in enumerate(raw.get("stock", [])):
-        if item is INVALID or not {"family", "size", "count"} <= item.keys():
-            continue
+    for i, item in enumerate(items):
         before = len(ctx.problems)
         check_jet(item, f"stock[{i}]", families, ctx)
         if len(ctx.problems) > before:
@@ -607,10 +610,7 @@ def load_fleet(path) -> model.Fleet:
         if key in stock:
             ctx.at_path(f"stock[{i}]", f"{item['family']} size {item['size']:g} is listed twice; give one count")
         stock[key] = item["count"]
-
-    if ctx.problems:
-        raise ConfigError(sorted(ctx.problems, key=lambda p: p.line or 0))
-    return _build(raw, fuels, families, needles, stock, path)
+    return stock
 
 
 def _build(raw, fuels, families, needles, stock, path) -> model.Fleet:

@@ -1,48 +1,91 @@
-"""A small declarative description of the file formats: one spec gives both the checks and the JSON Schema.
+"""The file models' building blocks on pydantic, and problems worded as ``file:line: field: problem``.
 
-Each spec class checks a YAML node (from :func:`tuning.config.source.load_yaml`, so every
-node has a line number) and returns a plain Python value, or :data:`INVALID` after recording
-a :class:`~tuning.errors.Problem`. The same spec writes its JSON Schema (draft 2020-12), so
-the editor's view of a file and the loader's cannot drift apart.
-
-Values are never constructed by YAML: scalars are read from their text here, so no tag in a
-file can create an object.
+A YAML file is composed into nodes by :func:`tuning.config.source.load_yaml` (nothing is
+constructed from tags) and turned by :func:`plain` into dicts, lists and :class:`Scalar`
+texts, with the line of every field path. A pydantic model (a :class:`FileModel`) validates
+that; :func:`structural_problems` words every error at the line of its YAML node, with
+"did you mean" for misspelt keys, and returns them all at once. The field types below
+(:func:`Quantity`, :func:`Text`, :func:`Number`, ...) carry their own JSON Schema (units and
+ranges included), which :func:`json_schema` writes out with every ``$ref`` inlined.
 """
 
 from __future__ import annotations
 
 import difflib
 import math
+import types
 from collections.abc import Callable
-from dataclasses import dataclass, field
-from typing import Any
+from typing import Annotated, Any, ClassVar, Union, get_args, get_origin
 
 import yaml
+from pydantic import (
+    BaseModel,
+    BeforeValidator,
+    ConfigDict,
+    Discriminator,
+    Tag,
+    ValidationError,
+    WithJsonSchema,
+    model_validator,
+)
+from pydantic.json_schema import GenerateJsonSchema
 
-from tuning.config.units import UnitProblem, parse_quantity
+from tuning.config.quantities import Range
+from tuning.config.units import UnitProblem, parse_quantity, schema_pattern, unit_label
 from tuning.errors import Problem
 
 __all__ = [
-    "INVALID",
     "Context",
-    "Spec",
+    "Scalar",
+    "FileModel",
+    "plain",
+    "structural_problems",
+    "json_schema",
     "Quantity",
     "Text",
     "Integer",
     "Number",
     "Boolean",
     "Choice",
-    "Obj",
-    "Mapping",
-    "Sequence",
-    "Either",
-    "Field",
     "Custom",
+    "Either",
+    "one_line",
+    "did_you_mean",
+    "known_list",
+    "top_level_keys",
 ]
 
-INVALID = object()  #: returned by a spec whose node had a problem (already recorded)
+_FORM_ERROR = "carbfleet_form"  #: pydantic error type of a value that fits none of an Either's forms
 
-_NUMBER_WITH_UNIT = r"^\s*[-+]?(\d+\.?\d*|\.\d+)([eE][-+]?\d+)?\s*\S*.*$"
+
+# --- words --------------------------------------------------------------------------------
+def one_line(text: str) -> str:
+    r"""``text`` with control characters escaped (user text in a message stays on one line).
+
+    The one escaper of user text shown on a terminal or in a chart: ``\x1b``, ``\r``, ``\x07``,
+    a line break or any other non-printable character is written as its Python escape.
+    """
+    text = str(text)
+    if text.isprintable():  # the usual case, checked in C
+        return text
+    return "".join(ch if ch.isprintable() or ch == " " else ch.encode("unicode_escape").decode("ascii") for ch in text)
+
+
+def did_you_mean(word: str, known) -> str:
+    close = difflib.get_close_matches(str(word), [str(k) for k in known], n=1, cutoff=0.6)
+    return f" (did you mean '{close[0]}'?)" if close else ""
+
+
+def known_list(known, limit: int = 8) -> str:
+    names = sorted(str(k) for k in known)
+    text = ", ".join(names[:limit]) + (", …" if len(names) > limit else "")
+    return f"known: {text}" if names else "none are defined"
+
+
+def join(path: str, key: str | int) -> str:
+    if isinstance(key, int):
+        return f"{path}[{key}]"
+    return f"{path}.{key}" if path else key
 
 
 class Context:
@@ -51,16 +94,14 @@ class Context:
     def __init__(self, file: str):
         self.file = file
         self.problems: list[Problem] = []
-        self.lines: dict[str, int] = {}
-        #: every name given in a :class:`Mapping`, by the mapping's path, valid or not (so a
-        #: reference to a name whose entry has a problem is not also called unknown)
+        self.lines: dict[str, int] = {}  #: path -> line of its key (or list item)
+        self.value_lines: dict[str, int] = {}  #: path -> line where its value starts
+        #: names given in a mapping of names (``fuels``, ...), valid or not: a reference to a name
+        #: whose entry has a problem of its own is not also called unknown
         self.names: dict[str, set[str]] = {}
 
     def add(self, line: int | None, path: str, message: str) -> None:
         self.problems.append(Problem(self.file, line, one_line(path), one_line(message)))
-
-    def at(self, node: yaml.Node, path: str, message: str) -> None:
-        self.add(line_of(node), path, message)
 
     def line(self, path: str) -> int | None:
         """Line of ``path``, or of its nearest recorded parent."""
@@ -75,44 +116,12 @@ class Context:
         self.add(self.line(path), path, message)
 
 
-def top_level_keys(node: yaml.Node) -> list[str]:
-    """The plain keys of a top-level mapping node (empty for anything else)."""
-    if not isinstance(node, yaml.MappingNode):
-        return []
-    return [k.value for k, _ in node.value if isinstance(k, yaml.ScalarNode)]
+# --- YAML nodes -> plain values ------------------------------------------------------------
+class Scalar(str):
+    """A YAML scalar: its text as written, ``value`` as YAML 1.1 reads it, ``plain`` if unquoted."""
 
-
-def one_line(text: str) -> str:
-    r"""``text`` with control characters escaped (user text in a message stays on one line).
-
-    The one escaper of user text shown on a terminal or in a chart: ``\x1b``, ``\r``, ``\x07``,
-    a line break or any other non-printable character is written as its Python escape.
-    """
-    text = str(text)
-    if text.isprintable():  # the usual case, checked in C
-        return text
-    return "".join(ch if ch.isprintable() or ch == " " else ch.encode("unicode_escape").decode("ascii") for ch in text)
-
-
-def line_of(node: yaml.Node) -> int:
-    return node.start_mark.line + 1
-
-
-def join(path: str, key: str | int) -> str:
-    if isinstance(key, int):
-        return f"{path}[{key}]"
-    return f"{path}.{key}" if path else key
-
-
-def did_you_mean(word: str, known) -> str:
-    close = difflib.get_close_matches(str(word), [str(k) for k in known], n=1, cutoff=0.6)
-    return f" (did you mean '{close[0]}'?)" if close else ""
-
-
-def known_list(known, limit: int = 8) -> str:
-    names = sorted(str(k) for k in known)
-    text = ", ".join(names[:limit]) + (", …" if len(names) > limit else "")
-    return f"known: {text}" if names else "none are defined"
+    value: Any
+    plain: bool
 
 
 _constructor = yaml.SafeLoader("")  # only its scalar readers are used (no object cache, no tags)
@@ -124,401 +133,480 @@ _READERS = {
 }
 
 
-def scalar_value(node: yaml.ScalarNode):
-    """Python value of a plain scalar by its resolved YAML 1.1 tag: int, float, bool, None, else the text."""
+def _scalar(node: yaml.ScalarNode) -> Scalar:
+    """A plain scalar read by its resolved YAML 1.1 tag (int, float, bool, None, else the text)."""
+    out = Scalar(node.value)
+    out.plain = node.style is None
     reader = _READERS.get(node.tag)
-    if reader is None:
-        return node.value
     try:
-        return reader(node)
-    except Exception:  # a malformed number: keep the text, the spec reports it
-        return node.value
+        out.value = node.value if reader is None else reader(node)
+    except Exception:  # a malformed number: keep the text, the field's check reports it
+        out.value = node.value
+    return out
 
 
-def _type_name(node: yaml.Node) -> str:
-    if isinstance(node, yaml.MappingNode):
-        return "a mapping"
+def top_level_keys(node: yaml.Node) -> list[str]:
+    """The plain keys of a top-level mapping node (empty for anything else)."""
+    if not isinstance(node, yaml.MappingNode):
+        return []
+    return [k.value for k, _ in node.value if isinstance(k, yaml.ScalarNode)]
+
+
+def plain(node: yaml.Node, ctx: Context, path: str = "", keys: list | None = None):
+    """The node as dicts, lists and :class:`Scalar`; lines into ``ctx``; odd keys into ``keys``.
+
+    ``keys`` collects (path, line, problem kind) of keys given twice (the first is kept) and of
+    keys that are not plain text; they are worded by :func:`structural_problems`.
+    """
+    ctx.value_lines[path] = node.start_mark.line + 1
+    if isinstance(node, yaml.ScalarNode):
+        return _scalar(node)
     if isinstance(node, yaml.SequenceNode):
+        out = []
+        for i, item in enumerate(node.value):
+            ctx.lines[join(path, i)] = item.start_mark.line + 1
+            out.append(plain(item, ctx, join(path, i), keys))
+        return out
+    result: dict[str, Any] = {}
+    for key_node, value_node in node.value:
+        line = key_node.start_mark.line + 1
+        if not isinstance(key_node, yaml.ScalarNode) or not key_node.value.strip():
+            keys.append((path, line, "not plain", None))
+            continue
+        sub = join(path, key_node.value)
+        if key_node.value in result:
+            keys.append((sub, line, "twice", key_node.value))
+            continue
+        ctx.lines[sub] = line
+        result[key_node.value] = plain(value_node, ctx, sub, keys)
+    return result
+
+
+def type_name(value) -> str:
+    """How a value is named in a message: 'a mapping', 'a list', or its repr (shortened)."""
+    if isinstance(value, dict):
+        return "a mapping"
+    if isinstance(value, list):
         return "a list"
-    value = scalar_value(node)
-    if value is None:
+    read = value.value if isinstance(value, Scalar) else value
+    if read is None:
         return "nothing (null)"
-    text = repr(value)
-    return text if len(text) <= 80 else f"{text[:60]}… ({len(node.value):,} characters)"
+    text = repr(read)
+    return text if len(text) <= 80 else f"{text[:60]}… ({len(str(value)):,} characters)"
 
 
-class Spec:
-    """Base: ``check`` returns a Python value or INVALID; ``schema`` returns a JSON Schema dict."""
-
-    description: str = ""
-
-    def check(self, node: yaml.Node, path: str, ctx: Context):  # pragma: no cover - abstract
-        raise NotImplementedError
-
-    def schema(self) -> dict:  # pragma: no cover - abstract
-        raise NotImplementedError
-
-    def _with_description(self, schema: dict) -> dict:
-        if self.description:
-            schema["description"] = self.description
-        return schema
+# --- the field types ---------------------------------------------------------------------
+def fail(message: str) -> ValueError:
+    """A problem of a value, in carbfleet's words (pydantic reports it as a ``value_error``)."""
+    return ValueError(message)
 
 
-@dataclass
-class Quantity(Spec):
-    """A number with an optional unit; bare numbers are in ``unit``. Range in ``unit``."""
+def _read(value):
+    return value.value if isinstance(value, Scalar) else value
 
-    unit: str
-    description: str = ""
-    minimum: float | None = None
-    maximum: float | None = None
-    exclusive_minimum: bool = False
-    unit_label: str = ""  # how the unit is written in messages ("degC", "%")
 
-    def check(self, node, path, ctx):
-        if not isinstance(node, yaml.ScalarNode):
-            ctx.at(node, path, f"expected a number with an optional unit (default {self.label}), got {_type_name(node)}")
-            return INVALID
-        value = scalar_value(node)
+def _field(kind, check: Callable, schema: dict, description: str):
+    if description:
+        schema = {**schema, "description": description}
+    return Annotated[kind, BeforeValidator(check), WithJsonSchema(schema)]
+
+
+def Quantity(accepted: Range | str, description: str = "", exclusive_minimum: bool = False):  # noqa: N802 (a type)
+    """A number with an optional unit; a bare number is in the range's unit. Returns SI."""
+    rng = accepted if isinstance(accepted, Range) else Range(accepted, math.nan, math.nan)
+    unit, label = rng.unit, unit_label(rng.unit)
+    low = None if math.isnan(rng.low) else parse_quantity(rng.low, unit)
+    high = None if math.isnan(rng.high) else parse_quantity(rng.high, unit)
+    if exclusive_minimum:
+        range_text = f"above {rng.low:g} {label}"
+    else:
+        range_text = rng.text()
+
+    def check(value):
+        if isinstance(value, (dict, list)):
+            raise fail(f"expected a number with an optional unit (default {label}), got {type_name(value)}")
+        given = _read(value)
         try:
-            si = parse_quantity(value, self.unit)
+            si = parse_quantity(given, unit)
         except UnitProblem as exc:
-            ctx.at(node, path, str(exc))
-            return INVALID
-        low = None if self.minimum is None else parse_quantity(self.minimum, self.unit)
-        high = None if self.maximum is None else parse_quantity(self.maximum, self.unit)
-        too_low = low is not None and (si <= low if self.exclusive_minimum else si < low - 1e-12 * abs(low))
-        too_high = high is not None and si > high + 1e-12 * abs(high)
-        if too_low or too_high:
-            ctx.at(node, path, f"{value!r} is outside the accepted range {self.range_text()}")
-            return INVALID
+            raise fail(str(exc)) from None
+        too_low = low is not None and (si <= low if exclusive_minimum else si < low - 1e-12 * abs(low))
+        if too_low or (high is not None and si > high + 1e-12 * abs(high)):
+            raise fail(f"{given!r} is outside the accepted range {range_text}")
         return si
 
-    @property
-    def label(self) -> str:
-        return self.unit_label or self.unit
-
-    def range_text(self) -> str:
-        def fmt(x):
-            return f"{x:g}"
-
-        if self.minimum is not None and self.maximum is not None:
-            return f"{fmt(self.minimum)}..{fmt(self.maximum)} {self.label}"
-        if self.minimum is not None:
-            return f"{'above' if self.exclusive_minimum else 'at least'} {fmt(self.minimum)} {self.label}"
-        return f"at most {fmt(self.maximum)} {self.label}"
-
-    def schema(self):
-        number: dict[str, Any] = {"type": "number"}
-        if self.minimum is not None:
-            number["exclusiveMinimum" if self.exclusive_minimum else "minimum"] = self.minimum
-        if self.maximum is not None:
-            number["maximum"] = self.maximum
-        text = {"type": "string", "pattern": _NUMBER_WITH_UNIT}
-        desc = (self.description + " " if self.description else "") + f"Bare number in {self.label}; or a string with a unit."
-        if self.minimum is not None or self.maximum is not None:
-            desc += f" Accepted range {self.range_text()}."
-        return {"anyOf": [number, text], "description": desc}
+    number: dict[str, Any] = {"type": "number"}
+    if low is not None:
+        number["exclusiveMinimum" if exclusive_minimum else "minimum"] = rng.low
+    if high is not None:
+        number["maximum"] = rng.high
+    text = (description + " " if description else "") + f"Bare number in {label}; or a string with a unit."
+    text += f" Accepted range {range_text}." if low is not None else ""
+    schema = {"anyOf": [number, {"type": "string", "pattern": schema_pattern(unit)}], "x-unit": label}
+    return _field(float, check, schema, text)
 
 
-@dataclass
-class Text(Spec):
+def Text(description: str = ""):  # noqa: N802
     """Any non-empty scalar, read as its text (so ``id: 007`` stays ``"007"``)."""
 
-    description: str = ""
+    def check(value):
+        if isinstance(value, (dict, list)) or _read(value) is None or str(value).strip() == "":
+            raise fail(f"expected text, got {type_name(value)}")
+        return str(value)
 
-    def check(self, node, path, ctx):
-        if not isinstance(node, yaml.ScalarNode) or scalar_value(node) is None or node.value.strip() == "":
-            ctx.at(node, path, f"expected text, got {_type_name(node)}")
-            return INVALID
-        return node.value
-
-    def schema(self):
-        return self._with_description({"type": ["string", "number"]})
+    return _field(str, check, {"type": ["string", "number"]}, description)
 
 
-@dataclass
-class Integer(Spec):
-    description: str = ""
-    minimum: int | None = None
-    maximum: int | None = None
+def Integer(description: str = "", minimum: int | None = None, maximum: int | None = None):  # noqa: N802
+    def check(value):
+        read = None if isinstance(value, (dict, list)) else _read(value)
+        if isinstance(read, float) and read.is_integer():
+            read = int(read)
+        if not isinstance(read, int) or isinstance(read, bool):
+            raise fail(f"expected a whole number, got {type_name(value)}")
+        if (minimum is not None and read < minimum) or (maximum is not None and read > maximum):
+            raise fail(f"{read} is outside the accepted range {minimum}..{maximum}")
+        return read
 
-    def check(self, node, path, ctx):
-        value = scalar_value(node) if isinstance(node, yaml.ScalarNode) else None
-        if isinstance(value, float) and value.is_integer():
-            value = int(value)
-        if not isinstance(value, int) or isinstance(value, bool):
-            ctx.at(node, path, f"expected a whole number, got {_type_name(node)}")
-            return INVALID
-        if (self.minimum is not None and value < self.minimum) or (self.maximum is not None and value > self.maximum):
-            ctx.at(node, path, f"{value} is outside the accepted range {self.minimum}..{self.maximum}")
-            return INVALID
-        return value
-
-    def schema(self):
-        s: dict[str, Any] = {"type": "integer"}
-        if self.minimum is not None:
-            s["minimum"] = self.minimum
-        if self.maximum is not None:
-            s["maximum"] = self.maximum
-        return self._with_description(s)
+    schema = {"type": "integer", **({"minimum": minimum} if minimum is not None else {}),
+              **({"maximum": maximum} if maximum is not None else {})}
+    return _field(int, check, schema, description)
 
 
-@dataclass
-class Number(Spec):
+def Number(description: str = "", minimum: float | None = None, maximum: float | None = None,  # noqa: N802
+           exclusive_minimum: bool = False):
     """A plain number without unit (a ratio, an exponent, a jet size)."""
 
-    description: str = ""
-    minimum: float | None = None
-    maximum: float | None = None
-    exclusive_minimum: bool = False
-
-    def check(self, node, path, ctx):
-        value = scalar_value(node) if isinstance(node, yaml.ScalarNode) else None
-        if isinstance(value, str):  # "1.5e3" is a string in YAML 1.1 but a number to a reader
+    def check(value):
+        read = None if isinstance(value, (dict, list)) else _read(value)
+        if isinstance(read, str):  # "1.5e3" is a string in YAML 1.1 but a number to a reader
             try:
-                value = float(value)
+                read = float(read)
             except ValueError:
                 pass
-        if not isinstance(value, (int, float)) or isinstance(value, bool) or not math.isfinite(value):
-            ctx.at(node, path, f"expected a number, got {_type_name(node)}")
-            return INVALID
-        value = float(value)
-        low_bad = self.minimum is not None and (value <= self.minimum if self.exclusive_minimum else value < self.minimum)
-        if low_bad or (self.maximum is not None and value > self.maximum):
-            low = "" if self.minimum is None else (f"above {self.minimum:g}" if self.exclusive_minimum else f"at least {self.minimum:g}")
-            high = "" if self.maximum is None else f"at most {self.maximum:g}"
-            ctx.at(node, path, f"{value:g} is outside the accepted range ({', '.join(x for x in (low, high) if x)})")
-            return INVALID
-        return value
+        if not isinstance(read, (int, float)) or isinstance(read, bool) or not math.isfinite(read):
+            raise fail(f"expected a number, got {type_name(value)}")
+        read = float(read)
+        low_bad = minimum is not None and (read <= minimum if exclusive_minimum else read < minimum)
+        if low_bad or (maximum is not None and read > maximum):
+            low = "" if minimum is None else (f"above {minimum:g}" if exclusive_minimum else f"at least {minimum:g}")
+            high = "" if maximum is None else f"at most {maximum:g}"
+            raise fail(f"{read:g} is outside the accepted range ({', '.join(x for x in (low, high) if x)})")
+        return read
 
-    def schema(self):
-        s: dict[str, Any] = {"type": "number"}
-        if self.minimum is not None:
-            s["exclusiveMinimum" if self.exclusive_minimum else "minimum"] = self.minimum
-        if self.maximum is not None:
-            s["maximum"] = self.maximum
-        return self._with_description(s)
+    schema: dict[str, Any] = {"type": "number"}
+    if minimum is not None:
+        schema["exclusiveMinimum" if exclusive_minimum else "minimum"] = minimum
+    if maximum is not None:
+        schema["maximum"] = maximum
+    return _field(float, check, schema, description)
 
 
-@dataclass
-class Boolean(Spec):
-    description: str = ""
+def Boolean(description: str = ""):  # noqa: N802
+    def check(value):
+        read = None if isinstance(value, (dict, list)) else _read(value)
+        if not isinstance(read, bool):
+            raise fail(f"expected true or false, got {type_name(value)}")
+        return read
 
-    def check(self, node, path, ctx):
-        value = scalar_value(node) if isinstance(node, yaml.ScalarNode) else None
-        if not isinstance(value, bool):
-            ctx.at(node, path, f"expected true or false, got {_type_name(node)}")
-            return INVALID
-        return value
-
-    def schema(self):
-        return self._with_description({"type": "boolean"})
+    return _field(bool, check, {"type": "boolean"}, description)
 
 
-@dataclass
-class Choice(Spec):
+def Choice(choices: tuple, description: str = ""):  # noqa: N802
     """One of a fixed set of words (or numbers)."""
 
-    choices: tuple
-    description: str = ""
+    def check(value):
+        read = None if isinstance(value, (dict, list)) else _read(value)
+        if read in choices and not isinstance(read, bool):
+            return read
+        hint = did_you_mean(value, choices) if isinstance(value, str) else ""
+        raise fail(f"expected one of {', '.join(str(c) for c in choices)}, got {type_name(value)}{hint}")
 
-    def check(self, node, path, ctx):
-        value = scalar_value(node) if isinstance(node, yaml.ScalarNode) else None
-        if value in self.choices and not isinstance(value, bool):
-            return value
-        options = ", ".join(str(c) for c in self.choices)
-        hint = did_you_mean(node.value, self.choices) if isinstance(node, yaml.ScalarNode) else ""
-        ctx.at(node, path, f"expected one of {options}, got {_type_name(node)}{hint}")
-        return INVALID
-
-    def schema(self):
-        return self._with_description({"enum": list(self.choices)})
+    return _field(type(choices[0]), check, {"enum": list(choices)}, description)
 
 
-@dataclass
-class Field:
-    spec: Spec
-    required: bool = False
+def Custom(read: Callable[[Any], Any], schema: dict, description: str = "", colon_as_text: bool = False):  # noqa: N802
+    """A scalar read by ``read``, which returns a value or raises ValueError with a message.
+
+    ``colon_as_text``: an unquoted scalar with a colon is passed as its text: YAML 1.1 reads
+    ``32:1`` as the base-60 integer 1921, YAML 1.2 (editors, the JSON Schema) as the text "32:1".
+    """
+
+    def check(value):
+        if isinstance(value, (dict, list)):
+            raise fail(f"expected a single value, got {type_name(value)}")
+        as_text = colon_as_text and isinstance(value, Scalar) and value.plain and ":" in value
+        try:
+            return read(str(value) if as_text else _read(value))
+        except ValueError as exc:
+            raise fail(str(exc)) from None
+
+    return _field(float, check, schema, description)
 
 
-@dataclass
-class Obj(Spec):
-    """A mapping with known keys. ``one_of``: groups of keys of which exactly one must be given."""
+def Either(forms: dict[str, Any], kind_of: Callable[[Any], str | None], expected: str, description: str = ""):  # noqa: N802
+    """One of several forms (``{tag: type}``), chosen by ``kind_of(value)`` (a tag, or None: none fits)."""
+    members = tuple(Annotated[tp, Tag(tag)] for tag, tp in forms.items())
+    schema_extra = {"description": description} if description else {}
+    return Annotated[Union[members], Discriminator(kind_of, custom_error_type=_FORM_ERROR,  # noqa: UP007
+                                                   custom_error_message=expected), _EitherSchema(schema_extra)]
 
-    fields: dict[str, Field]
-    description: str = ""
-    one_of: tuple[tuple[str, ...], ...] = ()
-    allow_null: bool = False  # ``key:`` with nothing after it reads as an empty mapping
 
-    def check(self, node, path, ctx):
-        if self.allow_null and isinstance(node, yaml.ScalarNode) and scalar_value(node) is None:
+class _EitherSchema:
+    """Writes an :func:`Either` as ``anyOf`` of its forms (what an editor shows as alternatives)."""
+
+    def __init__(self, extra: dict):
+        self.extra = extra
+
+    def __get_pydantic_json_schema__(self, core_schema, handler):
+        schema = handler(core_schema)
+        forms = schema.pop("oneOf", None) or schema.pop("anyOf", [])
+        schema.pop("discriminator", None)
+        return {"anyOf": forms, **schema, **self.extra}
+
+
+# --- models ------------------------------------------------------------------------------
+class FileModel(BaseModel):
+    """A mapping with known keys. ``one_of``: groups of keys of which exactly one must be given;
+    ``null_is_empty``: ``key:`` with nothing after it reads as an empty mapping."""
+
+    model_config = ConfigDict(extra="forbid", protected_namespaces=(), frozen=True, populate_by_name=False)
+    one_of: ClassVar[tuple[tuple[str, ...], ...]] = ()
+    null_is_empty: ClassVar[bool] = False
+
+    @model_validator(mode="before")
+    @classmethod
+    def _null_is_empty(cls, data):
+        if cls.null_is_empty and _read(data) is None and not isinstance(data, (dict, list)):
             return {}
-        if not isinstance(node, yaml.MappingNode):
-            ctx.at(node, path, f"expected a mapping with keys {', '.join(self.fields)}, got {_type_name(node)}")
-            return INVALID
-        result: dict[str, Any] = {}
-        seen: set[str] = set()
-        for key_node, value_node in node.value:
-            key = key_node.value if isinstance(key_node, yaml.ScalarNode) else None
-            if key is None:
-                ctx.at(key_node, path, "expected a plain key")
-                continue
-            sub = join(path, key)
-            ctx.lines[sub] = line_of(key_node)
-            if key in seen:
-                ctx.at(key_node, sub, "given twice; keep one")
-                continue
-            seen.add(key)
-            if key not in self.fields:
-                ctx.at(key_node, sub, f"unknown key '{key}'{did_you_mean(key, self.fields)} (allowed: {', '.join(self.fields)})")
-                continue
-            value = self.fields[key].spec.check(value_node, sub, ctx)
-            if value is not INVALID:
-                result[key] = value
-        for key, f in self.fields.items():
-            if f.required and key not in seen:
-                ctx.at(node, join(path, key), "missing; this key is required")
-        for group in self.one_of:
-            given = [k for k in group if k in seen]
+        return data
+
+    @classmethod
+    def __get_pydantic_json_schema__(cls, core_schema, handler):
+        schema = handler(core_schema)
+        target = handler.resolve_ref_schema(schema)
+        if cls.one_of:
+            target["allOf"] = [{"oneOf": [{"required": [k]} for k in group]} for group in cls.one_of]
+        if cls.null_is_empty:
+            return {"anyOf": [schema, {"type": "null"}], "description": target.get("description", "")}
+        return schema
+
+    @classmethod
+    def keys(cls) -> list[str]:
+        return [f.alias or name for name, f in cls.model_fields.items()]
+
+
+def _unwrap(tp):
+    while get_origin(tp) is Annotated:
+        tp = get_args(tp)[0]
+    return tp
+
+
+def _is_model(tp) -> bool:
+    return isinstance(tp, type) and issubclass(tp, BaseModel)
+
+
+def type_at(tp, loc, annotated: bool = False) -> Any:
+    """The type found at ``loc`` (keys, indices and form tags) below the type ``tp``; None if none.
+
+    ``annotated``: keep the ``Annotated`` metadata of the type found (its length limits).
+    """
+    for part in loc:
+        tp = _unwrap(tp)
+        forms = _tags(tp)
+        if part in forms:
+            tp = forms[part]
+            continue
+        if forms:
+            fits = [m for m in forms.values() if _holds(_unwrap(m), part)]
+            tp = _unwrap(fits[0]) if fits else None
+        if _is_model(tp):
+            fields = {f.alias or name: f for name, f in tp.model_fields.items()}
+            if part not in fields:
+                return None
+            field = fields[part]
+            tp = Annotated[field.annotation, *field.metadata] if field.metadata else field.annotation
+        elif get_origin(tp) is dict and isinstance(part, str):
+            tp = get_args(tp)[1]
+        elif get_origin(tp) is list and isinstance(part, int):
+            tp = get_args(tp)[0]
+        else:
+            return None
+    return tp if annotated else _unwrap(tp)
+
+
+def _holds(tp, part) -> bool:
+    """Whether ``tp`` is a list (``part`` an index) or a mapping (``part`` a key)."""
+    if isinstance(part, int):
+        return get_origin(tp) is list
+    return _is_model(tp) or get_origin(tp) is dict
+
+
+def _tags(tp) -> dict:
+    """``{tag: type}`` of an :func:`Either`'s forms; empty for any other type."""
+    tp = _unwrap(tp)
+    if get_origin(tp) not in (Union, types.UnionType):
+        return {}
+    forms = {}
+    for member in get_args(tp):
+        inner, *meta = get_args(member)
+        other = [m for m in meta if not isinstance(m, Tag)]
+        for tag in (m.tag for m in meta if isinstance(m, Tag)):
+            forms[tag] = Annotated[inner, *other] if other else inner
+    return forms
+
+
+def _path(root, loc) -> tuple[str, tuple]:
+    """The dotted path of an error location, and the location without form tags."""
+    data_loc, tp, path = [], root, ""
+    for part in loc:
+        forms = _tags(tp)
+        if part in forms:
+            tp = forms[part]
+            continue
+        data_loc.append(part)
+        path = join(path, part)
+        tp = type_at(tp, (part,)) if tp is not None else None
+    return path, tuple(data_loc)
+
+
+def _words(error: dict, root, ctx: Context) -> tuple[int | None, str, str]:
+    """(line, path, problem) of one pydantic error, in carbfleet's words."""
+    path, loc = _path(root, error["loc"])
+    kind, value = error["type"], error.get("input")
+    line = ctx.value_lines.get(path)
+    here = type_at(root, error["loc"])
+    if kind == "value_error":
+        return line, path, str(error["ctx"]["error"])
+    if kind == _FORM_ERROR:
+        return line, path, f"{error['msg']}, got {type_name(value)}"
+    if kind == "missing":
+        return ctx.value_lines.get(path.rsplit(".", 1)[0] if "." in path else ""), path, "missing; this key is required"
+    if kind == "extra_forbidden":
+        parent = type_at(root, error["loc"][:-1])
+        allowed = parent.keys() if _is_model(parent) else []
+        key = loc[-1]
+        return ctx.lines.get(path), path, f"unknown key '{key}'{did_you_mean(key, allowed)} (allowed: {', '.join(allowed)})"
+    if _is_model(here) and kind in ("model_type", "model_attributes_type", "dict_type"):
+        return line, path, f"expected a mapping with keys {', '.join(here.keys())}, got {type_name(value)}"
+    if kind == "dict_type":
+        return line, path, f"expected a mapping of names, got {type_name(value)}"
+    if kind == "list_type":
+        return line, path, f"expected a list, got {type_name(value)}"
+    if kind in ("too_short", "too_long") and get_origin(here) is dict:
+        return line, path, f"expected at least {error['ctx']['min_length']} entr{'y' if error['ctx']['min_length'] == 1 else 'ies'}"
+    if kind in ("too_short", "too_long"):
+        meta = [m for given in get_args(type_at(root, error["loc"], annotated=True))[1:]
+                for m in (getattr(given, "metadata", None) or [given])]  # a Field(...)'s limits, or the limits
+        low = max((m.min_length for m in meta if getattr(m, "min_length", None) is not None), default=0)
+        high = min((m.max_length for m in meta if getattr(m, "max_length", None) is not None), default=None)
+        want = str(low) if low == high else f"at least {low}"
+        return line, path, f"expected {want} entries, got {error['ctx']['actual_length']}"
+    return line, path, error["msg"]  # pragma: no cover - every kind the models raise is worded above
+
+
+def structural_problems(model: type[FileModel], data, ctx: Context, keys: list) -> FileModel | None:
+    """Validate ``data`` (from :func:`plain`) with ``model``; every problem into ``ctx``, at once.
+
+    Returns the validated model, or None when the file has any problem.
+    """
+    found = len(ctx.problems)
+    for path, line, what, key in keys:
+        parent = type_at(model, _loc(path)[:-1] if what == "twice" else _loc(path))
+        names = get_origin(parent) is dict
+        if what == "twice":
+            ctx.add(line, path, f"the name '{key}' is given twice; names must be unique" if names else "given twice; keep one")
+        else:
+            ctx.add(line, path, "expected a plain name as key" if names else "expected a plain key")
+    try:
+        result = model.model_validate(data)
+    except ValidationError as exc:
+        errors = exc.errors(include_url=False)  # a key missing is said after the other keys, as in the file
+        for error in sorted(errors, key=lambda e: e["type"] == "missing"):
+            ctx.add(*_words(error, model, ctx))
+        result = None
+    _check_key_groups(model, data, "", ctx)
+    return result if len(ctx.problems) == found else None
+
+
+def _loc(path: str) -> tuple:
+    """``a.b[2].c`` -> ("a", "b", 2, "c") (names with dots stay whole where a mapping holds them)."""
+    out: list = []
+    for part in path.replace("[", ".[").split("."):
+        if part.startswith("["):
+            out.append(int(part[1:-1]))
+        elif part:
+            out.append(part)
+    return tuple(out)
+
+
+def _check_key_groups(tp, data, path: str, ctx: Context) -> None:
+    """The ``one_of`` groups of every model in ``data``, checked whatever else is wrong in it."""
+    tp = _unwrap(tp)
+    if get_origin(tp) in (Union, types.UnionType):
+        tp = _pick(tp, data)
+    if _is_model(tp) and isinstance(data, dict):
+        for group in tp.one_of:
+            given = [k for k in group if k in data]
             if len(given) != 1:
                 what = "none" if not given else ", ".join(given)
-                ctx.at(node, path or "(top)", f"give exactly one of {', '.join(group)} (given: {what})")
-        return result
-
-    def schema(self):
-        s: dict[str, Any] = {
-            "type": "object",
-            "properties": {k: f.spec.schema() for k, f in self.fields.items()},
-            "additionalProperties": False,
-        }
-        required = [k for k, f in self.fields.items() if f.required]
-        if required:
-            s["required"] = required
-        if self.one_of:
-            s["allOf"] = [{"oneOf": [{"required": [k]} for k in group]} for group in self.one_of]
-        s = self._with_description(s)
-        if self.allow_null:
-            s = {"anyOf": [s, {"type": "null"}], "description": s.get("description", "")}
-        return s
+                ctx.add(ctx.value_lines.get(path), path or "(top)", f"give exactly one of {', '.join(group)} (given: {what})")
+        fields = {f.alias or name: f.annotation for name, f in tp.model_fields.items()}
+        for key, value in data.items():
+            if key in fields:
+                _check_key_groups(fields[key], value, join(path, key), ctx)
+    elif get_origin(tp) is dict and isinstance(data, dict):
+        for key, value in data.items():
+            _check_key_groups(get_args(tp)[1], value, join(path, key), ctx)
+    elif get_origin(tp) is list and isinstance(data, list):
+        for i, value in enumerate(data):
+            _check_key_groups(get_args(tp)[0], value, join(path, i), ctx)
 
 
-@dataclass
-class Mapping(Spec):
-    """A mapping from user-chosen names to values of one spec."""
-
-    values: Spec
-    description: str = ""
-    min_items: int = 0
-
-    def check(self, node, path, ctx):
-        if not isinstance(node, yaml.MappingNode):
-            ctx.at(node, path, f"expected a mapping of names, got {_type_name(node)}")
-            return INVALID
-        result: dict[str, Any] = {}
-        names = ctx.names.setdefault(path, set())
-        for key_node, value_node in node.value:
-            if not isinstance(key_node, yaml.ScalarNode) or not key_node.value.strip():
-                ctx.at(key_node, path, "expected a plain name as key")
-                continue
-            key = key_node.value
-            names.add(key)
-            sub = join(path, key)
-            ctx.lines[sub] = line_of(key_node)
-            if key in result:
-                ctx.at(key_node, sub, f"the name '{key}' is given twice; names must be unique")
-                continue
-            value = self.values.check(value_node, sub, ctx)
-            result[key] = value
-        if len(node.value) < self.min_items:
-            ctx.at(node, path, f"expected at least {self.min_items} entr{'y' if self.min_items == 1 else 'ies'}")
-        return {k: v for k, v in result.items() if v is not INVALID}
-
-    def schema(self):
-        s = {"type": "object", "additionalProperties": self.values.schema()}
-        if self.min_items:
-            s["minProperties"] = self.min_items
-        return self._with_description(s)
+def _pick(union, data):
+    for member in get_args(union):
+        inner = _unwrap(member)
+        if (isinstance(data, list) and get_origin(inner) is list) or (isinstance(data, dict) and _is_model(inner)):
+            return inner
+    return None
 
 
-@dataclass
-class Sequence(Spec):
-    items: Spec
-    description: str = ""
-    min_items: int = 0
-    max_items: int | None = None
+# --- JSON Schema ---------------------------------------------------------------------------
+class _Schema(GenerateJsonSchema):
+    """pydantic's JSON Schema without titles and defaults (the descriptions say what a default is)."""
 
-    def check(self, node, path, ctx):
-        if not isinstance(node, yaml.SequenceNode):
-            ctx.at(node, path, f"expected a list, got {_type_name(node)}")
-            return INVALID
-        n = len(node.value)
-        if n < self.min_items or (self.max_items is not None and n > self.max_items):
-            want = str(self.min_items) if self.max_items == self.min_items else f"at least {self.min_items}"
-            ctx.at(node, path, f"expected {want} entries, got {n}")
-            return INVALID
-        result = []
-        for i, item in enumerate(node.value):
-            sub = join(path, i)
-            ctx.lines[sub] = line_of(item)
-            result.append(self.items.check(item, sub, ctx))
-        return result  # INVALID entries kept in place so indices stay those of the file
+    def field_title_should_be_set(self, schema) -> bool:
+        return False
 
-    def schema(self):
-        s: dict[str, Any] = {"type": "array", "items": self.items.schema()}
-        if self.min_items:
-            s["minItems"] = self.min_items
-        if self.max_items is not None:
-            s["maxItems"] = self.max_items
-        return self._with_description(s)
+    def default_schema(self, schema):
+        return self.generate_inner(schema["schema"])
 
 
-@dataclass
-class Either(Spec):
-    """A scalar form or a list form or a mapping form, chosen by the node's kind."""
-
-    scalar: Spec | None = None
-    sequence: Spec | None = None
-    mapping: Spec | None = None
-    description: str = ""
-    expected: str = ""
-
-    def check(self, node, path, ctx):
-        if isinstance(node, yaml.ScalarNode) and self.scalar is not None:
-            return self.scalar.check(node, path, ctx)
-        if isinstance(node, yaml.SequenceNode) and self.sequence is not None:
-            return self.sequence.check(node, path, ctx)
-        if isinstance(node, yaml.MappingNode) and self.mapping is not None:
-            return self.mapping.check(node, path, ctx)
-        ctx.at(node, path, f"expected {self.expected}, got {_type_name(node)}")
-        return INVALID
-
-    def schema(self):
-        forms = [s.schema() for s in (self.scalar, self.sequence, self.mapping) if s is not None]
-        return self._with_description({"anyOf": forms})
+_KEY_ORDER = ("type", "enum", "pattern", "minimum", "exclusiveMinimum", "maximum", "items", "minItems", "maxItems",
+              "properties", "additionalProperties", "minProperties", "required", "allOf", "anyOf", "description", "x-unit")
 
 
-@dataclass
-class Custom(Spec):
-    """A scalar read by a function that returns a value or raises ValueError with a message."""
+def _inline(schema, defs: dict):
+    if isinstance(schema, list):
+        return [_inline(s, defs) for s in schema]
+    if not isinstance(schema, dict):
+        return schema
+    if "$ref" in schema:
+        target = defs[schema["$ref"].rsplit("/", 1)[1]]
+        return _inline({**target, **{k: v for k, v in schema.items() if k != "$ref"}}, defs)
+    out = {}
+    for key, value in schema.items():
+        if key == "title":
+            continue
+        if key == "properties":
+            out[key] = {name: _inline(sub, defs) for name, sub in value.items()}
+        else:
+            out[key] = _inline(value, defs)
+    return dict(sorted(out.items(), key=lambda item: _KEY_ORDER.index(item[0]) if item[0] in _KEY_ORDER else len(_KEY_ORDER)))
 
-    read: Callable[[Any], Any]
-    schema_dict: dict = field(default_factory=dict)
-    description: str = ""
-    #: an unquoted scalar with a colon is passed as its text: YAML 1.1 reads ``32:1`` as the
-    #: base-60 integer 1921, YAML 1.2 (editors, the JSON Schema) as the text "32:1"
-    colon_as_text: bool = False
 
-    def check(self, node, path, ctx):
-        if not isinstance(node, yaml.ScalarNode):
-            ctx.at(node, path, f"expected a single value, got {_type_name(node)}")
-            return INVALID
-        plain_with_colon = self.colon_as_text and node.style is None and ":" in node.value
-        try:
-            return self.read(node.value if plain_with_colon else scalar_value(node))
-        except ValueError as exc:
-            ctx.at(node, path, str(exc))
-            return INVALID
-
-    def schema(self):
-        return self._with_description(dict(self.schema_dict))
+def json_schema(model: type[BaseModel]) -> dict:
+    """The JSON Schema (draft 2020-12) of ``model``, every ``$ref`` written out in place."""
+    schema = model.model_json_schema(schema_generator=_Schema)
+    defs = schema.pop("$defs", {})
+    return _inline(schema, defs)

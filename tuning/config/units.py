@@ -13,7 +13,17 @@ import re
 import numpy as np
 import pint
 
-__all__ = ["UnitProblem", "parse_quantity", "convert_numbers", "registry", "SI_UNITS"]
+__all__ = [
+    "UnitProblem",
+    "parse_quantity",
+    "convert_numbers",
+    "registry",
+    "SI_UNITS",
+    "UNIT_LABELS",
+    "unit_label",
+    "pint_unit",
+    "schema_pattern",
+]
 
 #: The SI unit each dimension is converted to, by the default-unit's dimensionality.
 SI_UNITS = {
@@ -23,6 +33,23 @@ SI_UNITS = {
     "[mass] / [length] ** 3": "kg/m**3",
     "[length] ** 3": "m**3",
     "": "dimensionless",
+}
+
+#: How a unit is written for people where pint spells it otherwise (the one home of ``%``).
+UNIT_LABELS = {"percent": "%"}
+_PINT_UNITS = {label: unit for unit, label in UNIT_LABELS.items()}
+
+#: Common spellings of the units of each default unit's dimension, for the JSON Schema's pattern
+#: (an editor then flags ``elevation: 150 degC``). The loader accepts any unit pint knows of the
+#: right dimension; tests/test_units.py checks that each spelling here is accepted.
+UNIT_SPELLINGS = {
+    "[length]": ("m", "km", "cm", "mm", "ft", "feet", "foot", "in", "inch", "meter", "metre", "meters", "metres"),
+    "[temperature]": ("degC", "degF", "K", "kelvin", "celsius", "fahrenheit", "degree_Celsius", "degree_Fahrenheit"),
+    "[mass] / [length] / [time] ** 2": ("hPa", "Pa", "kPa", "mbar", "millibar", "bar", "inHg", "mmHg", "psi", "atm"),
+    "[mass] / [length] ** 3": ("kg/L", "kg/l", "g/mL", "g/ml", "g/cm**3", "g/cc", "kg/m**3"),
+    "[length] ** 3": ("cc", "cm**3", "mL", "ml", "L", "l", "in**3"),
+    "percent": ("%", "percent"),
+    "angle": ("deg", "degree", "degrees", "rad", "radian", "radians"),
 }
 
 _NUMBER_UNIT = re.compile(r"^\s*([-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?)\s*(.*?)\s*$")
@@ -37,6 +64,25 @@ def registry() -> pint.UnitRegistry:
     """The one unit registry of the project (built once; about 0.2 s)."""
     ureg = pint.UnitRegistry(autoconvert_offset_to_baseunit=True, cache_folder=None)
     return ureg
+
+
+def unit_label(unit: str) -> str:
+    """``unit`` as people write it (``percent`` -> ``%``)."""
+    return UNIT_LABELS.get(unit, unit)
+
+
+def pint_unit(label: str) -> str:
+    """A unit as written by people, as pint spells it (``%`` -> ``percent``)."""
+    return _PINT_UNITS.get(label, label)
+
+
+def schema_pattern(default_unit: str) -> str:
+    """Regular expression of "number, optional unit" for a field whose bare numbers are in ``default_unit``."""
+    default = registry().Quantity(1.0, default_unit)
+    names = set(dict(default.unit_items()))
+    key = "angle" if names & _ANGLE_UNITS else "percent" if default.dimensionless else str(default.dimensionality)
+    units = "|".join(re.escape(u) for u in UNIT_SPELLINGS[key])
+    return rf"^\s*[-+]?(\d+\.?\d*|\.\d+)([eE][-+]?\d+)?\s*({units})?\s*$"
 
 
 def _dimension_name(dim) -> str:
@@ -86,7 +132,7 @@ def parse_quantity(value, default_unit: str, to_unit: str | None = None) -> floa
         if not match:
             raise UnitProblem(f"expected a number and a unit such as '12 {default_unit}', got {value!r}")
         magnitude, unit = float(match.group(1)), match.group(2) or default_unit
-        unit = {"%": "percent"}.get(unit, unit)
+        unit = pint_unit(unit)
     else:
         raise UnitProblem(f"expected a number with an optional unit (default {default_unit}), got {value!r}")
     if not math.isfinite(magnitude):

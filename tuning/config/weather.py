@@ -57,19 +57,12 @@ import numpy as np
 
 from tuning.air import DEW_POINT_ROUNDING_TOLERANCE
 from tuning.config import model
-from tuning.config.fleet import (
-    DEW_POINT_RANGE,
-    HUMIDITY_RANGE,
-    PRESSURE_RANGE,
-    STATION_PRESSURE_MIN,
-    TEMPERATURE_RANGE,
-    station_pressure_problem,
-    station_pressures,
-)
+from tuning.config.fleet import station_pressure_problem, station_pressures
 from tuning.config.limits import MAX_WEATHER_ROWS
+from tuning.config.quantities import FILE_RANGES, HUMIDITY_KEYS, PRESSURE_KEYS, STATION_PRESSURE_MIN
 from tuning.config.source import display_name, read_text
 from tuning.config.spec import Context, did_you_mean
-from tuning.config.units import UnitProblem, convert_numbers, parse_quantity
+from tuning.config.units import UnitProblem, convert_numbers, parse_quantity, pint_unit
 
 __all__ = ["read_weather_csv", "read_metar", "parse_local_time", "MAX_GAP", "COLUMNS", "YEAR_RANGE"]
 
@@ -81,17 +74,13 @@ MAX_GAP = timedelta(hours=3)
 #: arithmetic overflows, and no forecast exists).
 YEAR_RANGE = (1900, 2199)
 
-#: Known columns: name -> (default unit, pint unit of the range, accepted range).
+#: Known columns but time: name -> accepted range (whose unit is a bare number's).
 COLUMNS = {
-    "air_temperature": ("degC", TEMPERATURE_RANGE),
-    "station_pressure": ("hPa", PRESSURE_RANGE),
-    "qnh": ("hPa", PRESSURE_RANGE),
-    "sea_level_pressure": ("hPa", PRESSURE_RANGE),
-    "relative_humidity": ("percent", HUMIDITY_RANGE),
-    "dew_point": ("degC", DEW_POINT_RANGE),
+    "air_temperature": FILE_RANGES["air_temperature"],
+    **{key: FILE_RANGES["pressure"] for key in PRESSURE_KEYS},
+    "relative_humidity": FILE_RANGES["relative_humidity"],
+    "dew_point": FILE_RANGES["dew_point"],
 }
-PRESSURE_COLUMNS = {"station_pressure": "station", "qnh": "qnh", "sea_level_pressure": "sea_level"}
-HUMIDITY_COLUMNS = {"relative_humidity": "relative", "dew_point": "dew_point"}
 
 _HEADER = re.compile(r"^\s*([A-Za-z_][A-Za-z0-9_]*)\s*(?:\[\s*(.*?)\s*\])?\s*$")
 
@@ -150,10 +139,6 @@ def _second_of_repeated(when: datetime, previous: datetime | None) -> datetime:
     return when
 
 
-def _to_kelvin_range(unit: str, limits: tuple[float, float]) -> tuple[float, float]:
-    return parse_quantity(limits[0], unit), parse_quantity(limits[1], unit)
-
-
 def read_weather_csv(path, zone: zoneinfo.ZoneInfo | None, elevation: float | None = None) -> tuple[model.Weather | None, list]:
     """Read a weather table. Returns (weather or None, problems of the table).
 
@@ -177,6 +162,34 @@ def read_weather_csv(path, zone: zoneinfo.ZoneInfo | None, elevation: float | No
                 "give the hours around the event's sessions only")
         return None, ctx.problems
     header_line, header = rows[0]
+    columns = _header(header_line, header, ctx)
+    if ctx.problems:
+        return None, ctx.problems
+    wanted = ["air_temperature", *(k for k in (*PRESSURE_KEYS, *HUMIDITY_KEYS) if k in columns)]
+    lines, times, cells, numbers = _cells(rows[1:], len(header), columns, wanted, zone, ctx)
+    if not times and not ctx.problems:
+        ctx.add(header_line, "", "the table has a header but no rows")
+    if not times:
+        return None, ctx.problems
+    values = {key: convert_numbers(numbers[key], columns[key][1], COLUMNS[key].unit) for key in wanted}
+    _check_values(values, wanted, columns, cells, lines, elevation, ctx)
+    if ctx.problems:
+        return None, ctx.problems
+    pressure, humidity = wanted[1], wanted[2]
+    weather = model.Weather(
+        time=_utc_array(times),
+        air_temperature=values["air_temperature"],
+        pressure=values[pressure],
+        pressure_kind=PRESSURE_KEYS[pressure],
+        humidity=values[humidity],
+        humidity_kind=HUMIDITY_KEYS[humidity],
+        source=name,
+    )
+    return weather, []
+
+
+def _header(header_line: int, header: list[str], ctx: Context) -> dict[str, tuple[int, str]]:
+    """Column name -> (index, unit as pint spells it) of the header; problems into ``ctx``."""
     columns: dict[str, tuple[int, str]] = {}
     for index, cell in enumerate(header):
         match = _HEADER.match(cell)
@@ -193,34 +206,34 @@ def read_weather_csv(path, zone: zoneinfo.ZoneInfo | None, elevation: float | No
         if key not in COLUMNS:
             ctx.add(header_line, key, f"unknown column '{key}'{did_you_mean(key, [*COLUMNS, 'time'])} (known: time, {', '.join(COLUMNS)})")
             continue
-        default_unit = COLUMNS[key][0]
-        unit = {"%": "percent"}.get(unit or default_unit, unit or default_unit)
+        unit = pint_unit(unit or COLUMNS[key].unit)
         try:
-            parse_quantity(f"1 {unit}", default_unit)
+            parse_quantity(f"1 {unit}", COLUMNS[key].unit)
         except UnitProblem as exc:
             ctx.add(header_line, key, f"unit [{match.group(2)}]: {exc}")
             continue
         columns[key] = (index, unit)
-    pressure = [k for k in PRESSURE_COLUMNS if k in columns]
-    humidity = [k for k in HUMIDITY_COLUMNS if k in columns]
+    pressure = [k for k in PRESSURE_KEYS if k in columns]
+    humidity = [k for k in HUMIDITY_KEYS if k in columns]
     for needed in ("time", "air_temperature"):
         if needed not in columns and not any(p.field == needed for p in ctx.problems):
             ctx.add(header_line, needed, "missing column")
     if len(pressure) != 1:
-        ctx.add(header_line, "", f"give exactly one pressure column of {', '.join(PRESSURE_COLUMNS)} (given: {', '.join(pressure) or 'none'})")
+        ctx.add(header_line, "", f"give exactly one pressure column of {', '.join(PRESSURE_KEYS)} (given: {', '.join(pressure) or 'none'})")
     if len(humidity) != 1:
-        ctx.add(header_line, "", f"give exactly one humidity column of {', '.join(HUMIDITY_COLUMNS)} (given: {', '.join(humidity) or 'none'})")
-    if ctx.problems:
-        return None, ctx.problems
+        ctx.add(header_line, "", f"give exactly one humidity column of {', '.join(HUMIDITY_KEYS)} (given: {', '.join(humidity) or 'none'})")
+    return columns
 
-    wanted = ["air_temperature", pressure[0], humidity[0]]
+
+def _cells(rows, width: int, columns, wanted: list[str], zone, ctx: Context):
+    """(lines, UTC times, cell texts by column, numbers by column) of the rows that read."""
     lines: list[int] = []
     times: list[datetime] = []  # UTC
     cells: dict[str, list[str]] = {k: [] for k in wanted}
     numbers: dict[str, list[float]] = {k: [] for k in wanted}
-    for line, row in rows[1:]:
-        if len(row) != len(header):
-            ctx.add(line, "", f"expected {len(header)} cells as in the header, got {len(row)}")
+    for line, row in rows:
+        if len(row) != width:
+            ctx.add(line, "", f"expected {width} cells as in the header, got {len(row)}")
             continue
         try:
             when = parse_local_time(row[columns["time"][0]], zone)
@@ -231,7 +244,6 @@ def read_weather_csv(path, zone: zoneinfo.ZoneInfo | None, elevation: float | No
         if times and when <= times[-1]:
             ctx.add(line, "time", f"{row[columns['time'][0]]} is not after the previous row's time; sort the rows, one per time")
             continue
-        row_ok = True
         parsed = {}
         for key in wanted:
             index, unit = columns[key]
@@ -242,55 +254,53 @@ def read_weather_csv(path, zone: zoneinfo.ZoneInfo | None, elevation: float | No
                 number = math.nan
             if not math.isfinite(number):
                 ctx.add(line, key, f"expected a number in {unit}, got {cell!r}")
-                row_ok = False
                 continue
             parsed[key] = (cell, number)
-        if row_ok:
+        if len(parsed) == len(wanted):
             lines.append(line)
             times.append(when)
             for key in wanted:
                 cells[key].append(parsed[key][0])
                 numbers[key].append(parsed[key][1])
-    if not times and not ctx.problems:
-        ctx.add(header_line, "", "the table has a header but no rows")
-    if not times:
-        return None, ctx.problems
+    return lines, times, cells, numbers
 
-    values = {key: convert_numbers(numbers[key], columns[key][1], COLUMNS[key][0]) for key in wanted}
-    good = np.ones(len(times), bool)
+
+def _check_values(values, wanted, columns, cells, lines, elevation, ctx: Context) -> None:
+    """Accepted ranges, dew point against temperature and the station-pressure floor, per row."""
+    good = np.ones(len(lines), bool)
     for key in wanted:  # accepted ranges, per row
-        default_unit, limits = COLUMNS[key]
-        low, high = _to_kelvin_range(default_unit, limits)
+        accepted = COLUMNS[key]
+        low, high = parse_quantity(accepted.low, accepted.unit), parse_quantity(accepted.high, accepted.unit)
         unit = columns[key][1]
         for i in np.flatnonzero(~((values[key] >= low) & (values[key] <= high))):
-            ctx.add(lines[i], key, f"{cells[key][i]} {unit} is outside the accepted range {limits[0]:g}..{limits[1]:g} {default_unit}")
+            ctx.add(lines[i], key, f"{cells[key][i]} {unit} is outside the accepted range {accepted.low:g}..{accepted.high:g} {accepted.unit}")
             good[i] = False
-    temperature, humidity_values = values["air_temperature"], values[humidity[0]]
-    if humidity[0] == "dew_point":
+    pressure, humidity = wanted[1], wanted[2]
+    temperature = values["air_temperature"]
+    if humidity == "dew_point":
         t_unit, d_unit = columns["air_temperature"][1], columns["dew_point"][1]
-        for i in np.flatnonzero(good & (humidity_values > temperature + DEW_POINT_ROUNDING_TOLERANCE)):
+        for i in np.flatnonzero(good & (values[humidity] > temperature + DEW_POINT_ROUNDING_TOLERANCE)):
             ctx.add(lines[i], "dew_point", f"dew point {cells['dew_point'][i]} {d_unit} is above the air temperature "
                     f"{cells['air_temperature'][i]} {t_unit}; check both values and their units")
             good[i] = False
     if elevation is not None and good.any():
-        kind = PRESSURE_COLUMNS[pressure[0]]
+        kind = PRESSURE_KEYS[pressure]
         rows_ok = np.flatnonzero(good)  # rows whose values are in range (converting others could fail)
-        station = station_pressures(values[pressure[0]][rows_ok], kind, elevation, temperature[rows_ok])
+        station = station_pressures(values[pressure][rows_ok], kind, elevation, temperature[rows_ok])
         for i, p in zip(rows_ok, station):
             if not p >= STATION_PRESSURE_MIN * 100.0:
-                ctx.add(lines[i], pressure[0], station_pressure_problem(values[pressure[0]][i], kind, elevation, float(p)))
-    if ctx.problems:
-        return None, ctx.problems
-    weather = model.Weather(
-        time=_utc_array(times),
-        air_temperature=values["air_temperature"],
-        pressure=values[pressure[0]],
-        pressure_kind=PRESSURE_COLUMNS[pressure[0]],
-        humidity=humidity_values,
-        humidity_kind=HUMIDITY_COLUMNS[humidity[0]],
-        source=name,
-    )
-    return weather, []
+                ctx.add(lines[i], pressure, station_pressure_problem(values[pressure][i], kind, elevation, float(p)))
+
+
+def _metar_range(pressure: float, temperature: float, dew_point: float) -> str | None:
+    """The problem of a METAR report's values [hPa, degC, degC] outside the accepted ranges, if any."""
+    for value, what, key, digits in ((pressure, "altimeter setting", "pressure", ".1f"),
+                                     (temperature, "temperature", "air_temperature", "g"),
+                                     (dew_point, "dew point", "dew_point", "g")):
+        accepted = FILE_RANGES[key]  # in hPa and degC, the units the report is read in
+        if not accepted.low <= value <= accepted.high:
+            return f"{what} {value:{digits}} {accepted.unit} is outside the accepted range {accepted.text()}"
+    return None
 
 
 def _rows(text: str):
@@ -358,14 +368,9 @@ def read_metar(reports: list[str], near: datetime, ctx: Context, path: str, elev
         temperature = parsed.temp.value("C")
         dew_point = parsed.dewpt.value("C")
         pressure = parsed.press.value("HPA")
-        if not PRESSURE_RANGE[0] <= pressure <= PRESSURE_RANGE[1]:
-            ctx.at_path(sub, f"altimeter setting {pressure:.1f} hPa is outside the accepted range {PRESSURE_RANGE[0]:g}..{PRESSURE_RANGE[1]:g} hPa")
-            continue
-        if not TEMPERATURE_RANGE[0] <= temperature <= TEMPERATURE_RANGE[1]:
-            ctx.at_path(sub, f"temperature {temperature:g} degC is outside the accepted range {TEMPERATURE_RANGE[0]:g}..{TEMPERATURE_RANGE[1]:g} degC")
-            continue
-        if not DEW_POINT_RANGE[0] <= dew_point <= DEW_POINT_RANGE[1]:
-            ctx.at_path(sub, f"dew point {dew_point:g} degC is outside the accepted range {DEW_POINT_RANGE[0]:g}..{DEW_POINT_RANGE[1]:g} degC")
+        problem = _metar_range(pressure, temperature, dew_point)
+        if problem:
+            ctx.at_path(sub, problem)
             continue
         if dew_point > temperature + DEW_POINT_ROUNDING_TOLERANCE:
             ctx.at_path(sub, f"dew point {dew_point:g} degC is above the air temperature {temperature:g} degC "
