@@ -102,3 +102,44 @@ def test_committed_field_reference_is_current():
     from tuning.config.docs import field_reference
 
     assert (DOCS / "FORMATS.md").read_text() == field_reference()
+
+
+# The schema carries units and ranges, not only words (issue 11): an editor flags a value of the
+# wrong kind or out of range as the loader does.
+@pytest.mark.parametrize(
+    "where, value, valid",
+    [
+        (("reference", "elevation"), "150 degC", False),  # a temperature where a length is due
+        (("reference", "elevation"), "150 kg", False),
+        (("reference", "elevation"), 6000, False),  # above 5000 m (tuning.config.quantities.FILE_RANGES)
+        (("reference", "elevation"), "4400 ft", True),
+        (("reference", "elevation"), -500, True),
+        (("reference", "air_temperature"), "20 m", False),
+        (("reference", "air_temperature"), "68 degF", True),
+        (("reference", "qnh"), "29.92 inHg", True),
+        (("reference", "relative_humidity"), 101, False),
+        (("reference", "relative_humidity"), "50 %", True),
+    ],
+)
+def test_schema_knows_units_and_ranges(where, value, valid):
+    doc = yaml.safe_load((DEMO / "demo-fleet.yaml").read_text())
+    doc[where[0]][where[1]] = value
+    errors = list(jsonschema.Draft202012Validator(fleet_schema()).iter_errors(doc))
+    assert (not errors) == valid, errors
+
+
+def test_event_schema_refuses_a_site_elevation_in_degrees():
+    doc = yaml.safe_load((DEMO / "demo-event.yaml").read_text())
+    doc["site"]["elevation"] = "1650 degC"
+    assert list(jsonschema.Draft202012Validator(event_schema()).iter_errors(doc))
+
+
+def test_every_quantity_names_its_unit_and_bounds():
+    from tuning.config.quantities import FILE_RANGES
+
+    site = event_schema()["properties"]["site"]["properties"]["elevation"]
+    assert site["x-unit"] == "m"
+    number = next(form for form in site["anyOf"] if form["type"] == "number")
+    assert (number["minimum"], number["maximum"]) == (FILE_RANGES["elevation"].low, FILE_RANGES["elevation"].high)
+    reference = fleet_schema()["properties"]["reference"]["properties"]
+    assert reference["relative_humidity"]["x-unit"] == "%" and reference["air_temperature"]["x-unit"] == "degC"

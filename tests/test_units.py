@@ -70,3 +70,39 @@ def test_problems(value, default_unit, message):
         parse_quantity(value, default_unit)
     assert message in str(info.value)
     assert "\n" not in str(info.value)
+
+
+# Consistency checks (not validation): the JSON Schema's unit pattern lists only spellings the loader reads.
+DIMENSIONS = {"[length]": "m", "[temperature]": "degC", "[mass] / [length] / [time] ** 2": "hPa",
+              "[mass] / [length] ** 3": "kg/L", "[length] ** 3": "cc", "percent": "percent", "angle": "deg"}
+
+
+@pytest.mark.parametrize("dimension, default_unit", DIMENSIONS.items(), ids=list(DIMENSIONS.values()))
+def test_every_unit_the_schema_names_is_read(dimension, default_unit):
+    import re
+
+    from tuning.config.units import UNIT_SPELLINGS, schema_pattern
+
+    pattern = re.compile(schema_pattern(default_unit))
+    for spelling in UNIT_SPELLINGS[dimension]:
+        assert pattern.match(f"12.5 {spelling}"), spelling
+        assert math.isfinite(parse_quantity(f"12.5 {spelling}", default_unit)), spelling
+
+
+@pytest.mark.parametrize("value, default_unit", [("150 degC", "m"), ("20 m", "degC"), ("1013 kg", "hPa"), ("50 m", "percent")])
+def test_the_schema_pattern_refuses_another_kind_of_unit(value, default_unit):
+    import re
+
+    from tuning.config.units import schema_pattern
+
+    with pytest.raises(UnitProblem):
+        parse_quantity(value, default_unit)
+    assert not re.match(schema_pattern(default_unit), value)
+
+
+def test_percent_label_has_one_home():
+    from tuning.config.units import pint_unit, unit_label
+
+    assert unit_label("percent") == "%" and pint_unit("%") == "percent"
+    assert unit_label("hPa") == "hPa" and pint_unit("hPa") == "hPa"
+    assert parse_quantity("40 %", "percent") == parse_quantity("40 percent", "percent") == pytest.approx(0.40)

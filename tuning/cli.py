@@ -42,10 +42,6 @@ def _plain(display, value) -> str:
 
 
 # --- air -------------------------------------------------------------------------------
-_AIR_PRESSURE_OPTIONS = {"qnh": "--qnh", "station": "--station-pressure", "sea_level": "--sea-level-pressure"}
-_AIR_HUMIDITY_OPTIONS = {"relative_humidity": "--relative-humidity", "dew_point": "--dew-point"}
-
-
 def add_air_parser(sub) -> None:
     p = sub.add_parser(
         "air",
@@ -70,26 +66,33 @@ def add_air_parser(sub) -> None:
     p.set_defaults(func=cmd_air)
 
 
-def _air_option(args, dest, default_unit, low=None, high=None, shown_unit=None):
-    """Read one ``carbfleet air`` option in SI; ``None`` if absent; UserError if bad."""
-    from tuning.config.units import UnitProblem, parse_quantity
+def _air_option(args, dest, quantity=None):
+    """Read one ``carbfleet air`` option in SI; ``None`` if absent; UserError if bad.
+
+    ``quantity`` names its accepted range in ``tuning.config.quantities.AIR_COMMAND_RANGES``
+    (whose unit is also a bare number's).
+    """
+    from tuning.config.quantities import AIR_COMMAND_RANGES
+    from tuning.config.units import UnitProblem, parse_quantity, unit_label
     from tuning.errors import UserError
 
     text = getattr(args, dest)
     if text is None:
         return None
+    accepted = AIR_COMMAND_RANGES[quantity or dest]
+    default_unit = accepted.unit
     option = "--" + dest.replace("_", "-")
-    unit = {"percent": "%"}.get(default_unit, default_unit)
     try:
         value = parse_quantity(text.strip(), default_unit)
-        shown = parse_quantity(text.strip(), default_unit, shown_unit or default_unit)
+        shown = parse_quantity(text.strip(), default_unit, default_unit)
     except UnitProblem as problem:
         example = {"elevation": "1340 m", "temperature": "24 degC", "relative_humidity": "40 %", "dew_point": "10 degC"}
         told = any(words in str(problem) for words in ("give it in", "write it as", "such as"))
         hint = "" if told else f"; give a number and a unit, e.g. '{example.get(dest, '1016 hPa')}'"
         raise UserError(f"{option}: {problem}{hint}") from None
-    if low is not None and not low <= shown <= high:
-        raise UserError(f"{option}: expected {low:g} to {high:g} {unit}, got {text!r}; check the value and its unit")
+    if not accepted.low <= shown <= accepted.high:
+        raise UserError(f"{option}: expected {accepted.low:g} to {accepted.high:g} {unit_label(default_unit)}, got {text!r}; "
+                        "check the value and its unit")
     bare = text.strip().lstrip("+-").replace(".", "", 1).isdigit()  # a number without unit
     if dest == "relative_humidity" and 0.0 < shown < 1.0 and bare:
         print(f"carbfleet air: note: {option} {text.strip()} was read as {shown:g} %; "
@@ -102,8 +105,14 @@ def cmd_air(args) -> int:
     import warnings
 
     from tuning import air
+    from tuning.config.quantities import HUMIDITY_KEYS, PRESSURE_KEYS
     from tuning.constants import ISA_SEA_LEVEL_DENSITY_PRINTED, ZERO_CELSIUS
     from tuning.errors import UserError
+
+    # the options are the files' keys written as options (QNH named first, the usual case here)
+    pressure_options = {kind: "--" + key.replace("_", "-")
+                        for key, kind in sorted(PRESSURE_KEYS.items(), key=lambda item: item[0] != "qnh")}
+    humidity_options = {key: "--" + key.replace("_", "-") for key in HUMIDITY_KEYS}
 
     def exactly_one(options, what):
         given = [kind for kind, dest in options.items() if getattr(args, dest[2:].replace("-", "_")) is not None]
@@ -112,18 +121,17 @@ def cmd_air(args) -> int:
             raise UserError(f"give exactly one {what}: {' or '.join(options.values())} (got {got})")
         return given[0]
 
-    pressure_kind = exactly_one(_AIR_PRESSURE_OPTIONS, "pressure")
-    humidity_kind = exactly_one(_AIR_HUMIDITY_OPTIONS, "humidity")
-    elevation = _air_option(args, "elevation", "m", -500.0, 9000.0)
+    pressure_kind = exactly_one(pressure_options, "pressure")
+    humidity_kind = exactly_one(humidity_options, "humidity")
+    elevation = _air_option(args, "elevation")
     if elevation is None and pressure_kind != "station":
-        raise UserError(f"--elevation is needed with {_AIR_PRESSURE_OPTIONS[pressure_kind]} (e.g. --elevation '1340 m')")
-    temperature = _air_option(args, "temperature", "degC", -60.0, 60.0)
+        raise UserError(f"--elevation is needed with {pressure_options[pressure_kind]} (e.g. --elevation '1340 m')")
+    temperature = _air_option(args, "temperature", "air_temperature")
     if temperature is None:
         raise UserError("--temperature is needed (e.g. --temperature '24 degC')")
-    dest = _AIR_PRESSURE_OPTIONS[pressure_kind][2:].replace("-", "_")
-    pressure = _air_option(args, dest, "hPa", 300.0, 1100.0)
-    humidity = {"relative_humidity": _air_option(args, "relative_humidity", "percent", 0.0, 100.0),
-                "dew_point": _air_option(args, "dew_point", "degC", -90.0, 60.0)}
+    dest = pressure_options[pressure_kind][2:].replace("-", "_")
+    pressure = _air_option(args, dest, "pressure")
+    humidity = {"relative_humidity": _air_option(args, "relative_humidity"), "dew_point": _air_option(args, "dew_point")}
     if humidity_kind == "dew_point" and humidity["dew_point"] > temperature + air.DEW_POINT_ROUNDING_TOLERANCE:
         raise UserError(f"--dew-point: {args.dew_point!r} is above --temperature {args.temperature!r}; "
                         "a dew point cannot exceed the air temperature, check both values")
