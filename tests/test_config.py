@@ -450,3 +450,15 @@ def test_dew_point_above_air_temperature(demo):
     text = edit(demo / FLEET, "dew_point: 6 degC", "dew_point: 18 degC")
     p = find(problems(load_fleet, demo / FLEET), "bikes[8].reference.dew_point")
     assert "dew point above the air temperature" in p.message and p.line == line_of(text, "dew_point: 18")
+
+
+def test_pressure_keys_name_the_kinds_the_physics_knows():
+    # consistency check (not validation): the files' pressure keys (tuning.config.quantities) map onto
+    # tuning.air's pressure kinds and model.py's PressureKind, which the physics layer keeps on its own
+    from typing import get_args
+
+    from tuning import air
+    from tuning.config.model import PressureKind
+    from tuning.config.quantities import PRESSURE_KEYS, PRESSURE_NAMES
+
+    assert set(PRESSURE_KEYS.values()) == set(air.PRESSURE_KINDS) == set(get_args(PressureKind)) == set(PRESSURE_NAMES)
