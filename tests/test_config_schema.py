@@ -98,7 +98,7 @@ def test_schema_command(capsys, args, keys):
 
 
 def test_committed_field_reference_is_current():
-    # consistency check (not validation): fleet_configs/FORMATS.md is generated from the specs
+    # consistency check (not validation): fleet_configs/FORMATS.md is generated from the file models
     from tuning.config.docs import field_reference
 
     assert (DOCS / "FORMATS.md").read_text() == field_reference()

@@ -1,6 +1,6 @@
 """The fleet file: reference conditions, fuels, jet families, needles, models, bikes, stock.
 
-Every field is documented in its spec below (the same text goes into the JSON Schema, see
+Every field is documented in its model below (the same text goes into the JSON Schema, see
 ``carbfleet schema fleet``). Bare numbers take the unit named in each description.
 
 Defaults where the file is silent (each one is flagged on the resolved objects so the setup

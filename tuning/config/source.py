@@ -7,7 +7,7 @@ bytes are read whatever the file claims to be.
 Aliases (``*name``) are refused: they are never needed in a fleet or event file and their
 expansion can be made exponentially large. Nesting deeper than :data:`MAX_NESTING` and more
 than :data:`MAX_NODES` values are refused while the file is scanned, before any node is built.
-Duplicate keys are reported by the specs.
+Duplicate keys are reported by tuning.config.spec.plain.
 """
 
 from __future__ import annotations
