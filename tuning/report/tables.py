@@ -322,6 +322,29 @@ def sheet_rows(entries: list[dict], record: dict | None = None, work=None, conde
     """
     d = display
     first = entries[0]
+    sessions = _session_rows(entries, plan_sessions, d)
+    float_levels = [e["settings"].get("float_level_mm") for e in entries]
+    checks = _checks(entries, condense, d)
+    warning_rows = _warning_rows(entries, record, condense, d)
+    danger = [w for w in warning_rows if w["severity"] == "danger"]
+    form, back = _form_rows(entries, work, d)
+    return {
+        "bike": first["bike"], "model": first["model"], "notes": first.get("notes") or "",
+        "strokes": first["strokes"], "premix_ratio": first.get("premix_ratio"),
+        "density_exponent": d.number(first["density_exponent"], 2), "reference": first["reference"],
+        "sessions": sessions, "circuits": _circuit_rows(entries, d),
+        "power_out_of_range": not all(x["power_in_range"] for x in sessions),
+        "float_level": d.number(float_levels[0], 1, "mm") if float_levels[0] is not None else d._("not given"),
+        "rejet": _rejet_rows(entries, d), "checks": checks, "danger": danger, "notes_by_code": condense >= NOTES_BY_CODE_LEVEL,
+        "warnings": [w for w in warning_rows if w["severity"] != "danger"],
+        "form": form, "back_to_proven": back, "fields": FORM_FIELDS,
+        "band": first["mixture_curve"]["target_band_afr"],
+        "stock_kept": any(e["settings"][k].get("in_stock") is not None for e in entries for k in ("main_jet", "pilot_jet")),
+    }
+
+
+def _session_rows(entries, plan_sessions, d) -> list[dict]:
+    """Per session: its time, air, what to do and the verdicts (the sheet's session table)."""
     by_name = {x["name"]: x for x in plan_sessions}
     sessions = []
     for e in entries:
@@ -343,6 +366,12 @@ def sheet_rows(entries: list[dict], record: dict | None = None, work=None, conde
             "power_in_range": common.get("sae_j1349_within_range", True),
             "verdicts": verdicts(e, d),
         })
+    return sessions
+
+
+def _circuit_rows(entries, d) -> list[dict]:
+    """Per circuit: its label, the proven setting and a cell per session (the sheet's settings table)."""
+    first = entries[0]
     circuits = []
     for key, label in CIRCUITS:
         s0 = first["settings"][key]
@@ -368,7 +397,11 @@ def sheet_rows(entries: list[dict], record: dict | None = None, work=None, conde
                 "changed": _changed(key, s), "source": source, "to_order": to_order,
             })
         circuits.append({"key": key, "label": title, "detail": detail, "current": _circuit_value(key, s0, "current", unit=False), "cells": cells})
-    float_levels = [e["settings"].get("float_level_mm") for e in entries]
+    return circuits
+
+
+def _rejet_rows(entries, d) -> list[dict]:
+    """The change-again temperatures in words, one line for sessions in a row that say the same."""
     rejet = []
     for e in entries:
         r = e["rejet_temperatures_C"]
@@ -386,7 +419,12 @@ def sheet_rows(entries: list[dict], record: dict | None = None, work=None, conde
             rejet.append({"names": [e["session"]], "text": text})
     for r in rejet:
         r["session"] = d._("all sessions") if len(r["names"]) == len(entries) > 1 else ", ".join(r["names"])
-    checks = _checks(entries, condense, d)
+    return rejet
+
+
+def _warning_rows(entries, record, condense, d) -> list[dict]:
+    """The session warnings grouped over sessions and the bike's notices, the most severe first,
+    shortened as ``condense`` asks."""
     all_sessions = [e["session"] for e in entries]
     grouped = _grouped_warnings(entries, d)
     warning_rows = []
@@ -402,21 +440,7 @@ def sheet_rows(entries: list[dict], record: dict | None = None, work=None, conde
         warning_rows = [dict(w, message="") if w["severity"] == "note" else w for w in warning_rows]
     for w in warning_rows:
         w["severity_text"] = d._(w["severity"])
-    danger = [w for w in warning_rows if w["severity"] == "danger"]
-    form, back = _form_rows(entries, work, d)
-    return {
-        "bike": first["bike"], "model": first["model"], "notes": first.get("notes") or "",
-        "strokes": first["strokes"], "premix_ratio": first.get("premix_ratio"),
-        "density_exponent": d.number(first["density_exponent"], 2), "reference": first["reference"],
-        "sessions": sessions, "circuits": circuits,
-        "power_out_of_range": not all(x["power_in_range"] for x in sessions),
-        "float_level": d.number(float_levels[0], 1, "mm") if float_levels[0] is not None else d._("not given"),
-        "rejet": rejet, "checks": checks, "danger": danger, "notes_by_code": condense >= NOTES_BY_CODE_LEVEL,
-        "warnings": [w for w in warning_rows if w["severity"] != "danger"],
-        "form": form, "back_to_proven": back, "fields": FORM_FIELDS,
-        "band": first["mixture_curve"]["target_band_afr"],
-        "stock_kept": any(e["settings"][k].get("in_stock") is not None for e in entries for k in ("main_jet", "pilot_jet")),
-    }
+    return warning_rows
 
 
 def change_set(entries: list[dict]) -> tuple:
