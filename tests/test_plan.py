@@ -2,7 +2,7 @@
 
 * Air densities for the expected jets come from CoolProp (HAPropsSI, humid-air model of
   Herrmann, Kretzschmar and Gatley, ASHRAE RP-1485), not from tuning.air.
-* The metering law is written out here from DESIGN.md section 3, not taken from tuning.carb.
+* The metering law is written out here from DESIGN.md section 3, not taken from tuning.metering.
 * Directions of change are facts of the trade (common practice).
 """
 

@@ -2,9 +2,9 @@
 
 With the needle's geometry (straight diameter, taper, groove pitch), the needle jet's bore and
 a diameter-coded main jet, the delivered factor at an opening is the series area of the needle
-annulus and the main jet against the fitted pair (:func:`tuning.carb.needle_annulus_area`,
-:func:`tuning.carb.series_orifice_area`; slide lift = opening × bore). Without them each groove
-changes the annulus by :data:`tuning.carb.ASSUMED_GROOVE_AREA_STEP` (10 %, from memory), the
+annulus and the main jet against the fitted pair (:func:`tuning.circuits.needle_annulus_area`,
+:func:`tuning.circuits.series_orifice_area`; slide lift = opening × bore). Without them each groove
+changes the annulus by :data:`tuning.circuits.ASSUMED_GROOVE_AREA_STEP` (10 %, from memory), the
 annulus taken equal in area to the main jet, and the clip never moves leaner than fitted: an
 assumed effect is no ground for leaning an engine. A groove is safe when no opening of
 :data:`MID_RANGE_OPENINGS` in any hour is leaner than the lean guard; the policy picks among
@@ -17,7 +17,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from tuning import carb
+from tuning import circuits
 from tuning.errors import UserError
 from tuning.plan.policy import flat_sequence
 from tuning.plan.window import LEAN_GUARD
@@ -97,7 +97,7 @@ def plan_clip(fleet, rows, settings, main, penalty) -> ClipPlan:
 
 def _assumed_factor(main_delivered, current):
     """Needle-circuit factor for grooves without geometry: (R, G) grooves -> (R, G, O)."""
-    step = 1.0 + carb.ASSUMED_GROOVE_AREA_STEP
+    step = 1.0 + circuits.ASSUMED_GROOVE_AREA_STEP
 
     def factor(openings, groove):
         moves = groove - current[:, None]
@@ -123,9 +123,9 @@ def _geometry_factor(fleet, rows, settings, main, r, current):
 
     def factor(openings, groove):
         lift = np.asarray(openings)[None, None, :] * bore
-        a_new = carb.series_orifice_area(carb.needle_annulus_area(lift, nj, sd, ts, ta, gp, groove[:, :, None]),
+        a_new = circuits.series_orifice_area(circuits.needle_annulus_area(lift, nj, sd, ts, ta, gp, groove[:, :, None]),
                                          a_main_new[:, None, None])
-        a_now = carb.series_orifice_area(carb.needle_annulus_area(lift, nj, sd, ts, ta, gp, clip_now[:, None, None]),
+        a_now = circuits.series_orifice_area(circuits.needle_annulus_area(lift, nj, sd, ts, ta, gp, clip_now[:, None, None]),
                                          a_main_now[:, None, None])
         return a_new / a_now
 

@@ -13,7 +13,7 @@ from zoneinfo import ZoneInfo
 
 import numpy as np
 
-from tuning import __version__, air, carb, constants
+from tuning import __version__, air, circuits, constants, metering
 from tuning.gcpause import gc_paused
 from tuning.plan.clip import MODE_ASSUMED, MODE_NONE, THROTTLE
 from tuning.plan.hours import air_at, epoch
@@ -434,7 +434,7 @@ def _clip_dict(clip, r, st, found):
                       {"count": abs(d), "from": c_now, "to": c_new}, key="change")
     if clip.mode[r] == MODE_ASSUMED:
         found.append(warning("assumed-needle-geometry",
-                             params={"groove_area_step": int(carb.ASSUMED_GROOVE_AREA_STEP * 100)}))
+                             params={"groove_area_step": int(circuits.ASSUMED_GROOVE_AREA_STEP * 100)}))
     return {"needle": st.needle, "current": c_now, "recommended": c_new, "steps": d, "direction": direction,
             **change, "assumed_geometry": bool(clip.mode[r] == MODE_ASSUMED), "grooves": int(clip.grooves[r])}
 
@@ -469,7 +469,7 @@ def _lean_check(curves, r, found, idle, clip, s_count):
     first = r - r % s_count
     lean = curves["leanest_by_throttle"][first:first + s_count].max(axis=0)  # (T,) over the bike's sessions
     bad = lean > LEAN_GUARD + 1e-9
-    weights = carb.circuit_weights(THROTTLE[bad])  # which circuit meters most there
+    weights = circuits.circuit_weights(THROTTLE[bad])  # which circuit meters most there
     circuit = int(np.argmax(weights.sum(axis=0)))
     if circuit == 0:
         cure = "cure/pilot-beyond-plan" if idle.unsafe[r] else "cure/idle-circuit"
@@ -586,8 +586,8 @@ def _weather_rows(event, hours, refs, zone):
     with pywarnings.catch_warnings():  # the same air as the session hours: warned there already
         pywarnings.simplefilter("ignore", air.OutOfRangeWarning)
         w_air = air_at(event.weather, event.site.elevation, wt[idx], str(event.source or event.name))
-    w_factor = carb.area_factor(w_air.dry_air_density, refs.dry[refs.fleet], w_air.moist_air_density,
-                                refs.moist[refs.fleet], density_exponent=0.5)
+    w_factor = metering.area_factor(w_air.dry_air_density, refs.dry[refs.fleet], w_air.moist_air_density,
+                                    refs.moist[refs.fleet], density_exponent=constants.METERING_LAW_EXPONENT)
     fields = _air_fields(w_air)
     fac, cf = rounded(w_factor, 4), rounded(w_air.sae_j1349_cf, 4)
     icing = np.asarray(w_air.icing_risk).astype(int).tolist()

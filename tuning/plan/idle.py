@@ -5,7 +5,7 @@ one, and screw positions in quarter turns inside the inner part of the screw's u
 (:data:`SCREW_INNER_SHARE`, the middle half by default), plus the fitted position. The screw is
 trimmed before the pilot is changed because the penalties follow the work (a screw turn takes
 minutes, a pilot jet the float bowl off); a screw move is none or at least half a turn. The
-screw's effect is :data:`tuning.carb.ASSUMED_SCREW_EFFECT_PER_TURN` (10 % of idle fuel per
+screw's effect is :data:`tuning.circuits.ASSUMED_SCREW_EFFECT_PER_TURN` (10 % of idle fuel per
 turn, from memory); an air screw turned out leans, a fuel screw turned out richens.
 """
 
@@ -15,7 +15,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from tuning import carb
+from tuning import circuits, metering
 from tuning.plan.jets import JetPlan, jet_factor, jet_ideals
 from tuning.plan.policy import idle_sequence
 from tuning.plan.window import LEAN_GUARD
@@ -81,8 +81,8 @@ def plan_idle(fleet, rows, settings, penalties) -> IdlePlan:
         cand_size = sizes[np.clip(cand, 0, len(sizes) - 1)]
         positions = _screw_positions([settings[i].mixture_screw for i in first])  # (b, Q)
         kinds = np.array([settings[i].mixture_screw.kind for i in first])
-        pilot_factor = carb.area_factor_between_jets(pilot.current[first][:, None], cand_size, fam.coding)  # (b, P)
-        screw_factor = carb.mixture_screw_area_factor(positions - screw_now[first][:, None], kinds[:, None])  # (b, Q)
+        pilot_factor = metering.area_factor_between_jets(pilot.current[first][:, None], cand_size, fam.coding)  # (b, P)
+        screw_factor = circuits.mixture_screw_area_factor(positions - screw_now[first][:, None], kinds[:, None])  # (b, Q)
         delivered = pilot_factor[:, :, None] * screw_factor[:, None, :]  # (b, P, Q)
         ok = exists[:, :, None] & np.isfinite(positions)[:, None, :]
         safe_value = np.where(ok, delivered, 1.0)

@@ -16,7 +16,7 @@ import warnings
 
 import numpy as np
 
-from tuning import air, carb
+from tuning import air, metering
 from tuning.constants import ZERO_CELSIUS
 from tuning.plan.document import jet_number
 from tuning.plan.window import LEAN_GUARD
@@ -84,9 +84,9 @@ def rejet_thresholds(fleet, rows, hours, refs, meter, main):
 
     def factor(shift):
         state = air.air_state(t0 + shift, p, relative_humidity=rh)
-        return carb.area_factor(state.dry_air_density, refs.dry[ref], state.moist_air_density, refs.moist[ref],
-                                meter.rho_event[bike], meter.rho_reference[bike], meter.afr_event[bike],
-                                meter.afr_reference[bike], meter.exponent[bike])
+        return metering.area_factor(state.dry_air_density, refs.dry[ref], state.moist_air_density, refs.moist[ref],
+                                    meter.rho_event[bike], meter.rho_reference[bike], meter.afr_event[bike],
+                                    meter.afr_reference[bike], meter.exponent[bike])
 
     # colder: the fitted size reaches the lean guard (it must change); warmer: the next smaller
     # size becomes the better one, where the lean-weighted deviations of the two sizes are equal,
