@@ -10,9 +10,7 @@ import pytest
 from babel.messages.frontend import CommandLineInterface
 from babel.messages.pofile import read_po
 
-from tuning import air
 from tuning.display import HPA_PER_INHG, M_PER_FT, Display
-from tuning.plan.notices import SEVERITIES
 from tuning.report import render, tables
 
 ROOT = Path(__file__).resolve().parents[1]
@@ -65,11 +63,6 @@ def test_unknown_units_or_language_say_so_in_one_line():
         Display("imperial")
     with pytest.raises(UserError, match="language: expected one of en, de"):
         Display("metric", "fr")
-
-
-def test_marked_words_match_their_sources():
-    assert tables.ICING_WORDS == air.ICING_RISK_NAMES
-    assert tables.SEVERITY_WORDS == SEVERITIES
 
 
 def test_every_marked_text_has_a_german_translation(tmp_path):

@@ -5,9 +5,8 @@ from __future__ import annotations
 import datetime as dt
 from collections import OrderedDict
 
-from tuning.air import ICING_RISK_NAMES
 from tuning.display import METRIC_EN, N_, Display
-from tuning.plan.notices import CODES, SEVERITIES, say_item, severity_rank
+from tuning.plan.notices import CODES, ICING_RISK_NAMES, SEVERITIES, say_item, severity_rank
 
 CIRCUITS = (
     ("main_jet", N_("Main jet")),
@@ -20,10 +19,6 @@ _MONTHS = (N_("Jan"), N_("Feb"), N_("Mar"), N_("Apr"), N_("May"), N_("Jun"), N_(
            N_("Oct"), N_("Nov"), N_("Dec"))
 _QUARTERS = {0: "", 1: "¼", 2: "½", 3: "¾"}
 
-#: The words of :data:`tuning.air.ICING_RISK_NAMES` and :data:`tuning.plan.notices.SEVERITIES`,
-#: marked for the message catalogue (a test keeps them equal to their sources).
-ICING_WORDS = (N_("none"), N_("light"), N_("moderate"), N_("serious"))
-SEVERITY_WORDS = (N_("danger"), N_("action"), N_("note"))
 
 #: What the sheets, the summary and ``carbfleet plan`` say where a fleet keeps no stock list.
 NO_STOCK_LIST = N_("no stock list kept")
