@@ -44,7 +44,6 @@ __all__ = [
 ]
 
 FORMAT = document.FORMAT
-WARNING_CODES = tuple(CODES)
 
 
 def make_plan(fleet, event, *, policy_name: str | None = None, change_threshold: float | None = None) -> dict:
