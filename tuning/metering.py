@@ -12,7 +12,10 @@ import numpy as np
 
 from tuning import constants as c
 
-__all__ = ["area_factor", "jet_number_for_area_factor", "area_factor_between_jets"]
+__all__ = ["area_factor", "jet_number_for_area_factor", "area_factor_between_jets", "DIAMETER_CODE_STEP"]
+
+#: What one unit of a diameter-coded jet number is: its bore in 0.01 mm [m] (common practice).
+DIAMETER_CODE_STEP = 1e-5
 
 
 def area_factor(

@@ -17,10 +17,10 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from tuning import circuits
+from tuning import circuits, metering
 from tuning.errors import UserError
 from tuning.plan.policy import flat_sequence
-from tuning.plan.window import LEAN_GUARD
+from tuning.plan.window import GUARD_ROUND_OFF, LEAN_GUARD
 
 __all__ = ["MID_RANGE_OPENINGS", "THROTTLE", "CLIP_LEAN_LIMIT", "ClipPlan", "plan_clip"]
 
@@ -82,7 +82,7 @@ def plan_clip(fleet, rows, settings, main, penalty) -> ClipPlan:
         allowed = numbers[None, :] <= grooves[r][:, None]
         if which == MODE_ASSUMED:
             allowed &= numbers[None, :] >= current[r][:, None]  # never leaner on an assumed effect
-        cost = np.where(allowed & (leanest <= LEAN_GUARD + 1e-12), cost, np.inf)
+        cost = np.where(allowed & (leanest <= LEAN_GUARD + GUARD_ROUND_OFF), cost, np.inf)
         b = len(r) // s_count
         start = current[r].reshape(b, s_count)[:, 0] - 1
         choice, bad = flat_sequence(cost.reshape(b, s_count, g_max), start, penalty)
@@ -117,8 +117,8 @@ def _geometry_factor(fleet, rows, settings, main, r, current):
     ts = np.array([x.taper_start for x in needles])[:, None, None]
     ta = np.array([x.taper_angle for x in needles])[:, None, None]
     gp = np.array([x.groove_pitch for x in needles])[:, None, None]
-    a_main_now = np.pi / 4.0 * (main.current[r] * 1e-5) ** 2
-    a_main_new = np.pi / 4.0 * (main.recommended[r] * 1e-5) ** 2
+    a_main_now = np.pi / 4.0 * (main.current[r] * metering.DIAMETER_CODE_STEP) ** 2
+    a_main_new = np.pi / 4.0 * (main.recommended[r] * metering.DIAMETER_CODE_STEP) ** 2
     clip_now = current[r]
 
     def factor(openings, groove):

@@ -18,7 +18,7 @@ from tuning.gcpause import gc_paused
 from tuning.plan.clip import MODE_ASSUMED, MODE_NONE, THROTTLE
 from tuning.plan.hours import air_at, epoch
 from tuning.plan.notices import BIKE_CODES, printed, said, severity_rank, warning
-from tuning.plan.policy import WORK_MINUTES
+from tuning.plan.policy import TURNS_NOISE, WORK_MINUTES
 from tuning.plan.pool import KINDS
 from tuning.plan.window import LEAN_GUARD
 
@@ -35,6 +35,8 @@ HOT_FUEL_K = constants.ZERO_CELSIUS + 30.0  #: above this: hot-fuel warning (fro
 #: are drawn from memory after light-aircraft charts, whose carburetors sit far from engine heat;
 #: a motorcycle carburetor beside a warm engine ices less, so light and moderate are no warning.
 ICING_WARN_LEVEL = 3
+#: Float round-off ignored before the predicted mixture counts as leaner than the lean guard [1].
+LEAN_NOTICE_ROUND_OFF = 1e-9
 
 HOT_FUEL_C = int(round(HOT_FUEL_K - constants.ZERO_CELSIUS))  #: the same threshold as said in the words [°C]
 
@@ -442,7 +444,7 @@ def _clip_dict(clip, r, st, found):
 def _screw_dict(idle, r, st, found):
     ms = st.mixture_screw
     ch = float(idle.screw_new[r] - idle.screw_now[r])
-    if abs(ch) < 1e-9:
+    if abs(ch) < TURNS_NOISE:
         s_dir, s_change = "no change", said("setting/no-change", key="change")
     else:
         richer = (ch > 0) == (ms.kind == "fuel")
@@ -464,11 +466,11 @@ def _lean_check(curves, r, found, idle, clip, s_count):
     """``predicted-lean`` where the predicted mixture at some opening and hour leaves the band's lean edge,
     naming the throttle range and the cure (in the same words in every lean session of the bike:
     the worst over its sessions)."""
-    if not curves["leanest_by_throttle"][r].max() > LEAN_GUARD + 1e-9:
+    if not curves["leanest_by_throttle"][r].max() > LEAN_GUARD + LEAN_NOTICE_ROUND_OFF:
         return
     first = r - r % s_count
     lean = curves["leanest_by_throttle"][first:first + s_count].max(axis=0)  # (T,) over the bike's sessions
-    bad = lean > LEAN_GUARD + 1e-9
+    bad = lean > LEAN_GUARD + LEAN_NOTICE_ROUND_OFF
     weights = circuits.circuit_weights(THROTTLE[bad])  # which circuit meters most there
     circuit = int(np.argmax(weights.sum(axis=0)))
     if circuit == 0:
@@ -540,7 +542,7 @@ def _work_orders(fleet, rows, main, idle, clip, allocation, sessions, bike_ids):
                 new = proven[part][b] if t == s_count else planned[part][b, t]
                 if part == "clip" and (old < 0 or new < 0):
                     continue
-                if abs(float(new) - float(old)) < 1e-9:
+                if abs(float(new) - float(old)) < TURNS_NOISE:  # jet numbers, grooves, turns
                     continue
                 changes.append(_change(part, old, new, jet_moves.get((b, part)), screw_kind[b]))
             if changes:

@@ -15,7 +15,7 @@ import numpy as np
 from tuning import metering
 from tuning.errors import UserError
 from tuning.plan.policy import flat_sequence
-from tuning.plan.window import LEAN_GUARD
+from tuning.plan.window import GUARD_ROUND_OFF, LEAN_GUARD
 
 __all__ = ["JetPlan", "family_of", "jet_factor", "jet_ideals", "nearest_index", "plan_main"]
 
@@ -115,7 +115,7 @@ def plan_main(fleet, rows, settings, penalty) -> JetPlan:
         sizes = np.asarray(fam.sizes, float)
         delivered = metering.area_factor_between_jets(plan.current[r][:, None], sizes[None, :], fam.coding)  # (R, K)
         cost = rows.window.rms(delivered, r)
-        cost = np.where(rows.window.leanest(delivered, r) <= LEAN_GUARD + 1e-12, cost, np.inf)
+        cost = np.where(rows.window.leanest(delivered, r) <= LEAN_GUARD + GUARD_ROUND_OFF, cost, np.inf)
         b = len(r) // s_count
         start = plan.index[r].reshape(b, s_count)[:, 0]
         start = np.where(sizes[start] == plan.current[r].reshape(b, s_count)[:, 0], start, -1)  # fitted not a size
