@@ -14,23 +14,6 @@ from tuning.display import HPA_PER_INHG, M_PER_FT, Display
 from tuning.report import render, tables
 
 ROOT = Path(__file__).resolve().parents[1]
-
-
-@pytest.fixture(scope="module")
-def demo_plan(tmp_path_factory):
-    """The plan of the shipped demo scenario (a copy in a fresh folder)."""
-    import warnings
-
-    import scenarios
-
-    from tuning.config import load_event, load_fleet
-    from tuning.plan import make_plan
-
-    fleet_path, event_path = scenarios.uphill(tmp_path_factory.mktemp("demo"))
-    with warnings.catch_warnings():
-        warnings.simplefilter("ignore")  # the air outside a formula's range: warned by the plan
-        fleet = load_fleet(fleet_path)
-        return make_plan(fleet, load_event(event_path, fleet))
 CATALOGUE = ROOT / "tuning" / "locale" / "de" / "LC_MESSAGES" / "carbfleet.po"
 
 

@@ -442,3 +442,12 @@ def test_power_against_the_j1349_standard_is_one_base_for_every_bike():
     assert got["sae_j1349_within_range"] is False
     assert got["power_vs_sae_j1349_pct"] < 90.0
 
+
+
+def test_a_plan_of_no_bikes_or_no_sessions_is_refused_in_one_place():
+    # the loaders refuse an empty fleet or event (at least one bike, one session); make_plan says
+    # so once instead of every stage guarding against empty arrays
+    with pytest.raises(ValueError, match="at least one bike and one session"):
+        plan.make_plan(pf.fleet(bikes=()), pf.event())
+    with pytest.raises(ValueError, match="at least one bike and one session"):
+        plan.make_plan(pf.fleet(), replace(pf.event(), sessions=()))

@@ -54,7 +54,7 @@ def plan_clip(fleet, rows, settings, main, penalty) -> ClipPlan:
     grooves = np.zeros(n, np.int64)
     unsafe = np.zeros(n, bool)
     main_delivered = main.delivered
-    curve = np.repeat(np.sqrt(main_delivered)[:, None], len(THROTTLE), axis=1) if n else np.ones((0, len(THROTTLE)))
+    curve = np.repeat(np.sqrt(main_delivered)[:, None], len(THROTTLE), axis=1)
     for r, s in enumerate(settings):
         if s.needle is None or s.clip is None:
             continue

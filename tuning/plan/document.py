@@ -177,12 +177,12 @@ class _Columns:
 def _columns(fleet, event, rows, hours, refs, main, idle, curves, allocation) -> _Columns:
     zone = ZoneInfo(event.site.time_zone)
     sessions = list(event.sessions)
-    n, s_count = len(rows.bike), rows.n_sessions
+    s_count = rows.n_sessions
     reference_afr = float(fleet.reference_afr)
     ref_dicts = [_reference_dict(c, s) for c, s in zip(refs.conditions, refs.states)]
     session_dicts = [{"name": s.name, "start": _iso(epoch(s.start), zone), "end": _iso(epoch(s.end), zone)} for s in sessions]
     hour_iso = [_iso(t, zone) for t in hours.times]
-    hour_air = _air_fields(hours.air) if s_count else {}
+    hour_air = _air_fields(hours.air)
     hour_base = [{"time": hour_iso[i], **{k: hour_air[k][i] for k in (
         "air_temperature_C", "station_pressure_hPa", "relative_humidity_pct", "moist_air_density_kg_m3",
         "dry_air_density_kg_m3", "density_altitude_m")}} for i in range(len(hours.times))]
@@ -196,15 +196,15 @@ def _columns(fleet, event, rows, hours, refs, main, idle, curves, allocation) ->
         settings=[fleet.bikes[b].settings for b in rows.bike], bike_ids=[b.id for b in fleet.bikes],
         hour_iso=hour_iso, hour_base=hour_base,
         required=np.round(rows.required, 4),
-        f_min=rounded(np.nanmin(rows.required, axis=1), 4) if n else [],
-        f_mean=rounded(np.nanmean(rows.required, axis=1), 4) if n else [],
-        f_max=rounded(np.nanmax(rows.required, axis=1), 4) if n else [],
-        power=rounded(curves["power"], 1) if n else [],
+        f_min=rounded(np.nanmin(rows.required, axis=1), 4),
+        f_mean=rounded(np.nanmean(rows.required, axis=1), 4),
+        f_max=rounded(np.nanmax(rows.required, axis=1), 4),
+        power=rounded(curves["power"], 1),
         current_afr=np.round(curves["current_afr"], 2).tolist(),
         recommended_afr=np.round(curves["recommended_afr"], 2).tolist(),
         reference_afr=reference_afr,
         band=[round(reference_afr * TARGET_BAND[0], 2), round(reference_afr * TARGET_BAND[1], 2)],
-        sources=_sources(allocation, rows, fleet),
+        sources=_sources(allocation, rows),
         main_cols=_jet_columns(main, main_steps, rows), pilot_cols=_jet_columns(pilot, pilot_steps, rows),
         has_stock=bool(fleet.stock),
     )
@@ -307,8 +307,6 @@ def _bikes(fleet, bike_notices, in_danger) -> list:
 
 def _session_stats(hours, s_count):
     out = []
-    if not s_count:
-        return out
     t_all = np.asarray(hours.air.air_temperature, float)
     icing = np.asarray(hours.air.icing_risk)
     for s in range(s_count):
@@ -340,7 +338,7 @@ def _j1349_power(state, sl) -> dict:
     return {"power_vs_sae_j1349_pct": rounded(100.0 * np.mean(1.0 / cf), 1), "sae_j1349_within_range": within}
 
 
-def _sources(allocation, rows, fleet):
+def _sources(allocation, rows):
     """(kind, row) -> (put in now, the jet's provenance): the move that puts the session's jet in
     before it (None where the jet of the session before, or the proven one, stays) and the move that
     last put in the jet the bike wears (None: the proven jet)."""
@@ -513,8 +511,6 @@ def _work_orders(fleet, rows, main, idle, clip, allocation, sessions, bike_ids):
     """Per transition, the changes of every bike with the time they take."""
     moves_by_t, _ordered = allocation
     s_count = rows.n_sessions
-    if not s_count:
-        return []
     b_count = rows.n_bikes
     shape = (b_count, s_count)
     proven = {
@@ -579,8 +575,6 @@ def _change(part, old, new, move, screw_kind):
 
 def _weather_rows(event, hours, refs, zone):
     """The forecast rows spanning the sessions, with the air-only area factor against the fleet's reference."""
-    if not len(hours.times):
-        return []
     wt = np.asarray(event.weather.time).astype("datetime64[s]").astype(np.int64)
     first = np.searchsorted(wt, hours.times.min(), side="right") - 1
     last = np.searchsorted(wt, hours.times.max(), side="left")

@@ -39,8 +39,6 @@ def rejet_thresholds(fleet, rows, hours, refs, meter, main):
     """
     n = len(rows.bike)
     out = {k: [None] * n for k in ("below", "below_jet", "above", "above_jet")}
-    if n == 0:
-        return out
     group, run = _run_groups(rows, hours, main)
     sizes_up, sizes_dn = _neighbour_sizes(fleet, main, run["first_row"])
     colder, warmer = _shifts(rows, hours, refs, meter, main, run, sizes_dn)

@@ -11,7 +11,7 @@ from __future__ import annotations
 
 import numpy as np
 
-__all__ = ["LEAN_GUARD", "GUARD_ROUND_OFF", "LEAN_WEIGHT", "RICH_WEIGHT", "WindowLoss", "argmin_richer", "lean_loss"]
+__all__ = ["LEAN_GUARD", "GUARD_ROUND_OFF", "LEAN_WEIGHT", "RICH_WEIGHT", "WindowLoss", "lean_loss"]
 
 #: The lean guard: no recommendation may leave any hour, opening or circuit leaner than the
 #: proven mixture by more than this fraction (our choice, err rich: the lean edge of the target
@@ -104,9 +104,3 @@ class WindowLoss:
         delivered = np.asarray(delivered, float)
         largest = self.largest[idx].reshape((len(idx),) + (1,) * (delivered.ndim - 1))
         return largest / delivered - 1.0
-
-
-def argmin_richer(loss):
-    """Index of the minimum along the last axis; exact ties go to the last (richer) index."""
-    k = loss.shape[-1]
-    return k - 1 - np.argmin(loss[..., ::-1], axis=-1)
