@@ -124,13 +124,19 @@ def test_bike_ids_are_escaped_in_every_page(built):
 def test_index_links_every_sheet(built):
     out, _ = built
     index = (out / "index.html").read_text(encoding="utf-8")
-    for href in re.findall(r'href="([^"]+)"', index):
+    hrefs = re.findall(r'href="([^"]+)"', index)
+    for href in hrefs:
         assert (out / href).exists(), href
+    sheets = sorted(f"sheets/{p.name}" for p in (out / "sheets").iterdir())
+    assert len(sheets) == 2 * len(BIKES)  # an HTML and a PDF sheet per bike
+    assert set(sheets) <= set(hrefs)
 
 
 def test_executed_notebooks_carry_no_run_specific_data(built):
     out, _ = built
-    for path in (out / "notebooks").glob("*.ipynb"):
+    notebooks = list((out / "notebooks").glob("*.ipynb"))
+    assert notebooks
+    for path in notebooks:
         nb = json.loads(path.read_text(encoding="utf-8"))
         assert "papermill" not in nb["metadata"]
         for cell in nb["cells"]:

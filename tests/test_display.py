@@ -10,29 +10,10 @@ import pytest
 from babel.messages.frontend import CommandLineInterface
 from babel.messages.pofile import read_po
 
-from tuning import air
 from tuning.display import HPA_PER_INHG, M_PER_FT, Display
-from tuning.plan.notices import SEVERITIES
 from tuning.report import render, tables
 
 ROOT = Path(__file__).resolve().parents[1]
-
-
-@pytest.fixture(scope="module")
-def demo_plan(tmp_path_factory):
-    """The plan of the shipped demo scenario (a copy in a fresh folder)."""
-    import warnings
-
-    import scenarios
-
-    from tuning.config import load_event, load_fleet
-    from tuning.plan import make_plan
-
-    fleet_path, event_path = scenarios.uphill(tmp_path_factory.mktemp("demo"))
-    with warnings.catch_warnings():
-        warnings.simplefilter("ignore")  # the air outside a formula's range: warned by the plan
-        fleet = load_fleet(fleet_path)
-        return make_plan(fleet, load_event(event_path, fleet))
 CATALOGUE = ROOT / "tuning" / "locale" / "de" / "LC_MESSAGES" / "carbfleet.po"
 
 
@@ -65,11 +46,6 @@ def test_unknown_units_or_language_say_so_in_one_line():
         Display("imperial")
     with pytest.raises(UserError, match="language: expected one of en, de"):
         Display("metric", "fr")
-
-
-def test_marked_words_match_their_sources():
-    assert tables.ICING_WORDS == air.ICING_RISK_NAMES
-    assert tables.SEVERITY_WORDS == SEVERITIES
 
 
 def test_every_marked_text_has_a_german_translation(tmp_path):

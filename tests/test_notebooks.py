@@ -14,6 +14,7 @@ import nbformat
 import pypdf
 import pytest
 
+from tuning import resources
 from tuning.cli import main
 from tuning.report import pipeline
 from tuning.report.names import safe_file_names
@@ -25,7 +26,7 @@ DEMO_EVENT = ROOT / "tuning" / "demo" / "demo-event.yaml"
 
 
 def test_the_two_notebooks_exist():
-    assert {p.name for p in NOTEBOOKS} == {"fleet-report.ipynb", "setup-sheets.ipynb"}
+    assert {p.name for p in NOTEBOOKS} == set(resources.NOTEBOOK_NAMES)  # the package data the build names
 
 
 @pytest.mark.parametrize("path", NOTEBOOKS, ids=lambda p: p.name)
@@ -52,16 +53,6 @@ def test_notebook_is_thin(path):
                                          ast.ListComp, ast.BinOp)), ast.dump(node)
             if isinstance(node, (ast.Import, ast.ImportFrom)):
                 assert getattr(node, "module", None) in ("tuning", "tuning.report")
-
-
-@pytest.fixture(scope="module")
-def demo_plan():
-    pytest.importorskip("tuning.plan")
-    from tuning.config import load_event, load_fleet
-    from tuning.plan import make_plan
-
-    fleet = load_fleet(DEMO_FLEET)
-    return make_plan(fleet, load_event(DEMO_EVENT, fleet))
 
 
 def test_setup_sheet_notebook_plans_from_the_files_in_kernel(demo_plan, tmp_path):

@@ -230,3 +230,28 @@ def test_remembered_document_words_keep_apart_values_that_compare_equal():
     assert "(1..3 turns)" in say("screw-out-of-range", {"screw": "air", "usable_low_turns": 1, "usable_high_turns": 3})
     assert "(1.0..3.0 turns)" in say("screw-out-of-range", {"screw": "air", "usable_low_turns": 1.0,
                                                            "usable_high_turns": 3.0})
+
+
+def _enums(node, key, found):
+    """Every ``enum`` under a property named ``key`` anywhere in the schema ``node``."""
+    if isinstance(node, dict):
+        if key in node.get("properties", {}) and "enum" in node["properties"][key]:
+            found.append(node["properties"][key]["enum"])
+        for value in node.values():
+            _enums(value, key, found)
+    elif isinstance(node, list):
+        for value in node:
+            _enums(value, key, found)
+    return found
+
+
+def test_the_schema_lists_the_codes_severities_and_icing_bands_of_notices():
+    """Consistency, not validation: the published schema writes the vocabulary out (JSON readers
+    cannot import it); it must say what tuning.plan.notices, its one home, says."""
+    schema = json.loads((Path(notices.__file__).parents[1] / "schemas" / "recommendations.schema.json").read_text())
+    codes, severities = _enums(schema, "code", []), _enums(schema, "severity", [])
+    assert len(codes) == 2 and len(severities) == 2  # entries' warnings and bikes' notices
+    assert all(c == list(notices.CODES) for c in codes)
+    assert all(s == list(notices.SEVERITIES) for s in severities)
+    weather_row = schema["properties"]["weather"]["items"]["properties"]["icing_risk"]
+    assert (weather_row["minimum"], weather_row["maximum"]) == (0, len(notices.ICING_RISK_NAMES) - 1)

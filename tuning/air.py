@@ -47,7 +47,6 @@ __all__ = [
     "dry_air_partial_density",
     "sae_j1349_correction_factor",
     "carburetor_icing_risk",
-    "ICING_RISK_NAMES",
     "AirState",
     "air_state",
 ]
@@ -64,9 +63,6 @@ DENSITY_TEMPERATURE_RANGE = (c.ZERO_CELSIUS - 40.0, c.ZERO_CELSIUS + 50.0)
 DENSITY_PRESSURE_RANGE = (60_000.0, 110_000.0)
 #: How far a dew point may lie above the air temperature and still count as rounding [K].
 DEW_POINT_ROUNDING_TOLERANCE = 0.5
-
-#: Names of the carburetor icing-risk bands (index = band).
-ICING_RISK_NAMES = ("none", "light", "moderate", "serious")
 
 
 class OutOfRangeWarning(UserWarning):
@@ -839,7 +835,7 @@ def carburetor_icing_risk(air_temperature, dew_point):
     Returns
     -------
     numpy.ndarray of int
-        0 none, 1 light, 2 moderate, 3 serious (names in :data:`ICING_RISK_NAMES`).
+        0 none, 1 light, 2 moderate, 3 serious.
 
     Notes
     -----
@@ -882,7 +878,7 @@ class AirState:
     pressure_altitude: np.ndarray  # [m, geopotential]
     density_altitude: np.ndarray  # [m, geopotential], from the moist-air density
     sae_j1349_cf: np.ndarray  # [1]
-    icing_risk: np.ndarray  # int, 0..3, see ICING_RISK_NAMES
+    icing_risk: np.ndarray  # int, 0..3: none, light, moderate, serious
 
 
 def air_state(air_temperature, station_pressure, *, relative_humidity=None, dew_point=None):

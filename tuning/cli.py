@@ -108,6 +108,7 @@ def cmd_air(args) -> int:
     from tuning.config.quantities import HUMIDITY_KEYS, PRESSURE_KEYS
     from tuning.constants import ISA_SEA_LEVEL_DENSITY_PRINTED, ZERO_CELSIUS
     from tuning.errors import UserError
+    from tuning.plan.notices import ICING_RISK_NAMES
 
     # the options are the files' keys written as options (QNH named first, the usual case here)
     pressure_options = {kind: "--" + key.replace("_", "-")
@@ -158,7 +159,7 @@ def cmd_air(args) -> int:
         "density_altitude_m": round(float(state.density_altitude), 1),
         "sae_j1349_cf": round(float(state.sae_j1349_cf), 4),
         "icing_risk_band": int(state.icing_risk),
-        "icing_risk": air.ICING_RISK_NAMES[int(state.icing_risk)],
+        "icing_risk": ICING_RISK_NAMES[int(state.icing_risk)],
         "warnings": [str(w.message) for w in caught if issubclass(w.category, air.OutOfRangeWarning)],
     }
     if args.json:
@@ -170,9 +171,9 @@ def cmd_air(args) -> int:
     return EXIT_OK
 
 
-# Words the table shows that come from elsewhere, marked here for the message catalogue:
-# the pressure kinds and tuning.air.ICING_RISK_NAMES.
-_AIR_WORDS = (N_("qnh"), N_("station"), N_("sea level"), N_("none"), N_("light"), N_("moderate"), N_("serious"))
+# Words the table shows that come from elsewhere, marked here for the message catalogue: the
+# pressure kinds (the icing-risk names are marked where they live, tuning.plan.notices).
+_AIR_WORDS = (N_("qnh"), N_("station"), N_("sea level"))
 
 
 def _air_table(result: dict, display=None) -> str:

@@ -153,3 +153,8 @@ ISOOCTANE_FORMULA = (8.0, 18.0, 0.0)
 PREMIX_OIL_DENSITY = 870.0
 #: A performance mixture for dirt bikes, air–fuel mass ratio [1] (about 12:1, common practice).
 DEFAULT_REFERENCE_AFR = 12.0
+#: Exponent on the air-density ratio in the metering law of the elementary carburetor [1]: fuel
+#: flow through a jet goes as the square root of the venturi depression (Heywood, *Internal
+#: Combustion Engine Fundamentals*, 1988, section 7.2, eqs. 7.5–7.10). The default where a fleet
+#: gives no ``density_exponent``.
+METERING_LAW_EXPONENT = 0.5

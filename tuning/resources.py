@@ -9,12 +9,15 @@ from __future__ import annotations
 from importlib import resources
 from pathlib import Path
 
-__all__ = ["notebook", "demo_file", "DEMO_FILES", "NOTEBOOK_NAMES"]
+__all__ = ["notebook", "demo_file", "DEMO_FILES", "FLEET_REPORT", "SETUP_SHEETS", "NOTEBOOK_NAMES"]
 
 #: The demo scenario's files (an invented fleet, site and weather), in ``tuning/demo/``.
 DEMO_FILES = ("demo-fleet.yaml", "demo-event.yaml", "demo-event-metar.yaml", "demo-weather.csv")
-#: The parameterised notebooks the build runs, in ``tuning/notebooks/``.
-NOTEBOOK_NAMES = ("fleet-report.ipynb", "setup-sheets.ipynb")
+#: The parameterised notebooks the build runs, in ``tuning/notebooks/``: the fleet report and the
+#: setup sheets (run once per shard of bikes).
+FLEET_REPORT = "fleet-report.ipynb"
+SETUP_SHEETS = "setup-sheets.ipynb"
+NOTEBOOK_NAMES = (FLEET_REPORT, SETUP_SHEETS)
 
 
 def _packaged(folder: str, name: str) -> Path:
@@ -26,7 +29,7 @@ def _packaged(folder: str, name: str) -> Path:
 
 
 def notebook(name: str) -> Path:
-    """Path of one of the build's notebooks (``fleet-report.ipynb``, ``setup-sheets.ipynb``)."""
+    """Path of one of the build's notebooks (:data:`NOTEBOOK_NAMES`)."""
     return _packaged("notebooks", name)
 
 

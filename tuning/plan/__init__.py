@@ -44,7 +44,6 @@ __all__ = [
 ]
 
 FORMAT = document.FORMAT
-WARNING_CODES = tuple(CODES)
 
 
 def make_plan(fleet, event, *, policy_name: str | None = None, change_threshold: float | None = None) -> dict:
@@ -66,10 +65,10 @@ def make_plan(fleet, event, *, policy_name: str | None = None, change_threshold:
     dict
         The plan document (format ``carbfleet-plan/3``).
     """
-    chosen_policy = policy_name or getattr(event, "change_policy", None) or getattr(fleet, "change_policy", None) \
-        or policy.DEFAULT_POLICY
-    threshold = next((t for t in (change_threshold, getattr(event, "change_threshold", None),
-                                  getattr(fleet, "change_threshold", None)) if t is not None),
+    if not fleet.bikes or not event.sessions:  # the loaders refuse both; plans of nothing are not made
+        raise ValueError("make_plan needs at least one bike and one session")
+    chosen_policy = policy_name or event.change_policy or fleet.change_policy or policy.DEFAULT_POLICY
+    threshold = next((t for t in (change_threshold, event.change_threshold, fleet.change_threshold) if t is not None),
                      policy.DEFAULT_CHANGE_THRESHOLD)
     penalties = policy.penalties(chosen_policy, float(threshold))
 
@@ -94,16 +93,13 @@ def make_plan(fleet, event, *, policy_name: str | None = None, change_threshold:
 
 def _jets_by_bike(rows, main, pilot):
     """Per bike the proven (family, size) of each jet, and per bike and session the planned ones."""
-    s_count = rows.n_sessions
-    if s_count == 0:
-        return [], []
-    shape = (rows.n_bikes, s_count)
+    shape = (rows.n_bikes, rows.n_sessions)
     keys = {}
     for kind, plan in (("main_jet", main), ("pilot_jet", pilot)):
         fam = plan.family.reshape(shape).tolist()
         keys[kind] = (fam, plan.current.reshape(shape).tolist(), plan.recommended.reshape(shape).tolist())
     fitted = [{kind: (keys[kind][0][b][0], keys[kind][1][b][0]) for kind in keys} for b in range(rows.n_bikes)]
-    planned = [[{kind: (keys[kind][0][b][s], keys[kind][2][b][s]) for kind in keys} for s in range(s_count)]
+    planned = [[{kind: (keys[kind][0][b][s], keys[kind][2][b][s]) for kind in keys} for s in range(rows.n_sessions)]
                for b in range(rows.n_bikes)]
     return fitted, planned
 

@@ -2,9 +2,9 @@
 
 With the needle's geometry (straight diameter, taper, groove pitch), the needle jet's bore and
 a diameter-coded main jet, the delivered factor at an opening is the series area of the needle
-annulus and the main jet against the fitted pair (:func:`tuning.carb.needle_annulus_area`,
-:func:`tuning.carb.series_orifice_area`; slide lift = opening × bore). Without them each groove
-changes the annulus by :data:`tuning.carb.ASSUMED_GROOVE_AREA_STEP` (10 %, from memory), the
+annulus and the main jet against the fitted pair (:func:`tuning.circuits.needle_annulus_area`,
+:func:`tuning.circuits.series_orifice_area`; slide lift = opening × bore). Without them each groove
+changes the annulus by :data:`tuning.circuits.ASSUMED_GROOVE_AREA_STEP` (10 %, from memory), the
 annulus taken equal in area to the main jet, and the clip never moves leaner than fitted: an
 assumed effect is no ground for leaning an engine. A groove is safe when no opening of
 :data:`MID_RANGE_OPENINGS` in any hour is leaner than the lean guard; the policy picks among
@@ -17,10 +17,10 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from tuning import carb
+from tuning import circuits, metering
 from tuning.errors import UserError
 from tuning.plan.policy import flat_sequence
-from tuning.plan.window import LEAN_GUARD
+from tuning.plan.window import GUARD_ROUND_OFF, LEAN_GUARD
 
 __all__ = ["MID_RANGE_OPENINGS", "THROTTLE", "CLIP_LEAN_LIMIT", "ClipPlan", "plan_clip"]
 
@@ -54,7 +54,7 @@ def plan_clip(fleet, rows, settings, main, penalty) -> ClipPlan:
     grooves = np.zeros(n, np.int64)
     unsafe = np.zeros(n, bool)
     main_delivered = main.delivered
-    curve = np.repeat(np.sqrt(main_delivered)[:, None], len(THROTTLE), axis=1) if n else np.ones((0, len(THROTTLE)))
+    curve = np.repeat(np.sqrt(main_delivered)[:, None], len(THROTTLE), axis=1)
     for r, s in enumerate(settings):
         if s.needle is None or s.clip is None:
             continue
@@ -82,7 +82,7 @@ def plan_clip(fleet, rows, settings, main, penalty) -> ClipPlan:
         allowed = numbers[None, :] <= grooves[r][:, None]
         if which == MODE_ASSUMED:
             allowed &= numbers[None, :] >= current[r][:, None]  # never leaner on an assumed effect
-        cost = np.where(allowed & (leanest <= LEAN_GUARD + 1e-12), cost, np.inf)
+        cost = np.where(allowed & (leanest <= LEAN_GUARD + GUARD_ROUND_OFF), cost, np.inf)
         b = len(r) // s_count
         start = current[r].reshape(b, s_count)[:, 0] - 1
         choice, bad = flat_sequence(cost.reshape(b, s_count, g_max), start, penalty)
@@ -97,7 +97,7 @@ def plan_clip(fleet, rows, settings, main, penalty) -> ClipPlan:
 
 def _assumed_factor(main_delivered, current):
     """Needle-circuit factor for grooves without geometry: (R, G) grooves -> (R, G, O)."""
-    step = 1.0 + carb.ASSUMED_GROOVE_AREA_STEP
+    step = 1.0 + circuits.ASSUMED_GROOVE_AREA_STEP
 
     def factor(openings, groove):
         moves = groove - current[:, None]
@@ -117,15 +117,15 @@ def _geometry_factor(fleet, rows, settings, main, r, current):
     ts = np.array([x.taper_start for x in needles])[:, None, None]
     ta = np.array([x.taper_angle for x in needles])[:, None, None]
     gp = np.array([x.groove_pitch for x in needles])[:, None, None]
-    a_main_now = np.pi / 4.0 * (main.current[r] * 1e-5) ** 2
-    a_main_new = np.pi / 4.0 * (main.recommended[r] * 1e-5) ** 2
+    a_main_now = np.pi / 4.0 * (main.current[r] * metering.DIAMETER_CODE_STEP) ** 2
+    a_main_new = np.pi / 4.0 * (main.recommended[r] * metering.DIAMETER_CODE_STEP) ** 2
     clip_now = current[r]
 
     def factor(openings, groove):
         lift = np.asarray(openings)[None, None, :] * bore
-        a_new = carb.series_orifice_area(carb.needle_annulus_area(lift, nj, sd, ts, ta, gp, groove[:, :, None]),
+        a_new = circuits.series_orifice_area(circuits.needle_annulus_area(lift, nj, sd, ts, ta, gp, groove[:, :, None]),
                                          a_main_new[:, None, None])
-        a_now = carb.series_orifice_area(carb.needle_annulus_area(lift, nj, sd, ts, ta, gp, clip_now[:, None, None]),
+        a_now = circuits.series_orifice_area(circuits.needle_annulus_area(lift, nj, sd, ts, ta, gp, clip_now[:, None, None]),
                                          a_main_now[:, None, None])
         return a_new / a_now
 

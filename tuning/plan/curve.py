@@ -1,7 +1,7 @@
 """The predicted mixture across throttle openings, and the expected power.
 
 Per circuit the delivered area factor of the recommended settings against the proven ones;
-blended over the openings by :func:`tuning.carb.circuit_weights` (linear in fuel flow). The
+blended over the openings by :func:`tuning.circuits.circuit_weights` (linear in fuel flow). The
 predicted mixture at an opening and hour is reference AFR × required / delivered. The curve
 drawn is the session's leanest hour (largest required factor); the lean check takes the largest
 required factor of the session against every opening.
@@ -11,7 +11,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from tuning import carb
+from tuning import circuits
 from tuning.plan.clip import THROTTLE
 
 __all__ = ["mixture_curves"]
@@ -20,17 +20,11 @@ __all__ = ["mixture_curves"]
 def mixture_curves(rows, refs, hours, main, idle, clip, reference_afr) -> dict:
     """Arrays per row: the curves (R, T), the leanest deviation per opening (R, T), the
     worst hour's index, the factor's range and the power against the reference [%]."""
-    n = len(rows.bike)
-    if n == 0:
-        empty = np.zeros((0, len(THROTTLE)))
-        return {"current_afr": empty, "recommended_afr": empty, "leanest_by_throttle": empty,
-                "worst_hour": np.zeros(0, np.int64), "factor_min": np.zeros(0), "factor_max": np.zeros(0),
-                "power": np.zeros(0)}
-    weights = carb.circuit_weights(THROTTLE)  # (T, 3)
+    weights = circuits.circuit_weights(THROTTLE)  # (T, 3)
     delivered = (weights[None, :, 0] * idle.delivered[:, None] + weights[None, :, 1] * clip.curve
                  + weights[None, :, 2] * main.delivered[:, None])
     worst_hour = np.argmax(np.where(rows.valid, rows.required, -np.inf), axis=1)
-    worst = rows.required[np.arange(n), worst_hour]
+    worst = rows.required[np.arange(len(rows.bike)), worst_hour]
     cf_event = np.where(rows.valid, np.asarray(hours.air.sae_j1349_cf, float)[rows.index], np.nan)
     power = 100.0 * np.nanmean(refs.sae_cf[refs.of_bike[rows.bike]][:, None] / cf_event, axis=1)
     return {

@@ -7,17 +7,18 @@ precision; no clock. Described field by field in ``tuning/schemas/recommendation
 from __future__ import annotations
 
 import warnings as pywarnings
+from dataclasses import dataclass
 from datetime import UTC, datetime
 from zoneinfo import ZoneInfo
 
 import numpy as np
 
-from tuning import __version__, air, carb, constants
+from tuning import __version__, air, circuits, constants, metering
 from tuning.gcpause import gc_paused
 from tuning.plan.clip import MODE_ASSUMED, MODE_NONE, THROTTLE
 from tuning.plan.hours import air_at, epoch
 from tuning.plan.notices import BIKE_CODES, printed, said, severity_rank, warning
-from tuning.plan.policy import WORK_MINUTES
+from tuning.plan.policy import TURNS_NOISE, WORK_MINUTES
 from tuning.plan.pool import KINDS
 from tuning.plan.window import LEAN_GUARD
 
@@ -34,6 +35,8 @@ HOT_FUEL_K = constants.ZERO_CELSIUS + 30.0  #: above this: hot-fuel warning (fro
 #: are drawn from memory after light-aircraft charts, whose carburetors sit far from engine heat;
 #: a motorcycle carburetor beside a warm engine ices less, so light and moderate are no warning.
 ICING_WARN_LEVEL = 3
+#: Float round-off ignored before the predicted mixture counts as leaner than the lean guard [1].
+LEAN_NOTICE_ROUND_OFF = 1e-9
 
 HOT_FUEL_C = int(round(HOT_FUEL_K - constants.ZERO_CELSIUS))  #: the same threshold as said in the words [°C]
 
@@ -120,99 +123,10 @@ def _throttle_span(mask):
 def assemble(fleet, event, rows, hours, refs, main, idle, clip, curves, rejet, allocation, pick_list,
              policy_name, threshold) -> dict:
     """The plan document from the stages' records (see the schema for every field)."""
-    zone = ZoneInfo(event.site.time_zone)
-    sessions = list(event.sessions)
-    n, s_count = len(rows.bike), rows.n_sessions
-    reference_afr = float(fleet.reference_afr)
-    has_stock = bool(fleet.stock)
-    settings = [fleet.bikes[b].settings for b in rows.bike]
-    ref_dicts = [_reference_dict(c, s) for c, s in zip(refs.conditions, refs.states)]
-    session_dicts = [{"name": s.name, "start": _iso(epoch(s.start), zone), "end": _iso(epoch(s.end), zone)} for s in sessions]
-    hour_iso = [_iso(t, zone) for t in hours.times]
-    hour_air = _air_fields(hours.air) if s_count else {}
-    hour_base = [{"time": hour_iso[i], **{k: hour_air[k][i] for k in (
-        "air_temperature_C", "station_pressure_hPa", "relative_humidity_pct", "moist_air_density_kg_m3",
-        "dry_air_density_kg_m3", "density_altitude_m")}} for i in range(len(hours.times))]
-    stats = _session_stats(hours, s_count)
-    for d, stat in zip(session_dicts, stats):
-        d.update(power_vs_sae_j1349_pct=stat["power_vs_sae_j1349_pct"], sae_j1349_within_range=stat["sae_j1349_within_range"])
-    pilot = idle.pilot
-    main_steps, pilot_steps = _steps(fleet, main), _steps(fleet, pilot)
-    req_r = np.round(rows.required, 4)
-    f_min = rounded(np.nanmin(rows.required, axis=1), 4) if n else []
-    f_mean = rounded(np.nanmean(rows.required, axis=1), 4) if n else []
-    f_max = rounded(np.nanmax(rows.required, axis=1), 4) if n else []
-    power = rounded(curves["power"], 1) if n else []
-    cur_afr = np.round(curves["current_afr"], 2).tolist()
-    rec_afr = np.round(curves["recommended_afr"], 2).tolist()
-    band = [round(reference_afr * TARGET_BAND[0], 2), round(reference_afr * TARGET_BAND[1], 2)]
-    sources = _sources(allocation, rows, fleet)
-    bike_ids = [b.id for b in fleet.bikes]
-    main_cols, pilot_cols = _jet_columns(main, main_steps, rows), _jet_columns(pilot, pilot_steps, rows)
-
-    with gc_paused():  # many small dicts, no cycles
-        entries, bike_notices, in_danger = [], {bid: {} for bid in bike_ids}, set()
-        for r in range(n):
-            b, s = int(rows.bike[r]), int(rows.session[r])
-            bike, st, stat = fleet.bikes[b], settings[r], stats[s]
-            model = fleet.models[bike.model]
-            n_h = int(rows.valid[r].sum())
-            base = hours.offsets[s]
-            hours_out = [dict(h, area_factor=f) for h, f in zip(hour_base[base: base + n_h], req_r[r, :n_h].tolist())]
-            found = []  # warnings of this entry, bike-level ones set aside
-            main_out = _jet_dict(fleet, main, main_cols, r, "main_jet", sources, has_stock, sessions[s].name, found)
-            pilot_out = _jet_dict(fleet, pilot, pilot_cols, r, "pilot_jet", sources, has_stock, sessions[s].name, found)
-            if curves["factor_min"][r] < FACTOR_RANGE[0] or curves["factor_max"][r] > FACTOR_RANGE[1]:
-                found.append(warning("factor-out-of-range", params={
-                    "factor_min": f_min[r], "factor_max": f_max[r], "range_low": FACTOR_RANGE[0], "range_high": FACTOR_RANGE[1]}))
-            clip_out = _clip_dict(clip, r, st, found)
-            screw_out = _screw_dict(idle, r, st, found)
-            _lean_check(curves, r, found, idle, clip, s_count)
-            _weather_notes(stat, model, found)
-            checks = _checks(st, model, stat)
-            for w in found:
-                if w["code"] in BIKE_CODES:
-                    bike_notices[bike.id].setdefault(w["code"], w)
-            session_warnings = sorted((w for w in found if w["code"] not in BIKE_CODES),
-                                      key=lambda w: severity_rank(w["severity"]))
-            if any(w["severity"] == "danger" for w in session_warnings):
-                in_danger.add(bike.id)
-            entries.append({
-                "bike": bike.id, "model": bike.model, "session": sessions[s].name,
-                "start": session_dicts[s]["start"], "end": session_dicts[s]["end"], "notes": bike.notes,
-                "strokes": int(model.strokes),
-                "premix_ratio": None if bike.premix_ratio is None else round(float(bike.premix_ratio), 2),
-                "density_exponent": round(float(bike.density_exponent), 4),
-                "reference": ref_dicts[int(refs.of_bike[b])],
-                "hours": hours_out,
-                "summary": {
-                    "air_temperature_C_min": stat["air_temperature_C_min"], "air_temperature_C_max": stat["air_temperature_C_max"],
-                    "station_pressure_hPa_mean": stat["station_pressure_hPa_mean"],
-                    "relative_humidity_pct_mean": stat["relative_humidity_pct_mean"],
-                    "density_altitude_m_min": stat["density_altitude_m_min"], "density_altitude_m_max": stat["density_altitude_m_max"],
-                    "area_factor_min": f_min[r], "area_factor_mean": f_mean[r], "area_factor_max": f_max[r],
-                    "power_vs_reference_pct": power[r],
-                    "air_density_vs_reference_pct": round(100.0 * (stat["moist_air_density"] / float(refs.moist[int(refs.of_bike[b])]) - 1.0), 1),
-                },
-                "settings": {"main_jet": main_out, "pilot_jet": pilot_out, "clip": clip_out, "mixture_screw": screw_out,
-                             "float_level_mm": None if st.float_level is None else round(st.float_level * 1000.0, 2)},
-                "mixture_curve": {
-                    "throttle": THROTTLE.tolist(), "current_afr": cur_afr[r], "recommended_afr": rec_afr[r],
-                    "reference_afr": round(reference_afr, 2), "target_band_afr": band,
-                    "time": hour_iso[base + int(curves["worst_hour"][r])],
-                    "basis": "leanest hour of the session (largest required area factor)",
-                },
-                "rejet_temperatures_C": {k: rejet[k][r] for k in ("below", "below_jet", "above", "above_jet")},
-                "power_vs_reference_pct": power[r],
-                "checks": checks,
-                "warnings": session_warnings,
-            })
-
-    bikes_out = []
-    for bike in fleet.bikes:
-        notices = list(bike_notices[bike.id].values())
-        bikes_out.append({"bike": bike.id, "model": bike.model, "danger": bike.id in in_danger, "notices": notices})
-    work_orders = _work_orders(fleet, rows, main, idle, clip, allocation, sessions, bike_ids)
+    cols = _columns(fleet, event, rows, hours, refs, main, idle, curves, allocation)
+    entries, bike_notices, in_danger = _entries(fleet, rows, hours, refs, main, idle, clip, curves, rejet, cols)
+    bikes_out = _bikes(fleet, bike_notices, in_danger)
+    work_orders = _work_orders(fleet, rows, main, idle, clip, allocation, cols.sessions, cols.bike_ids)
     warnings_count = sum(len(e["warnings"]) for e in entries) + sum(len(b["notices"]) for b in bikes_out)
     return {
         "format": FORMAT,
@@ -220,11 +134,11 @@ def assemble(fleet, event, rows, hours, refs, main, idle, clip, curves, rejet, a
         "fleet": fleet.name,
         "event": event.name,
         "site": {"name": event.site.name, "elevation_m": rounded(event.site.elevation, 1), "time_zone": event.site.time_zone},
-        "reference": ref_dicts[refs.fleet],
+        "reference": cols.ref_dicts[refs.fleet],
         "policy": {"name": policy_name, "change_threshold": threshold, "lean_guard": LEAN_GUARD,
                    "work_minutes": dict(WORK_MINUTES)},
-        "sessions": session_dicts,
-        "weather": _weather_rows(event, hours, refs, zone),
+        "sessions": cols.session_dicts,
+        "weather": _weather_rows(event, hours, refs, cols.zone),
         "pick_list": [dict(p, size=jet_number(p["size"])) for p in pick_list],
         "work_orders": work_orders,
         "bikes": bikes_out,
@@ -233,10 +147,166 @@ def assemble(fleet, event, rows, hours, refs, main, idle, clip, curves, rejet, a
     }
 
 
+@dataclass(frozen=True)
+class _Columns:
+    """What the entries read, worked out once for every row, session and hour (plain lists, rounded once)."""
+    zone: ZoneInfo
+    sessions: list
+    session_dicts: list  # the document's sessions, with their SAE J1349 power
+    ref_dicts: list  # per reference conditions
+    stats: list  # per session (_session_stats)
+    settings: list  # the proven settings, per row
+    bike_ids: list
+    hour_iso: list  # per session hour
+    hour_base: list  # per session hour: the air fields of an entry's hours
+    required: np.ndarray  # per row and hour, rounded
+    f_min: list
+    f_mean: list
+    f_max: list
+    power: list
+    current_afr: list
+    recommended_afr: list
+    reference_afr: float
+    band: list
+    sources: dict
+    main_cols: dict
+    pilot_cols: dict
+    has_stock: bool
+
+
+def _columns(fleet, event, rows, hours, refs, main, idle, curves, allocation) -> _Columns:
+    zone = ZoneInfo(event.site.time_zone)
+    sessions = list(event.sessions)
+    s_count = rows.n_sessions
+    reference_afr = float(fleet.reference_afr)
+    ref_dicts = [_reference_dict(c, s) for c, s in zip(refs.conditions, refs.states)]
+    session_dicts = [{"name": s.name, "start": _iso(epoch(s.start), zone), "end": _iso(epoch(s.end), zone)} for s in sessions]
+    hour_iso = [_iso(t, zone) for t in hours.times]
+    hour_air = _air_fields(hours.air)
+    hour_base = [{"time": hour_iso[i], **{k: hour_air[k][i] for k in (
+        "air_temperature_C", "station_pressure_hPa", "relative_humidity_pct", "moist_air_density_kg_m3",
+        "dry_air_density_kg_m3", "density_altitude_m")}} for i in range(len(hours.times))]
+    stats = _session_stats(hours, s_count)
+    for d, stat in zip(session_dicts, stats):
+        d.update(power_vs_sae_j1349_pct=stat["power_vs_sae_j1349_pct"], sae_j1349_within_range=stat["sae_j1349_within_range"])
+    pilot = idle.pilot
+    main_steps, pilot_steps = _steps(fleet, main), _steps(fleet, pilot)
+    return _Columns(
+        zone=zone, sessions=sessions, session_dicts=session_dicts, ref_dicts=ref_dicts, stats=stats,
+        settings=[fleet.bikes[b].settings for b in rows.bike], bike_ids=[b.id for b in fleet.bikes],
+        hour_iso=hour_iso, hour_base=hour_base,
+        required=np.round(rows.required, 4),
+        f_min=rounded(np.nanmin(rows.required, axis=1), 4),
+        f_mean=rounded(np.nanmean(rows.required, axis=1), 4),
+        f_max=rounded(np.nanmax(rows.required, axis=1), 4),
+        power=rounded(curves["power"], 1),
+        current_afr=np.round(curves["current_afr"], 2).tolist(),
+        recommended_afr=np.round(curves["recommended_afr"], 2).tolist(),
+        reference_afr=reference_afr,
+        band=[round(reference_afr * TARGET_BAND[0], 2), round(reference_afr * TARGET_BAND[1], 2)],
+        sources=_sources(allocation, rows),
+        main_cols=_jet_columns(main, main_steps, rows), pilot_cols=_jet_columns(pilot, pilot_steps, rows),
+        has_stock=bool(fleet.stock),
+    )
+
+
+def _entries(fleet, rows, hours, refs, main, idle, clip, curves, rejet, cols):
+    """One entry per bike × session; the bike-level notices (first of each code) set aside per bike,
+    and the bikes with a danger warning in some session."""
+    s_count = rows.n_sessions
+    with gc_paused():  # many small dicts, no cycles
+        entries, bike_notices, in_danger = [], {bid: {} for bid in cols.bike_ids}, set()
+        for r in range(len(rows.bike)):
+            b, s = int(rows.bike[r]), int(rows.session[r])
+            bike, st, stat = fleet.bikes[b], cols.settings[r], cols.stats[s]
+            model = fleet.models[bike.model]
+            found = []  # warnings of this entry, bike-level ones set aside
+            settings_out = _settings_dict(fleet, main, idle, clip, curves, cols, r, s, st, found)
+            _lean_check(curves, r, found, idle, clip, s_count)
+            _weather_notes(stat, model, found)
+            checks = _checks(st, model, stat)
+            session_warnings = _set_aside(found, bike_notices[bike.id])
+            if any(w["severity"] == "danger" for w in session_warnings):
+                in_danger.add(bike.id)
+            entries.append(_entry(bike, model, rows, hours, refs, curves, rejet, cols, r, s,
+                                  settings_out, checks, session_warnings))
+    return entries, bike_notices, in_danger
+
+
+def _settings_dict(fleet, main, idle, clip, curves, cols, r, s, st, found) -> dict:
+    """An entry's settings (main and pilot jet, clip, screw, float level); their warnings go to ``found``."""
+    session_name = cols.sessions[s].name
+    main_out = _jet_dict(fleet, main, cols.main_cols, r, "main_jet", cols.sources, cols.has_stock, session_name, found)
+    pilot_out = _jet_dict(fleet, idle.pilot, cols.pilot_cols, r, "pilot_jet", cols.sources, cols.has_stock,
+                          session_name, found)
+    if curves["factor_min"][r] < FACTOR_RANGE[0] or curves["factor_max"][r] > FACTOR_RANGE[1]:
+        found.append(warning("factor-out-of-range", params={
+            "factor_min": cols.f_min[r], "factor_max": cols.f_max[r],
+            "range_low": FACTOR_RANGE[0], "range_high": FACTOR_RANGE[1]}))
+    clip_out = _clip_dict(clip, r, st, found)
+    screw_out = _screw_dict(idle, r, st, found)
+    return {"main_jet": main_out, "pilot_jet": pilot_out, "clip": clip_out, "mixture_screw": screw_out,
+            "float_level_mm": None if st.float_level is None else round(st.float_level * 1000.0, 2)}
+
+
+def _set_aside(found, notices) -> list:
+    """Move the bike-level warnings of ``found`` to the bike's ``notices`` (the first of each code) and
+    return the session's own warnings, the most severe first."""
+    for w in found:
+        if w["code"] in BIKE_CODES:
+            notices.setdefault(w["code"], w)
+    return sorted((w for w in found if w["code"] not in BIKE_CODES), key=lambda w: severity_rank(w["severity"]))
+
+
+def _entry(bike, model, rows, hours, refs, curves, rejet, cols, r, s, settings_out, checks, session_warnings) -> dict:
+    """One bike × session entry of the document."""
+    stat = cols.stats[s]
+    reference = int(refs.of_bike[int(rows.bike[r])])
+    n_h = int(rows.valid[r].sum())
+    base = hours.offsets[s]
+    hours_out = [dict(h, area_factor=f) for h, f in zip(cols.hour_base[base: base + n_h], cols.required[r, :n_h].tolist())]
+    return {
+        "bike": bike.id, "model": bike.model, "session": cols.sessions[s].name,
+        "start": cols.session_dicts[s]["start"], "end": cols.session_dicts[s]["end"], "notes": bike.notes,
+        "strokes": int(model.strokes),
+        "premix_ratio": None if bike.premix_ratio is None else round(float(bike.premix_ratio), 2),
+        "density_exponent": round(float(bike.density_exponent), 4),
+        "reference": cols.ref_dicts[reference],
+        "hours": hours_out,
+        "summary": {
+            "air_temperature_C_min": stat["air_temperature_C_min"], "air_temperature_C_max": stat["air_temperature_C_max"],
+            "station_pressure_hPa_mean": stat["station_pressure_hPa_mean"],
+            "relative_humidity_pct_mean": stat["relative_humidity_pct_mean"],
+            "density_altitude_m_min": stat["density_altitude_m_min"], "density_altitude_m_max": stat["density_altitude_m_max"],
+            "area_factor_min": cols.f_min[r], "area_factor_mean": cols.f_mean[r], "area_factor_max": cols.f_max[r],
+            "power_vs_reference_pct": cols.power[r],
+            "air_density_vs_reference_pct": round(100.0 * (stat["moist_air_density"] / float(refs.moist[reference]) - 1.0), 1),
+        },
+        "settings": settings_out,
+        "mixture_curve": {
+            "throttle": THROTTLE.tolist(), "current_afr": cols.current_afr[r], "recommended_afr": cols.recommended_afr[r],
+            "reference_afr": round(cols.reference_afr, 2), "target_band_afr": cols.band,
+            "time": cols.hour_iso[base + int(curves["worst_hour"][r])],
+            "basis": "leanest hour of the session (largest required area factor)",
+        },
+        "rejet_temperatures_C": {k: rejet[k][r] for k in ("below", "below_jet", "above", "above_jet")},
+        "power_vs_reference_pct": cols.power[r],
+        "checks": checks,
+        "warnings": session_warnings,
+    }
+
+
+def _bikes(fleet, bike_notices, in_danger) -> list:
+    """Per bike: its notices (bike-level warnings) and whether some session of it is in danger."""
+    bikes_out = []
+    for bike in fleet.bikes:
+        notices = list(bike_notices[bike.id].values())
+        bikes_out.append({"bike": bike.id, "model": bike.model, "danger": bike.id in in_danger, "notices": notices})
+    return bikes_out
+
+
 def _session_stats(hours, s_count):
     out = []
-    if not s_count:
-        return out
     t_all = np.asarray(hours.air.air_temperature, float)
     icing = np.asarray(hours.air.icing_risk)
     for s in range(s_count):
@@ -268,7 +338,7 @@ def _j1349_power(state, sl) -> dict:
     return {"power_vs_sae_j1349_pct": rounded(100.0 * np.mean(1.0 / cf), 1), "sae_j1349_within_range": within}
 
 
-def _sources(allocation, rows, fleet):
+def _sources(allocation, rows):
     """(kind, row) -> (put in now, the jet's provenance): the move that puts the session's jet in
     before it (None where the jet of the session before, or the proven one, stays) and the move that
     last put in the jet the bike wears (None: the proven jet)."""
@@ -364,7 +434,7 @@ def _clip_dict(clip, r, st, found):
                       {"count": abs(d), "from": c_now, "to": c_new}, key="change")
     if clip.mode[r] == MODE_ASSUMED:
         found.append(warning("assumed-needle-geometry",
-                             params={"groove_area_step": int(carb.ASSUMED_GROOVE_AREA_STEP * 100)}))
+                             params={"groove_area_step": int(circuits.ASSUMED_GROOVE_AREA_STEP * 100)}))
     return {"needle": st.needle, "current": c_now, "recommended": c_new, "steps": d, "direction": direction,
             **change, "assumed_geometry": bool(clip.mode[r] == MODE_ASSUMED), "grooves": int(clip.grooves[r])}
 
@@ -372,7 +442,7 @@ def _clip_dict(clip, r, st, found):
 def _screw_dict(idle, r, st, found):
     ms = st.mixture_screw
     ch = float(idle.screw_new[r] - idle.screw_now[r])
-    if abs(ch) < 1e-9:
+    if abs(ch) < TURNS_NOISE:
         s_dir, s_change = "no change", said("setting/no-change", key="change")
     else:
         richer = (ch > 0) == (ms.kind == "fuel")
@@ -394,12 +464,12 @@ def _lean_check(curves, r, found, idle, clip, s_count):
     """``predicted-lean`` where the predicted mixture at some opening and hour leaves the band's lean edge,
     naming the throttle range and the cure (in the same words in every lean session of the bike:
     the worst over its sessions)."""
-    if not curves["leanest_by_throttle"][r].max() > LEAN_GUARD + 1e-9:
+    if not curves["leanest_by_throttle"][r].max() > LEAN_GUARD + LEAN_NOTICE_ROUND_OFF:
         return
     first = r - r % s_count
     lean = curves["leanest_by_throttle"][first:first + s_count].max(axis=0)  # (T,) over the bike's sessions
-    bad = lean > LEAN_GUARD + 1e-9
-    weights = carb.circuit_weights(THROTTLE[bad])  # which circuit meters most there
+    bad = lean > LEAN_GUARD + LEAN_NOTICE_ROUND_OFF
+    weights = circuits.circuit_weights(THROTTLE[bad])  # which circuit meters most there
     circuit = int(np.argmax(weights.sum(axis=0)))
     if circuit == 0:
         cure = "cure/pilot-beyond-plan" if idle.unsafe[r] else "cure/idle-circuit"
@@ -441,8 +511,6 @@ def _work_orders(fleet, rows, main, idle, clip, allocation, sessions, bike_ids):
     """Per transition, the changes of every bike with the time they take."""
     moves_by_t, _ordered = allocation
     s_count = rows.n_sessions
-    if not s_count:
-        return []
     b_count = rows.n_bikes
     shape = (b_count, s_count)
     proven = {
@@ -470,7 +538,7 @@ def _work_orders(fleet, rows, main, idle, clip, allocation, sessions, bike_ids):
                 new = proven[part][b] if t == s_count else planned[part][b, t]
                 if part == "clip" and (old < 0 or new < 0):
                     continue
-                if abs(float(new) - float(old)) < 1e-9:
+                if abs(float(new) - float(old)) < TURNS_NOISE:  # jet numbers, grooves, turns
                     continue
                 changes.append(_change(part, old, new, jet_moves.get((b, part)), screw_kind[b]))
             if changes:
@@ -507,8 +575,6 @@ def _change(part, old, new, move, screw_kind):
 
 def _weather_rows(event, hours, refs, zone):
     """The forecast rows spanning the sessions, with the air-only area factor against the fleet's reference."""
-    if not len(hours.times):
-        return []
     wt = np.asarray(event.weather.time).astype("datetime64[s]").astype(np.int64)
     first = np.searchsorted(wt, hours.times.min(), side="right") - 1
     last = np.searchsorted(wt, hours.times.max(), side="left")
@@ -516,8 +582,8 @@ def _weather_rows(event, hours, refs, zone):
     with pywarnings.catch_warnings():  # the same air as the session hours: warned there already
         pywarnings.simplefilter("ignore", air.OutOfRangeWarning)
         w_air = air_at(event.weather, event.site.elevation, wt[idx], str(event.source or event.name))
-    w_factor = carb.area_factor(w_air.dry_air_density, refs.dry[refs.fleet], w_air.moist_air_density,
-                                refs.moist[refs.fleet], density_exponent=0.5)
+    w_factor = metering.area_factor(w_air.dry_air_density, refs.dry[refs.fleet], w_air.moist_air_density,
+                                    refs.moist[refs.fleet], density_exponent=constants.METERING_LAW_EXPONENT)
     fields = _air_fields(w_air)
     fac, cf = rounded(w_factor, 4), rounded(w_air.sae_j1349_cf, 4)
     icing = np.asarray(w_air.icing_risk).astype(int).tolist()

@@ -2,7 +2,7 @@
 
 One row per bike × session (bike-major: the rows of a bike are its sessions in order), one
 column per hour of the session (padded). The factor is the elementary carburetor's metering
-law (:func:`tuning.carb.area_factor`) between the air and fuel at the event and at the bike's
+law (:func:`tuning.metering.area_factor`) between the air and fuel at the event and at the bike's
 reference, with the bike's density exponent and premix.
 """
 
@@ -12,8 +12,9 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from tuning import carb, fuel
+from tuning import constants, fuel
 from tuning.errors import UserError
+from tuning.metering import area_factor
 from tuning.plan.window import WindowLoss
 
 __all__ = ["required_area_factor", "Metering", "metering", "Rows", "rows_of"]
@@ -29,8 +30,8 @@ def metered_liquid(fuel_record, premix_ratio):
 
 
 def required_area_factor(event_air, reference_air, event_fuel, reference_fuel, *, premix_ratio=None,
-                         reference_premix_ratio=None, density_exponent=0.5):
-    """Area factor that keeps the reference mixture (thin wrapper of :func:`tuning.carb.area_factor`).
+                         reference_premix_ratio=None, density_exponent=constants.METERING_LAW_EXPONENT):
+    """Area factor that keeps the reference mixture (thin wrapper of :func:`tuning.metering.area_factor`).
 
     Parameters
     ----------
@@ -54,8 +55,8 @@ def required_area_factor(event_air, reference_air, event_fuel, reference_fuel, *
         reference_premix_ratio = premix_ratio
     afr_e, rho_e = metered_liquid(event_fuel, premix_ratio)
     afr_r, rho_r = metered_liquid(reference_fuel, reference_premix_ratio)
-    return carb.area_factor(event_air.dry_air_density, reference_air.dry_air_density, event_air.moist_air_density,
-                            reference_air.moist_air_density, rho_e, rho_r, afr_e, afr_r, density_exponent)
+    return area_factor(event_air.dry_air_density, reference_air.dry_air_density, event_air.moist_air_density,
+                       reference_air.moist_air_density, rho_e, rho_r, afr_e, afr_r, density_exponent)
 
 
 @dataclass(frozen=True)
@@ -132,7 +133,7 @@ def rows_of(fleet, hours, refs, meter) -> Rows:
         ref = refs.of_bike[bike]
         dry = np.asarray(hours.air.dry_air_density, float)[index]
         moist = np.asarray(hours.air.moist_air_density, float)[index]
-        required = carb.area_factor(
+        required = area_factor(
             dry, refs.dry[ref][:, None], moist, refs.moist[ref][:, None],
             meter.rho_event[bike][:, None], meter.rho_reference[bike][:, None],
             meter.afr_event[bike][:, None], meter.afr_reference[bike][:, None], meter.exponent[bike][:, None])

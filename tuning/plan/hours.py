@@ -89,15 +89,15 @@ class EventHours:
 def event_hours(event) -> EventHours:
     """The hours of every session of ``event`` and the air at each."""
     hours = [session_hours(s) for s in event.sessions]
-    longest = max((len(h) for h in hours), default=1)
-    times = np.concatenate(hours) if hours else np.zeros(0, np.int64)
+    longest = max(len(h) for h in hours)
+    times = np.concatenate(hours)
     offsets = np.cumsum([0] + [len(h) for h in hours])
-    index = np.zeros((max(len(hours), 1), longest), np.int64)
-    valid = np.zeros((max(len(hours), 1), longest), bool)
+    index = np.zeros((len(hours), longest), np.int64)
+    valid = np.zeros((len(hours), longest), bool)
     for s, h in enumerate(hours):
         index[s, : len(h)] = offsets[s] + np.arange(len(h))
         valid[s, : len(h)] = True
-    state = air_at(event.weather, event.site.elevation, times, str(event.source or event.name)) if hours else None
+    state = air_at(event.weather, event.site.elevation, times, str(event.source or event.name))
     return EventHours(times, offsets, index, valid, state)
 
 

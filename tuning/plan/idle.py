@@ -5,7 +5,7 @@ one, and screw positions in quarter turns inside the inner part of the screw's u
 (:data:`SCREW_INNER_SHARE`, the middle half by default), plus the fitted position. The screw is
 trimmed before the pilot is changed because the penalties follow the work (a screw turn takes
 minutes, a pilot jet the float bowl off); a screw move is none or at least half a turn. The
-screw's effect is :data:`tuning.carb.ASSUMED_SCREW_EFFECT_PER_TURN` (10 % of idle fuel per
+screw's effect is :data:`tuning.circuits.ASSUMED_SCREW_EFFECT_PER_TURN` (10 % of idle fuel per
 turn, from memory); an air screw turned out leans, a fuel screw turned out richens.
 """
 
@@ -15,10 +15,10 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from tuning import carb
+from tuning import circuits, metering
 from tuning.plan.jets import JetPlan, jet_factor, jet_ideals
-from tuning.plan.policy import idle_sequence
-from tuning.plan.window import LEAN_GUARD
+from tuning.plan.policy import TURNS_NOISE, idle_sequence
+from tuning.plan.window import GUARD_ROUND_OFF, LEAN_GUARD
 
 __all__ = ["PILOT_REACH", "SCREW_INNER_SHARE", "IdlePlan", "plan_idle"]
 
@@ -26,7 +26,7 @@ PILOT_REACH = 3  #: pilot sizes considered on each side of the fitted one [steps
 #: Share of the screw's usable range, centred, in which a screw change may land (our choice:
 #: the middle half keeps room to trim at the pits either way).
 SCREW_INNER_SHARE = 0.5
-_QUARTER = 0.25
+_QUARTER = 0.25  # screw positions are planned in quarter turns [turns]
 _FALLBACK_COST = 1.0e6  # an unsafe candidate taken only where nothing else is allowed
 
 
@@ -48,9 +48,9 @@ def _screw_positions(screws) -> np.ndarray:
     for ms in screws:
         lo, hi = ms.usable_range
         margin = (hi - lo) * (1.0 - SCREW_INNER_SHARE) / 2.0
-        first = np.ceil((lo + margin) / _QUARTER - 1e-9) * _QUARTER
-        inner = np.arange(first, hi - margin + 1e-9, _QUARTER)
-        fitted = [ms.turns] if lo - 1e-9 <= ms.turns <= hi + 1e-9 else []  # outside its range: brought back
+        first = np.ceil((lo + margin) / _QUARTER - TURNS_NOISE) * _QUARTER
+        inner = np.arange(first, hi - margin + TURNS_NOISE, _QUARTER)
+        fitted = [ms.turns] if lo - TURNS_NOISE <= ms.turns <= hi + TURNS_NOISE else []  # outside its range: brought back
         positions = np.unique(np.round(np.append(inner, fitted), 4))
         rows.append(positions if ms.kind == "fuel" else positions[::-1])  # richest last
     width = max((len(r) for r in rows), default=1)
@@ -81,15 +81,15 @@ def plan_idle(fleet, rows, settings, penalties) -> IdlePlan:
         cand_size = sizes[np.clip(cand, 0, len(sizes) - 1)]
         positions = _screw_positions([settings[i].mixture_screw for i in first])  # (b, Q)
         kinds = np.array([settings[i].mixture_screw.kind for i in first])
-        pilot_factor = carb.area_factor_between_jets(pilot.current[first][:, None], cand_size, fam.coding)  # (b, P)
-        screw_factor = carb.mixture_screw_area_factor(positions - screw_now[first][:, None], kinds[:, None])  # (b, Q)
+        pilot_factor = metering.area_factor_between_jets(pilot.current[first][:, None], cand_size, fam.coding)  # (b, P)
+        screw_factor = circuits.mixture_screw_area_factor(positions - screw_now[first][:, None], kinds[:, None])  # (b, Q)
         delivered = pilot_factor[:, :, None] * screw_factor[:, None, :]  # (b, P, Q)
         ok = exists[:, :, None] & np.isfinite(positions)[:, None, :]
         safe_value = np.where(ok, delivered, 1.0)
         per_row = np.repeat(safe_value, s_count, axis=0).reshape(len(r), -1)  # rows of a bike share candidates
         cost = rows.window.rms(per_row, r)
         lean = rows.window.leanest(per_row, r)
-        cost = np.where((lean <= LEAN_GUARD + 1e-12) & np.repeat(ok, s_count, axis=0).reshape(len(r), -1), cost, np.inf)
+        cost = np.where((lean <= LEAN_GUARD + GUARD_ROUND_OFF) & np.repeat(ok, s_count, axis=0).reshape(len(r), -1), cost, np.inf)
         # where nothing is safe in a session, the richest candidate that exists is taken (and flagged):
         # the largest pilot within reach with the screw at its richest position
         cost = cost.reshape(len(r), len(offsets), positions.shape[1])

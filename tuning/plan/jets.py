@@ -12,10 +12,10 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from tuning import carb
+from tuning import metering
 from tuning.errors import UserError
 from tuning.plan.policy import flat_sequence
-from tuning.plan.window import LEAN_GUARD
+from tuning.plan.window import GUARD_ROUND_OFF, LEAN_GUARD
 
 __all__ = ["JetPlan", "family_of", "jet_factor", "jet_ideals", "nearest_index", "plan_main"]
 
@@ -84,10 +84,10 @@ def jet_ideals(fleet, rows, settings, family_attr, size_attr) -> JetPlan:
         coding[r] = fam.coding
         req = rows.required[r]
         with np.errstate(invalid="ignore"):
-            ideal = carb.jet_number_for_area_factor(current[r][:, None], req, fam.coding)
+            ideal = metering.jet_number_for_area_factor(current[r][:, None], req, fam.coding)
         ideal_min[r] = np.nanmin(ideal, axis=1)
         ideal_max[r] = np.nanmax(ideal, axis=1)
-        ideal_mean[r] = carb.jet_number_for_area_factor(current[r], np.nanmean(req, axis=1), fam.coding)
+        ideal_mean[r] = metering.jet_number_for_area_factor(current[r], np.nanmean(req, axis=1), fam.coding)
         half_up = (sizes[-1] - sizes[-2]) / 2.0 if len(sizes) > 1 else 0.0
         half_down = (sizes[1] - sizes[0]) / 2.0 if len(sizes) > 1 else 0.0
         out_of_family[r] = (ideal_max[r] > sizes[-1] + half_up) | (ideal_min[r] < sizes[0] - half_down)
@@ -113,9 +113,9 @@ def plan_main(fleet, rows, settings, penalty) -> JetPlan:
         r = np.flatnonzero(plan.family == name)  # whole bikes: all sessions of a bike share its family
         fam = fleet.jet_families[name]
         sizes = np.asarray(fam.sizes, float)
-        delivered = carb.area_factor_between_jets(plan.current[r][:, None], sizes[None, :], fam.coding)  # (R, K)
+        delivered = metering.area_factor_between_jets(plan.current[r][:, None], sizes[None, :], fam.coding)  # (R, K)
         cost = rows.window.rms(delivered, r)
-        cost = np.where(rows.window.leanest(delivered, r) <= LEAN_GUARD + 1e-12, cost, np.inf)
+        cost = np.where(rows.window.leanest(delivered, r) <= LEAN_GUARD + GUARD_ROUND_OFF, cost, np.inf)
         b = len(r) // s_count
         start = plan.index[r].reshape(b, s_count)[:, 0]
         start = np.where(sizes[start] == plan.current[r].reshape(b, s_count)[:, 0], start, -1)  # fitted not a size

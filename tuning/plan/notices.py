@@ -32,10 +32,14 @@ from functools import cache, lru_cache
 
 from tuning.display import N_, Display
 
-__all__ = ["CODES", "SEVERITIES", "BIKE_CODES", "TEXTS", "DOCUMENT", "warning", "said", "say", "say_item",
+__all__ = ["CODES", "SEVERITIES", "ICING_RISK_NAMES", "BIKE_CODES", "TEXTS", "DOCUMENT", "warning", "said", "say", "say_item",
            "printed", "severity_rank"]
 
-SEVERITIES = ("danger", "action", "note")
+SEVERITIES = (N_("danger"), N_("action"), N_("note"))
+
+#: Names of the carburetor icing-risk bands the document gives as numbers (``icing_risk`` of its
+#: weather rows; index = band of :func:`tuning.air.icing_risk`).
+ICING_RISK_NAMES = (N_("none"), N_("light"), N_("moderate"), N_("serious"))
 
 #: code -> (severity, what it means). Stable: the CSV's ``warnings`` column carries the codes.
 CODES = {

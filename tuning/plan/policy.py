@@ -37,6 +37,8 @@ DEFAULT_CHANGE_THRESHOLD = 0.03
 #: jet (float bowl off, deeper in the body).
 WORK_MINUTES = {"mixture_screw": 5, "clip": 15, "main_jet": 10, "pilot_jet": 15}
 SCREW_MIN_MOVE = 0.5  #: smallest planned screw move [turns]; quarter-turn fiddling is not planned
+#: Screw positions closer than this are the same position [turns]: float noise, not a move.
+TURNS_NOISE = 1e-9
 _BIG = 1.0e6  # cost standing in for "unsafe, but nothing else"
 
 
@@ -141,64 +143,87 @@ def idle_sequence(cost, start_pilot, start_turns, screw_positions, pilot_penalty
     is separable (pilot change, screw change), so each step costs O(P·Q²) per bike.
     """
     b, s_count, p_count, q_count = cost.shape
-    flat = cost.reshape(b, s_count, p_count * q_count)
-    flat, unsafe = _safe_fallback(flat)
+    flat, unsafe = _safe_fallback(cost.reshape(b, s_count, p_count * q_count))
     cost = flat.reshape(b, s_count, p_count, q_count)
     pos = np.asarray(screw_positions, float)
-    gap = np.abs(pos[:, :, None] - pos[:, None, :])  # (B, Q, Q): to q from q'
-    movable = (gap >= SCREW_MIN_MOVE - 1e-9) | np.eye(q_count, dtype=bool)[None]
-    movable &= np.isfinite(gap)
-    rows = np.arange(b)
-
-    def transition(value):
-        """Best previous state for each (p, q): (cost, previous p, previous q)."""
-        # screw only (same pilot): min over q' with an allowed move
-        masked = np.where(movable[:, None, :, :], value[:, :, None, :], np.inf)  # (B, P, Q, Q')
-        same_q_eye = np.eye(q_count, dtype=bool)[None, None]
-        screw_only = np.where(same_q_eye, np.inf, masked)
-        sq_arg = np.argmin(screw_only, axis=-1)  # (B, P, Q)
-        sq_val = np.take_along_axis(screw_only, sq_arg[..., None], axis=-1)[..., 0] + screw_penalty
-        # pilot only (same screw position)
-        pj_arg = np.argmin(value, axis=1)  # (B, Q)
-        pj_val = np.take_along_axis(value, pj_arg[:, None, :], axis=1)[:, 0, :] + pilot_penalty  # (B, Q)
-        # both: best over pilots first, then over allowed screw moves
-        both = np.where(movable & ~np.eye(q_count, dtype=bool)[None], pj_val[:, None, :] - pilot_penalty, np.inf)
-        bq_arg = np.argmin(both, axis=-1)  # (B, Q)
-        bq_val = np.take_along_axis(both, bq_arg[..., None], axis=-1)[..., 0] + pilot_penalty + screw_penalty
-        options = np.stack([
-            value,
-            sq_val,
-            np.broadcast_to(pj_val[:, None, :], value.shape),
-            np.broadcast_to(bq_val[:, None, :], value.shape),
-        ])  # (4, B, P, Q)
-        which = np.argmin(options, axis=0)  # stay wins ties: fewer changes
-        best = np.take_along_axis(options, which[None], axis=0)[0]
-        p_idx = np.broadcast_to(np.arange(p_count)[None, :, None], value.shape)
-        q_idx = np.broadcast_to(np.arange(q_count)[None, None, :], value.shape)
-        prev_p = np.select([which == 0, which == 1, which == 2], [p_idx, p_idx, np.broadcast_to(pj_arg[:, None, :], value.shape)],
-                           np.broadcast_to(pj_arg[rows[:, None], bq_arg][:, None, :], value.shape))
-        prev_q = np.select([which == 0, which == 1, which == 2], [q_idx, sq_arg, q_idx],
-                           np.broadcast_to(bq_arg[:, None, :], value.shape))
-        return best, prev_p, prev_q
-
-    # into session 0 from the fitted state (start_pilot -1: the fitted pilot is not a candidate)
-    pilot_change = np.arange(p_count)[None, :] != start_pilot[:, None]  # (B, P)
-    moved = np.abs(pos - np.asarray(start_turns, float)[:, None])  # (B, Q)
-    screw_change = moved > 1e-9
-    screw_ok = ~screw_change | (moved >= SCREW_MIN_MOVE - 1e-9)
-    entry = (pilot_penalty * pilot_change[:, :, None] + screw_penalty * screw_change[:, None, :]
-             + np.where(screw_ok, 0.0, np.inf)[:, None, :])
-    value = _unstuck(cost[:, 0] + entry, cost[:, 0])
+    movable = _screw_moves(pos)
+    value = _unstuck(cost[:, 0] + _first_change_cost(p_count, start_pilot, start_turns, pos, pilot_penalty, screw_penalty),
+                     cost[:, 0])
     from_p = np.zeros((b, s_count, p_count, q_count), np.int64)
     from_q = np.zeros((b, s_count, p_count, q_count), np.int64)
     for s in range(1, s_count):
-        best, from_p[:, s], from_q[:, s] = transition(value)
+        best, from_p[:, s], from_q[:, s] = _idle_transition(value, movable, pilot_penalty, screw_penalty)
         new = cost[:, s] + best
         stuck = ~np.isfinite(new).reshape(b, -1).any(axis=1)
         if stuck.any():  # no allowed move reaches an allowed state: come from the best previous state
             prev = np.argmin(value.reshape(b, -1), axis=1)
             from_p[stuck, s], from_q[stuck, s] = (x[stuck, None, None] for x in np.divmod(prev, q_count))
         value = _unstuck(new, cost[:, s] + np.nanmin(np.where(np.isfinite(value), value, np.inf).reshape(b, -1), axis=1)[:, None, None])
+    pilot, screw = _idle_trace_back(value, from_p, from_q)
+    return pilot, screw, unsafe
+
+
+def _screw_moves(pos):
+    """(B, Q, Q): whether the screw may go to position q from q' (no move, or at least
+    :data:`SCREW_MIN_MOVE` turns between positions that exist)."""
+    q_count = pos.shape[1]
+    gap = np.abs(pos[:, :, None] - pos[:, None, :])  # (B, Q, Q): to q from q'
+    movable = (gap >= SCREW_MIN_MOVE - TURNS_NOISE) | np.eye(q_count, dtype=bool)[None]
+    movable &= np.isfinite(gap)
+    return movable
+
+
+def _first_change_cost(p_count, start_pilot, start_turns, pos, pilot_penalty, screw_penalty):
+    """(B, P, Q): the penalty of going into the first session from the fitted state (``start_pilot``
+    -1: the fitted pilot is not a candidate); ``inf`` where the screw would move less than
+    :data:`SCREW_MIN_MOVE`."""
+    pilot_change = np.arange(p_count)[None, :] != start_pilot[:, None]  # (B, P)
+    moved = np.abs(pos - np.asarray(start_turns, float)[:, None])  # (B, Q)
+    screw_change = moved > TURNS_NOISE
+    screw_ok = ~screw_change | (moved >= SCREW_MIN_MOVE - TURNS_NOISE)
+    return (pilot_penalty * pilot_change[:, :, None] + screw_penalty * screw_change[:, None, :]
+            + np.where(screw_ok, 0.0, np.inf)[:, None, :])
+
+
+def _idle_transition(value, movable, pilot_penalty, screw_penalty):
+    """Best previous state for each (p, q) of a session: (cost, previous p, previous q), each (B, P, Q).
+    A step keeps both, moves the screw only, changes the pilot only, or both; staying wins ties."""
+    b, p_count, q_count = value.shape
+    rows = np.arange(b)
+    # screw only (same pilot): min over q' with an allowed move
+    masked = np.where(movable[:, None, :, :], value[:, :, None, :], np.inf)  # (B, P, Q, Q')
+    same_q_eye = np.eye(q_count, dtype=bool)[None, None]
+    screw_only = np.where(same_q_eye, np.inf, masked)
+    sq_arg = np.argmin(screw_only, axis=-1)  # (B, P, Q)
+    sq_val = np.take_along_axis(screw_only, sq_arg[..., None], axis=-1)[..., 0] + screw_penalty
+    # pilot only (same screw position)
+    pj_arg = np.argmin(value, axis=1)  # (B, Q)
+    pj_val = np.take_along_axis(value, pj_arg[:, None, :], axis=1)[:, 0, :] + pilot_penalty  # (B, Q)
+    # both: best over pilots first, then over allowed screw moves
+    both = np.where(movable & ~np.eye(q_count, dtype=bool)[None], pj_val[:, None, :] - pilot_penalty, np.inf)
+    bq_arg = np.argmin(both, axis=-1)  # (B, Q)
+    bq_val = np.take_along_axis(both, bq_arg[..., None], axis=-1)[..., 0] + pilot_penalty + screw_penalty
+    options = np.stack([
+        value,
+        sq_val,
+        np.broadcast_to(pj_val[:, None, :], value.shape),
+        np.broadcast_to(bq_val[:, None, :], value.shape),
+    ])  # (4, B, P, Q)
+    which = np.argmin(options, axis=0)  # stay wins ties: fewer changes
+    best = np.take_along_axis(options, which[None], axis=0)[0]
+    p_idx = np.broadcast_to(np.arange(p_count)[None, :, None], value.shape)
+    q_idx = np.broadcast_to(np.arange(q_count)[None, None, :], value.shape)
+    prev_p = np.select([which == 0, which == 1, which == 2], [p_idx, p_idx, np.broadcast_to(pj_arg[:, None, :], value.shape)],
+                       np.broadcast_to(pj_arg[rows[:, None], bq_arg][:, None, :], value.shape))
+    prev_q = np.select([which == 0, which == 1, which == 2], [q_idx, sq_arg, q_idx],
+                       np.broadcast_to(bq_arg[:, None, :], value.shape))
+    return best, prev_p, prev_q
+
+
+def _idle_trace_back(value, from_p, from_q):
+    """(pilot, screw) per bike and session, each (B, S): the best last state and the way back to it."""
+    b, s_count, _p_count, q_count = from_p.shape
+    rows = np.arange(b)
     pilot = np.zeros((b, s_count), np.int64)
     screw = np.zeros((b, s_count), np.int64)
     last = _richest_argmin(value.reshape(b, -1))
@@ -207,4 +232,4 @@ def idle_sequence(cost, start_pilot, start_turns, screw_positions, pilot_penalty
         p, q = pilot[:, s], screw[:, s]
         pilot[:, s - 1] = from_p[rows, s, p, q]
         screw[:, s - 1] = from_q[rows, s, p, q]
-    return pilot, screw, unsafe
+    return pilot, screw

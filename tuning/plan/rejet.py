@@ -16,7 +16,7 @@ import warnings
 
 import numpy as np
 
-from tuning import air, carb
+from tuning import air, metering
 from tuning.constants import ZERO_CELSIUS
 from tuning.plan.document import jet_number
 from tuning.plan.window import LEAN_GUARD
@@ -25,6 +25,10 @@ __all__ = ["SHIFT_RANGE_K", "rejet_thresholds"]
 
 SHIFT_RANGE_K = 40.0  #: largest temperature shift searched each way [K]
 _ITERATIONS = 20  # 40 K / 2**20: far below the printed 0.1 K
+#: Half the printed step (0.1 K): ``below`` is rounded after taking this off, ``above`` after
+#: adding it, so each threshold prints at or beyond its computed value on the side away from the
+#: run's forecast (about a floor and a ceiling to 0.1 K).
+PRINT_HALF_STEP_K = 0.05
 
 
 def rejet_thresholds(fleet, rows, hours, refs, meter, main):
@@ -35,9 +39,26 @@ def rejet_thresholds(fleet, rows, hours, refs, meter, main):
     """
     n = len(rows.bike)
     out = {k: [None] * n for k in ("below", "below_jet", "above", "above_jet")}
-    if n == 0:
-        return out
-    s_count = rows.n_sessions
+    group, run = _run_groups(rows, hours, main)
+    sizes_up, sizes_dn = _neighbour_sizes(fleet, main, run["first_row"])
+    colder, warmer = _shifts(rows, hours, refs, meter, main, run, sizes_dn)
+    below = np.round(run["t_min"] + np.minimum(colder, 0.0) - ZERO_CELSIUS - PRINT_HALF_STEP_K, 1)
+    above = np.round(run["t_max"] + np.maximum(warmer, 0.0) - ZERO_CELSIUS + PRINT_HALF_STEP_K, 1)
+    has_up = np.isfinite(colder) & np.isfinite(sizes_up)
+    has_dn = np.isfinite(warmer) & (warmer > 0.0) & np.isfinite(sizes_dn)
+    for r in range(n):
+        g = group[r]
+        if has_up[g]:
+            out["below"][r], out["below_jet"][r] = float(below[g]), jet_number(sizes_up[g])
+        if has_dn[g]:
+            out["above"][r], out["above_jet"][r] = float(above[g]), jet_number(sizes_dn[g])
+    return out
+
+
+def _run_groups(rows, hours, main):
+    """The runs of sessions sharing a main jet: the run of each row, and per run its densest hour
+    (``hour``), its temperature range (``t_min``, ``t_max`` [K]) and its first row (``first_row``)."""
+    n, s_count = len(rows.bike), rows.n_sessions
     run = _runs(main.recommended.reshape(-1, s_count)).ravel()  # run id per row (within its bike)
     key = rows.bike * s_count + run
     # the densest hour of each run, and the run's temperature range
@@ -59,8 +80,12 @@ def rejet_thresholds(fleet, rows, hours, refs, meter, main):
     np.maximum.at(run_tmax, group, t_row_max)
     first_row = np.zeros(len(uniq), np.int64)
     first_row[group[::-1]] = np.arange(n)[::-1]
+    return group, {"hour": run_hour, "t_min": run_tmin, "t_max": run_tmax, "first_row": first_row}
 
-    sizes_up, sizes_dn = np.full(len(uniq), np.nan), np.full(len(uniq), np.nan)
+
+def _neighbour_sizes(fleet, main, first_row):
+    """Per run: the next larger and the next smaller size of the family than the fitted one (NaN: none)."""
+    sizes_up, sizes_dn = np.full(len(first_row), np.nan), np.full(len(first_row), np.nan)
     for g, r in enumerate(first_row):
         sizes = np.asarray(fleet.jet_families[main.family[r]].sizes, float)
         i = int(main.index[r])
@@ -68,6 +93,13 @@ def rejet_thresholds(fleet, rows, hours, refs, meter, main):
             sizes_up[g] = sizes[i + 1]
         if i - 1 >= 0:
             sizes_dn[g] = sizes[i - 1]
+    return sizes_up, sizes_dn
+
+
+def _shifts(rows, hours, refs, meter, main, run, sizes_dn):
+    """Per run: the temperature shifts [K] of its densest hour, ``colder`` (negative) where the fitted
+    size reaches the lean guard and ``warmer`` where the next smaller size becomes the better one."""
+    first_row, run_hour = run["first_row"], run["hour"]
     coding = main.coding[first_row]
     current = main.current[first_row]
     fitted = main.recommended[first_row]
@@ -80,13 +112,13 @@ def rejet_thresholds(fleet, rows, hours, refs, meter, main):
     ref = refs.of_bike[bike]
     p = np.asarray(hours.air.station_pressure, float)[run_hour]
     rh = np.asarray(hours.air.relative_humidity, float)[run_hour]
-    t0 = air_t[run_hour]
+    t0 = np.asarray(hours.air.air_temperature, float)[run_hour]
 
     def factor(shift):
         state = air.air_state(t0 + shift, p, relative_humidity=rh)
-        return carb.area_factor(state.dry_air_density, refs.dry[ref], state.moist_air_density, refs.moist[ref],
-                                meter.rho_event[bike], meter.rho_reference[bike], meter.afr_event[bike],
-                                meter.afr_reference[bike], meter.exponent[bike])
+        return metering.area_factor(state.dry_air_density, refs.dry[ref], state.moist_air_density, refs.moist[ref],
+                                    meter.rho_event[bike], meter.rho_reference[bike], meter.afr_event[bike],
+                                    meter.afr_reference[bike], meter.exponent[bike])
 
     # colder: the fitted size reaches the lean guard (it must change); warmer: the next smaller
     # size becomes the better one, where the lean-weighted deviations of the two sizes are equal,
@@ -98,17 +130,7 @@ def rejet_thresholds(fleet, rows, hours, refs, meter, main):
         colder = _solve(factor, d_fit * (1.0 + LEAN_GUARD), -SHIFT_RANGE_K, 0.0)
         switch = np.minimum(3.0 / (2.0 / d_dn + 1.0 / d_fit), d_dn * (1.0 + LEAN_GUARD))
         warmer = _solve(factor, switch, 0.0, SHIFT_RANGE_K)
-    below = np.round(run_tmin + np.minimum(colder, 0.0) - ZERO_CELSIUS - 0.05, 1)
-    above = np.round(run_tmax + np.maximum(warmer, 0.0) - ZERO_CELSIUS + 0.05, 1)
-    has_up = np.isfinite(colder) & np.isfinite(sizes_up)
-    has_dn = np.isfinite(warmer) & (warmer > 0.0) & np.isfinite(sizes_dn)
-    for r in range(n):
-        g = group[r]
-        if has_up[g]:
-            out["below"][r], out["below_jet"][r] = float(below[g]), jet_number(sizes_up[g])
-        if has_dn[g]:
-            out["above"][r], out["above_jet"][r] = float(above[g]), jet_number(sizes_dn[g])
-    return out
+    return colder, warmer
 
 
 def _runs(sizes):

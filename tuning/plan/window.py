@@ -11,12 +11,15 @@ from __future__ import annotations
 
 import numpy as np
 
-__all__ = ["LEAN_GUARD", "LEAN_WEIGHT", "RICH_WEIGHT", "WindowLoss", "argmin_richer", "lean_loss"]
+__all__ = ["LEAN_GUARD", "GUARD_ROUND_OFF", "LEAN_WEIGHT", "RICH_WEIGHT", "WindowLoss", "lean_loss"]
 
 #: The lean guard: no recommendation may leave any hour, opening or circuit leaner than the
 #: proven mixture by more than this fraction (our choice, err rich: the lean edge of the target
 #: band, about half a main-jet step). Where nothing at hand meets it, the plan says so (danger).
 LEAN_GUARD = 0.02
+#: Float round-off allowed when a candidate's leanest deviation is held against the lean guard
+#: (a candidate exactly at the guard is safe) [1].
+GUARD_ROUND_OFF = 1e-12
 LEAN_WEIGHT = 4.0  #: weight of a lean deviation in the cost (our choice: err rich)
 RICH_WEIGHT = 1.0  #: weight of a rich deviation
 
@@ -101,9 +104,3 @@ class WindowLoss:
         delivered = np.asarray(delivered, float)
         largest = self.largest[idx].reshape((len(idx),) + (1,) * (delivered.ndim - 1))
         return largest / delivered - 1.0
-
-
-def argmin_richer(loss):
-    """Index of the minimum along the last axis; exact ties go to the last (richer) index."""
-    k = loss.shape[-1]
-    return k - 1 - np.argmin(loss[..., ::-1], axis=-1)

@@ -297,10 +297,11 @@ def build_from_plan(plan: dict, out_dir: str | Path, paper: str = "a4", quiet: b
                   "plan_path": "../recommendations.json", "out_dir": "..", "paper": paper,
                   "units": units, "language": language}
         parts = shards(bikes, workers)
-        sheet_notebooks = [f"setup-sheets-{i}.ipynb" for i in range(1, len(parts) + 1)]
-        html_names = [n.replace(".ipynb", ".html") for n in ["fleet-report.ipynb", *sheet_notebooks]]
-        jobs = [("fleet-report.ipynb", "fleet-report.ipynb", {**common, "notebooks": html_names})]
-        jobs += [("setup-sheets.ipynb", name, {**common, "bikes": part}) for name, part in zip(sheet_notebooks, parts)]
+        sheets_stem = resources.SETUP_SHEETS.removesuffix(".ipynb")
+        sheet_notebooks = [f"{sheets_stem}-{i}.ipynb" for i in range(1, len(parts) + 1)]
+        html_names = [n.replace(".ipynb", ".html") for n in [resources.FLEET_REPORT, *sheet_notebooks]]
+        jobs = [(resources.FLEET_REPORT, resources.FLEET_REPORT, {**common, "notebooks": html_names})]
+        jobs += [(resources.SETUP_SHEETS, name, {**common, "bikes": part}) for name, part in zip(sheet_notebooks, parts)]
         step = "notebooks"
         _run_jobs(jobs, tmp, bikes, names, quiet)
         step = "notebook export to HTML"
@@ -326,7 +327,7 @@ def build_from_plan(plan: dict, out_dir: str | Path, paper: str = "a4", quiet: b
         if isinstance(exc, OSError) and exc.errno is not None:
             raise output.os_problem("--out", out, exc) from exc
         raise BuildError(f"build failed at step '{step}': {type(exc).__name__}: {exc}") from exc
-    return BuildResult(out, len(bikes), int(plan.get("warnings_count", 0)),
+    return BuildResult(out, len(bikes), int(plan["warnings_count"]),
                        time.perf_counter() - started, font_subsetter(), units, language)
 
 

@@ -21,11 +21,10 @@ from tuning import __version__
 from tuning.display import METRIC_EN, N_, Display
 from tuning.errors import BuildError, UserError
 from tuning.gcpause import gc_paused
+from tuning.plan.document import FORMAT as PLAN_FORMAT  # the one format this report reads
 from tuning.report import charts, tables
 from tuning.report.names import safe_file_names, safe_stem
 
-#: The plan document format this report reads (see tuning/schemas/recommendations.schema.json).
-PLAN_FORMAT = "carbfleet-plan/3"
 PAPER_SIZES = {"a4": "A4 portrait", "letter": "letter portrait"}
 SHEET_WORD = N_("sheet")  # in a sheet's page footer: "<event> · sheet T01"
 SUMMARY_WORD = N_("fleet summary")  # in the summary's page footer
@@ -165,7 +164,7 @@ def load_plan(fleet_path: str = "", event_path: str = "", plan_path: str = "") -
 
 def _stamp(plan: dict) -> str:
     """The date written into PDF metadata: the first session's start (not the clock)."""
-    return plan["sessions"][0]["start"] if plan.get("sessions") else "2000-01-01T00:00:00+00:00"
+    return plan["sessions"][0]["start"]
 
 
 def _reference_text(ref: dict, d: Display = METRIC_EN) -> str:
@@ -201,12 +200,11 @@ def _common(plan: dict, paper: str, title: str | None, page_numbers: bool = True
     }
 
 
-DENSITIES = ("normal", "compact", "tight", "compact split", "tight split")
-
-
 def pages_allowed(density: str) -> int:
     """Pages a sheet of this layout may take: 1, or 2 where the form moves to a second page."""
     return 2 if "split" in density.split() else 1
+
+
 #: The layouts tried in turn until a sheet fits one page: (density, condense level). The last
 #: ones name the repeats of a warning in later sessions instead of writing them out (every session
 #: stays named), and at last give the notes by code alone; the plan files and the fleet summary
@@ -231,7 +229,7 @@ def sheet_html(plan: dict, entries: list[dict], paper: str = "a4", density: str 
     index = _index(plan)
     bike = entries[0]["bike"]
     rows = tables.sheet_rows(entries, index["records"].get(bike), index["work"].get(bike, ()), condense,
-                             display, plan.get("sessions", ()))
+                             display, plan["sessions"])
     # One page by design: no "page n of m" footer (it costs WeasyPrint a second layout pass).
     context = _common(plan, paper, None, page_numbers=False, display=display, reference=entries[0]["reference"])
     context.update(s=rows, density=density,
@@ -359,7 +357,7 @@ def sheet_shape(plan: dict, entries: list[dict]) -> tuple:
     bike = entries[0]["bike"]
     record = index["records"].get(bike) or {}
     return (
-        len(entries), len(entries[0].get("notes") or "") // 60,
+        len(entries), len(entries[0]["notes"] or "") // 60,
         tuple(len(e["warnings"]) for e in entries),
         sum(len(w["message"]) for e in entries for w in e["warnings"]) // 120,
         len(record.get("notices", ())),

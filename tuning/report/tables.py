@@ -5,9 +5,8 @@ from __future__ import annotations
 import datetime as dt
 from collections import OrderedDict
 
-from tuning.air import ICING_RISK_NAMES
 from tuning.display import METRIC_EN, N_, Display
-from tuning.plan.notices import CODES, SEVERITIES, say_item, severity_rank
+from tuning.plan.notices import CODES, ICING_RISK_NAMES, SEVERITIES, say_item, severity_rank
 
 CIRCUITS = (
     ("main_jet", N_("Main jet")),
@@ -19,11 +18,12 @@ _DAYS = (N_("Mon"), N_("Tue"), N_("Wed"), N_("Thu"), N_("Fri"), N_("Sat"), N_("S
 _MONTHS = (N_("Jan"), N_("Feb"), N_("Mar"), N_("Apr"), N_("May"), N_("Jun"), N_("Jul"), N_("Aug"), N_("Sep"),
            N_("Oct"), N_("Nov"), N_("Dec"))
 _QUARTERS = {0: "", 1: "¼", 2: "½", 3: "¾"}
+#: Turns within this of a quarter are that quarter [turns] (the document rounds turns to 2 decimals).
+_QUARTER_EXACT = 1e-6
+#: Float round-off ignored when a throttle opening or an air–fuel ratio of the document is
+#: compared with a range's edge [1].
+_ROUND_OFF = 1e-9
 
-#: The words of :data:`tuning.air.ICING_RISK_NAMES` and :data:`tuning.plan.notices.SEVERITIES`,
-#: marked for the message catalogue (a test keeps them equal to their sources).
-ICING_WORDS = (N_("none"), N_("light"), N_("moderate"), N_("serious"))
-SEVERITY_WORDS = (N_("danger"), N_("action"), N_("note"))
 
 #: What the sheets, the summary and ``carbfleet plan`` say where a fleet keeps no stock list.
 NO_STOCK_LIST = N_("no stock list kept")
@@ -34,7 +34,7 @@ def turns(value, display: Display = METRIC_EN) -> str:
     if value is None:
         return "–"
     quarters = round(abs(value) * 4)
-    if abs(abs(value) * 4 - quarters) < 1e-6:
+    if abs(abs(value) * 4 - quarters) < _QUARTER_EXACT:
         whole, part = divmod(quarters, 4)
         text = (str(whole) if whole or not part else "") + _QUARTERS[part]
         return ("−" if value < 0 else "") + text
@@ -146,9 +146,9 @@ def plan_index(plan: dict) -> dict:
 
     ``{"records": {bike: record}, "work": {bike: [(order, bike_row), ...]}}``, transitions in order.
     """
-    records = {b["bike"]: b for b in plan.get("bikes", [])}
+    records = {b["bike"]: b for b in plan["bikes"]}
     work: dict[str, list] = {}
-    for order in plan.get("work_orders", []):
+    for order in plan["work_orders"]:
         for row in order["bikes"]:
             work.setdefault(row["bike"], []).append((order, row))
     return {"records": records, "work": work}
@@ -282,7 +282,7 @@ def verdicts(entry: dict, d: Display) -> list[dict]:
     lo, hi = curve["target_band_afr"]
     out = []
     for start, end, name, circuit in THROTTLE_RANGES:
-        afr = [a for t, a in zip(curve["throttle"], curve["recommended_afr"]) if start - 1e-9 <= t <= end + 1e-9]
+        afr = [a for t, a in zip(curve["throttle"], curve["recommended_afr"]) if start - _ROUND_OFF <= t <= end + _ROUND_OFF]
         out.append(dict(_verdict(min(afr), max(afr), lo, hi, d), range=d._(name), circuit=d._(circuit)))
     proven = curve["current_afr"]
     out.append(dict(_verdict(min(proven), max(proven), lo, hi, d), range=d._("proven settings"), circuit=""))
@@ -292,9 +292,9 @@ def verdicts(entry: dict, d: Display) -> list[dict]:
 def _verdict(richest: float, leanest: float, lo: float, hi: float, d: Display) -> dict:
     """``LEAN 13.1`` (leaner than the band somewhere: the leanest ratio), ``rich 11.6`` (richer
     than the band: the richest), or ``ok 12.0…12.4`` (within it)."""
-    if leanest > hi + 1e-9:
+    if leanest > hi + _ROUND_OFF:
         return {"kind": "lean", "text": d._("LEAN %(afr)s") % {"afr": d.number(leanest, 1)}}
-    if richest < lo - 1e-9:
+    if richest < lo - _ROUND_OFF:
         return {"kind": "rich", "text": d._("rich %(afr)s") % {"afr": d.number(richest, 1)}}
     low, high = d.number(richest, 1), d.number(leanest, 1)
     return {"kind": "ok", "text": d._("ok %(afr)s") % {"afr": low if low == high else f"{low}…{high}"}}
@@ -322,6 +322,29 @@ def sheet_rows(entries: list[dict], record: dict | None = None, work=None, conde
     """
     d = display
     first = entries[0]
+    sessions = _session_rows(entries, plan_sessions, d)
+    float_levels = [e["settings"]["float_level_mm"] for e in entries]
+    checks = _checks(entries, condense, d)
+    warning_rows = _warning_rows(entries, record, condense, d)
+    danger = [w for w in warning_rows if w["severity"] == "danger"]
+    form, back = _form_rows(entries, work, d)
+    return {
+        "bike": first["bike"], "model": first["model"], "notes": first["notes"] or "",
+        "strokes": first["strokes"], "premix_ratio": first["premix_ratio"],
+        "density_exponent": d.number(first["density_exponent"], 2), "reference": first["reference"],
+        "sessions": sessions, "circuits": _circuit_rows(entries, d),
+        "power_out_of_range": not all(x["power_in_range"] for x in sessions),
+        "float_level": d.number(float_levels[0], 1, "mm") if float_levels[0] is not None else d._("not given"),
+        "rejet": _rejet_rows(entries, d), "checks": checks, "danger": danger, "notes_by_code": condense >= NOTES_BY_CODE_LEVEL,
+        "warnings": [w for w in warning_rows if w["severity"] != "danger"],
+        "form": form, "back_to_proven": back, "fields": FORM_FIELDS,
+        "band": first["mixture_curve"]["target_band_afr"],
+        "stock_kept": any(e["settings"][k].get("in_stock") is not None for e in entries for k in ("main_jet", "pilot_jet")),
+    }
+
+
+def _session_rows(entries, plan_sessions, d) -> list[dict]:
+    """Per session: its time, air, what to do and the verdicts (the sheet's session table)."""
     by_name = {x["name"]: x for x in plan_sessions}
     sessions = []
     for e in entries:
@@ -330,19 +353,25 @@ def sheet_rows(entries: list[dict], record: dict | None = None, work=None, conde
         changes = change_headline(e["settings"], d)
         sessions.append({
             "name": e["session"], "window": window(e["start"], e["end"], d),
-            "air_words": air_words(sm.get("air_density_vs_reference_pct"), d),
+            "air_words": air_words(sm["air_density_vs_reference_pct"], d),
             "do": ", ".join(changes) if changes else d._("proven settings, nothing to change"),
             "changed": bool(changes),
             "air_temperature": d.temperature_span(sm["air_temperature_C_min"], sm["air_temperature_C_max"]),
             "station_pressure": d.pressure(sm["station_pressure_hPa_mean"]),
             "relative_humidity": d.percent(sm["relative_humidity_pct_mean"]),
             "density_altitude": d.elevation_span(sm["density_altitude_m_min"], sm["density_altitude_m_max"]),
-            "air_vs_home": d.percent(sm.get("air_density_vs_reference_pct"), signed=True),
+            "air_vs_home": d.percent(sm["air_density_vs_reference_pct"], signed=True),
             "factor": f"{d.number(sm['area_factor_mean'], 3)} ({d.number(sm['area_factor_min'], 3)}…{d.number(sm['area_factor_max'], 3)})",
             "power": d.percent(common.get("power_vs_sae_j1349_pct")),
             "power_in_range": common.get("sae_j1349_within_range", True),
             "verdicts": verdicts(e, d),
         })
+    return sessions
+
+
+def _circuit_rows(entries, d) -> list[dict]:
+    """Per circuit: its label, the proven setting and a cell per session (the sheet's settings table)."""
+    first = entries[0]
     circuits = []
     for key, label in CIRCUITS:
         s0 = first["settings"][key]
@@ -368,7 +397,11 @@ def sheet_rows(entries: list[dict], record: dict | None = None, work=None, conde
                 "changed": _changed(key, s), "source": source, "to_order": to_order,
             })
         circuits.append({"key": key, "label": title, "detail": detail, "current": _circuit_value(key, s0, "current", unit=False), "cells": cells})
-    float_levels = [e["settings"].get("float_level_mm") for e in entries]
+    return circuits
+
+
+def _rejet_rows(entries, d) -> list[dict]:
+    """The change-again temperatures in words, one line for sessions in a row that say the same."""
     rejet = []
     for e in entries:
         r = e["rejet_temperatures_C"]
@@ -386,7 +419,12 @@ def sheet_rows(entries: list[dict], record: dict | None = None, work=None, conde
             rejet.append({"names": [e["session"]], "text": text})
     for r in rejet:
         r["session"] = d._("all sessions") if len(r["names"]) == len(entries) > 1 else ", ".join(r["names"])
-    checks = _checks(entries, condense, d)
+    return rejet
+
+
+def _warning_rows(entries, record, condense, d) -> list[dict]:
+    """The session warnings grouped over sessions and the bike's notices, the most severe first,
+    shortened as ``condense`` asks."""
     all_sessions = [e["session"] for e in entries]
     grouped = _grouped_warnings(entries, d)
     warning_rows = []
@@ -402,21 +440,7 @@ def sheet_rows(entries: list[dict], record: dict | None = None, work=None, conde
         warning_rows = [dict(w, message="") if w["severity"] == "note" else w for w in warning_rows]
     for w in warning_rows:
         w["severity_text"] = d._(w["severity"])
-    danger = [w for w in warning_rows if w["severity"] == "danger"]
-    form, back = _form_rows(entries, work, d)
-    return {
-        "bike": first["bike"], "model": first["model"], "notes": first.get("notes") or "",
-        "strokes": first["strokes"], "premix_ratio": first.get("premix_ratio"),
-        "density_exponent": d.number(first["density_exponent"], 2), "reference": first["reference"],
-        "sessions": sessions, "circuits": circuits,
-        "power_out_of_range": not all(x["power_in_range"] for x in sessions),
-        "float_level": d.number(float_levels[0], 1, "mm") if float_levels[0] is not None else d._("not given"),
-        "rejet": rejet, "checks": checks, "danger": danger, "notes_by_code": condense >= NOTES_BY_CODE_LEVEL,
-        "warnings": [w for w in warning_rows if w["severity"] != "danger"],
-        "form": form, "back_to_proven": back, "fields": FORM_FIELDS,
-        "band": first["mixture_curve"]["target_band_afr"],
-        "stock_kept": any(e["settings"][k].get("in_stock") is not None for e in entries for k in ("main_jet", "pilot_jet")),
-    }
+    return warning_rows
 
 
 def change_set(entries: list[dict]) -> tuple:
@@ -487,7 +511,7 @@ def summary_rows(plan: dict, file_names: dict[str, str], display: Display = METR
         "icing_risk": f"{w['icing_risk']} ({d._(ICING_RISK_NAMES[w['icing_risk']])})",
     } for w in plan["weather"] if session_of(w["time"])]
     sessions = [{"name": s["name"], "window": window(s["start"], s["end"], d),
-                 "power": d.percent(s.get("power_vs_sae_j1349_pct")), "power_in_range": s.get("sae_j1349_within_range", True)}
+                 "power": d.percent(s["power_vs_sae_j1349_pct"]), "power_in_range": s["sae_j1349_within_range"]}
                 for s in plan["sessions"]]
     kept = stock_kept(plan)
     to_order = sum(p["to_order"] or 0 for p in plan["pick_list"])
@@ -511,7 +535,7 @@ def danger_rows(plan: dict, by_bike: dict, file_names: dict[str, str], d: Displa
     warnings of the first such session in full, and the codes of the others (the warnings list
     and the sheet give them in full)."""
     rows = []
-    for record in plan.get("bikes", []):
+    for record in plan["bikes"]:
         if not record["danger"]:
             continue
         entries = by_bike.get(record["bike"], [])
@@ -547,7 +571,7 @@ def warning_groups(plan: dict, by_bike: dict, display: Display = METRIC_EN) -> d
         for w in e["warnings"]:
             found.setdefault((w["severity"], w["code"], say_item(w, display)), OrderedDict()).setdefault(e["bike"], []).append(e["session"])
             count[w["severity"]] += 1
-    for record in plan.get("bikes", []):
+    for record in plan["bikes"]:
         for w in record["notices"]:
             found.setdefault((w["severity"], w["code"], say_item(w, display)), OrderedDict())[record["bike"]] = None
             count[w["severity"]] += 1
@@ -570,9 +594,9 @@ def warning_groups(plan: dict, by_bike: dict, display: Display = METRIC_EN) -> d
 def work_order_rows(plan: dict, file_names: dict[str, str], d: Display = METRIC_EN) -> list[dict]:
     """The plan's work orders for print: per transition its label and total time, then one row
     per bike with its minutes and the plan's words for each change."""
-    danger = {b["bike"] for b in plan.get("bikes", []) if b["danger"]}
+    danger = {b["bike"] for b in plan["bikes"] if b["danger"]}
     orders = []
-    for order in plan.get("work_orders", []):
+    for order in plan["work_orders"]:
         rows = [{"bike": row["bike"], "file": file_names.get(row["bike"], ""), "danger": row["bike"] in danger,
                  "minutes": minutes(row["minutes"]), "changes": [say_item(c, d) for c in row["changes"]]}
                 for row in order["bikes"]]
