@@ -44,6 +44,7 @@ from tuning.config.spec import (
     structural_problems,
     top_level_keys,
 )
+from tuning.constants import DEFAULT_REFERENCE_AFR, METERING_LAW_EXPONENT
 from tuning.errors import ConfigError, Problem, WrongFileError
 from tuning.fuel import blend
 
@@ -125,8 +126,9 @@ PREMIX = Custom(
     colon_as_text=True,
 )
 DENSITY_EXPONENT = Number(
-    "Exponent on the air-density ratio (0 < n <= 1.5); 0.5 is the metering law, workshop rules correct harder. "
-    "A bike's value wins over its model's, a model's over the fleet's; 0.5 when none is given.", 0.0, 1.5, exclusive_minimum=True)
+    f"Exponent on the air-density ratio (0 < n <= 1.5); {METERING_LAW_EXPONENT:g} is the metering law, workshop rules "
+    f"correct harder. A bike's value wins over its model's, a model's over the fleet's; {METERING_LAW_EXPONENT:g} when "
+    "none is given.", 0.0, 1.5, exclusive_minimum=True)
 CHANGE_POLICY = Choice(model.CHANGE_POLICIES, "How often settings change over an event: event (one setting per "
                        "bike unless a change pays for its work; the default) or session (the best per session).")
 CHANGE_THRESHOLD = Number("Mixture improvement a main-jet change between sessions must bring, as a fraction "
@@ -283,7 +285,7 @@ class FleetFile(FileModel):
     fleet: Text("Name of the fleet.")
     reference: Conditions
     density_exponent: DENSITY_EXPONENT = None
-    reference_afr: Number("Air-fuel mass ratio the proven settings are assumed to give (default 12.0).", 8.0, 20.0) = None
+    reference_afr: Number(f"Air-fuel mass ratio the proven settings are assumed to give (default {DEFAULT_REFERENCE_AFR:.1f}).", 8.0, 20.0) = None
     change_policy: CHANGE_POLICY = None
     change_threshold: CHANGE_THRESHOLD = None
     premix: PREMIX = None
@@ -616,7 +618,7 @@ def read_stock(items: list[dict], families, ctx: Context) -> dict[tuple[str, flo
 def _build(raw, fuels, families, needles, stock, path) -> model.Fleet:
     """Assemble the typed objects (only called on a file without problems)."""
     reference = make_conditions(raw["reference"], None)
-    fleet_exponent = raw.get("density_exponent", 0.5)
+    fleet_exponent = raw.get("density_exponent", METERING_LAW_EXPONENT)
     fleet_premix = raw.get("premix")
     models = {}
     for name, m in raw["models"].items():

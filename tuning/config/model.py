@@ -21,6 +21,8 @@ from typing import Literal
 
 import numpy as np
 
+from tuning.constants import DEFAULT_REFERENCE_AFR, METERING_LAW_EXPONENT
+
 PressureKind = Literal["station", "qnh", "sea_level"]
 HumidityKind = Literal["relative", "dew_point"]
 
@@ -160,9 +162,9 @@ class Fleet:
     models: Mapping[str, Model]
     bikes: tuple[Bike, ...]
     stock: Mapping[tuple[str, float], int]  # (family, size) -> count on the shelf
-    density_exponent: float = 0.5
+    density_exponent: float = METERING_LAW_EXPONENT
     source: Path | None = None
-    reference_afr: float = 12.0  # [1] air-fuel mass ratio the proven settings are assumed to give
+    reference_afr: float = DEFAULT_REFERENCE_AFR  # [1] air-fuel mass ratio the proven settings are assumed to give
     change_policy: str | None = None  # one of CHANGE_POLICIES; None: the default (event)
     change_threshold: float | None = None  # [1] mixture gain a main-jet change must bring; None: default
 
