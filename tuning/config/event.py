@@ -8,7 +8,11 @@ be left out only when every session time (and every weather row) carries an offs
 words; the command line's ``--units`` and ``--language`` win (:func:`tuning.config.display_for`).
 
 ``weather`` is either the path of a CSV table, relative to the event file (see
-:mod:`tuning.config.weather`), or ``{metar: [report, ...]}``.
+:mod:`tuning.config.weather`), or ``{metar: [report, ...]}``; it holds at ``weather_elevation``
+(the site's elevation when left out).
+
+Where the sessions are ridden (``elevation: {min, max}`` or ``route: file.gpx``, per session or for
+the whole event) and ``lapse_rate``: :mod:`tuning.config.heights`.
 
 Every session must lie inside the weather samples, with no gap longer than
 :data:`tuning.config.weather.MAX_GAP` (3 hours) between samples inside the session: the plan
@@ -25,6 +29,7 @@ import numpy as np
 
 from tuning.config import model
 from tuning.config.fleet import CHANGE_POLICY, CHANGE_THRESHOLD, ELEVATION_RANGE, refuse_other_kind
+from tuning.config.heights import LAPSE_RATE, WEATHER_ELEVATION, height_fields, profile_of
 from tuning.config.limits import MAX_BIKE_HOURS, MAX_BIKE_SESSIONS, MAX_METAR_REPORTS, MAX_SESSIONS
 from tuning.config.source import display_name, load_yaml
 from tuning.config.spec import (
@@ -51,6 +56,7 @@ SESSION = Obj(
         "name": Field(Text("Name of the session, unique in the event."), True),
         "start": Field(Text("Start, ISO 8601 in the site's time zone unless an offset is given, e.g. '2026-06-13 09:00'."), True),
         "end": Field(Text("End, after the start."), True),
+        **height_fields(),
     },
     description="A riding session.",
 )
@@ -95,6 +101,9 @@ def event_spec() -> Obj:
             ),
             "units": Field(UNITS),
             "language": Field(LANGUAGE),
+            **height_fields(),
+            "weather_elevation": Field(WEATHER_ELEVATION),
+            "lapse_rate": Field(LAPSE_RATE),
         },
         description="A carbfleet event file.",
     )
@@ -147,6 +156,7 @@ def load_event(path, fleet: model.Fleet | None = None) -> model.Event:
 
     sessions: list[tuple[int, model.Session]] = []
     names: dict[str, int] = {}
+    event_heights = profile_of(raw, "", path, ctx)
     for i, s in enumerate(raw.get("sessions", [])):
         if s is INVALID or not {"name", "start", "end"} <= s.keys():
             continue
@@ -165,7 +175,8 @@ def load_event(path, fleet: model.Fleet | None = None) -> model.Event:
         if times["end"] <= times["start"]:
             ctx.at_path(f"sessions[{i}].end", f"ends ({s['end']}) at or before it starts ({s['start']})")
             continue
-        sessions.append((i, model.Session(name=s["name"], start=times["start"], end=times["end"])))
+        heights = profile_of(s, f"sessions[{i}]", path, ctx) if {"elevation", "route"} & s.keys() else event_heights
+        sessions.append((i, model.Session(name=s["name"], start=times["start"], end=times["end"], heights=heights)))
     ordered = sorted(sessions, key=lambda item: item[1].start)
     for (i0, a), (i1, b) in zip(ordered, ordered[1:]):
         if b.start < a.end:
@@ -181,10 +192,11 @@ def load_event(path, fleet: model.Fleet | None = None) -> model.Event:
 
     weather, weather_problems = None, []
     source = raw.get("weather")
+    forecast_elevation = raw.get("weather_elevation", site.get("elevation"))  # where the forecast holds
     if isinstance(source, str) and zone is not False:
         csv_path = Path(path).parent / source
         try:
-            weather, weather_problems = read_weather_csv(csv_path, zone or None, site.get("elevation"))
+            weather, weather_problems = read_weather_csv(csv_path, zone or None, forecast_elevation)
         except ConfigError as exc:  # missing or unreadable table: said at the line that names it
             for p in exc.problems:
                 if p.line is None:
@@ -197,7 +209,7 @@ def load_event(path, fleet: model.Fleet | None = None) -> model.Event:
                         "see FORMATS.md); give the reports around the event's sessions only")
         elif sessions:
             weather = read_metar(source["metar"], min(s.start for _, s in sessions), ctx, "weather.metar",
-                                 site.get("elevation"))
+                                 forecast_elevation)
         elif not ctx.problems:
             ctx.at_path("weather.metar", "METAR reports carry no month; it is taken from the sessions, which are missing")
 
@@ -218,6 +230,8 @@ def load_event(path, fleet: model.Fleet | None = None) -> model.Event:
         change_threshold=raw.get("change_threshold"),
         units=raw.get("units"),
         language=raw.get("language"),
+        weather_elevation=raw.get("weather_elevation"),
+        lapse_rate=raw.get("lapse_rate"),
     )
 
 
@@ -234,7 +248,7 @@ def _check_size(bikes: int, sessions: list[model.Session], ctx: Context) -> None
         ctx.at_path("sessions", f"{bikes:,} bikes × {len(sessions):,} sessions is {entries:,} bike-sessions, more than "
                     f"the limit of {MAX_BIKE_SESSIONS:,} (see FORMATS.md); plan fewer bikes or sessions at a time")
         return
-    hours = sum(_session_hours(s) for s in sessions)
+    hours = sum(_session_hours(s) * (len(s.heights.elevations) if s.heights else 1) for s in sessions)
     if bikes * hours > MAX_BIKE_HOURS:
         ctx.at_path("sessions", f"{bikes:,} bikes × {hours:,} session hours is {bikes * hours:,} bike-hours, more than "
                     f"the limit of {MAX_BIKE_HOURS:,} (see FORMATS.md); plan fewer bikes or shorter sessions at a time")
