@@ -136,6 +136,10 @@ def assemble(fleet, event, rows, hours, refs, main, idle, clip, curves, rejet, a
     stats = _session_stats(hours, s_count)
     for d, stat in zip(session_dicts, stats):
         d.update(power_vs_sae_j1349_pct=stat["power_vs_sae_j1349_pct"], sae_j1349_within_range=stat["sae_j1349_within_range"])
+    ridden = _session_heights(event, hours, s_count)
+    for d, where in zip(session_dicts, ridden):
+        if where is not None:
+            d["heights"] = {k: v for k, v in where.items() if k != "densest_level"}
     pilot = idle.pilot
     main_steps, pilot_steps = _steps(fleet, main), _steps(fleet, pilot)
     req_r = np.round(rows.required, 4)
@@ -156,9 +160,11 @@ def assemble(fleet, event, rows, hours, refs, main, idle, clip, curves, rejet, a
             b, s = int(rows.bike[r]), int(rows.session[r])
             bike, st, stat = fleet.bikes[b], settings[r], stats[s]
             model = fleet.models[bike.model]
-            n_h = int(rows.valid[r].sum())
+            n_h = int(hours.hours_per_level[s]) if hours.hours_per_level else int(rows.valid[r].sum())
             base = hours.offsets[s]
-            hours_out = [dict(h, area_factor=f) for h, f in zip(hour_base[base: base + n_h], req_r[r, :n_h].tolist())]
+            first = n_h * (ridden[s]["densest_level"] if ridden[s] is not None else 0)  # the hours at the densest height
+            hours_out = [dict(h, area_factor=f) for h, f in zip(hour_base[base + first: base + first + n_h],
+                                                                 req_r[r, first: first + n_h].tolist())]
             found = []  # warnings of this entry, bike-level ones set aside
             main_out = _jet_dict(fleet, main, main_cols, r, "main_jet", sources, has_stock, sessions[s].name, found)
             pilot_out = _jet_dict(fleet, pilot, pilot_cols, r, "pilot_jet", sources, has_stock, sessions[s].name, found)
@@ -207,6 +213,8 @@ def assemble(fleet, event, rows, hours, refs, main, idle, clip, curves, rejet, a
                 "checks": checks,
                 "warnings": session_warnings,
             })
+            if ridden[s] is not None:
+                entries[-1]["heights"] = _entry_heights(ridden[s], rows, hours, refs, main, r, n_h)
 
     bikes_out = []
     for bike in fleet.bikes:
@@ -230,6 +238,54 @@ def assemble(fleet, event, rows, hours, refs, main, idle, clip, curves, rejet, a
         "bikes": bikes_out,
         "warnings_count": warnings_count,
         "entries": entries,
+    }
+
+
+def _session_heights(event, hours, s_count):
+    """Per session where it is ridden, or None where at the site's elevation with the forecast
+    holding there (the document as before): the heights, their shares, the densest height, the
+    route's profile, where the forecast holds and the lapse rate used."""
+    forecast = getattr(event, "forecast_elevation", event.site.elevation)
+    carried = forecast != event.site.elevation
+    lapse = getattr(event, "lapse_rate", None)
+    lapse = constants.STANDARD_LAPSE_RATE if lapse is None else lapse
+    dry = np.asarray(hours.air.dry_air_density, float) if s_count else np.zeros(0)
+    out = []
+    for s in range(s_count):
+        profile = getattr(event.sessions[s], "heights", None)
+        if profile is None and not carried:
+            out.append(None)
+            continue
+        levels, n_h, base = hours.levels[s], hours.hours_per_level[s], hours.offsets[s]
+        shares = profile.shares if profile is not None else (1.0,)
+        densest = int(np.argmax([dry[base + k * n_h: base + (k + 1) * n_h].max() for k in range(len(levels))]))
+        out.append({
+            "source": profile.source if profile is not None else "site",
+            "route": profile.route if profile is not None else None,
+            "elevation_m_min": rounded(min(levels), 1), "elevation_m_max": rounded(max(levels), 1),
+            "set_for_elevation_m": rounded(levels[densest], 1),
+            "weather_elevation_m": rounded(forecast, 1), "lapse_rate_K_per_km": rounded(lapse * 1000.0, 2),
+            "levels": [{"elevation_m": rounded(z, 1), "share": rounded(w, 4)} for z, w in zip(levels, shares)],
+            "profile_m": [[rounded(d, 0), rounded(z, 1)] for d, z in (profile.profile if profile is not None else ())],
+            "densest_level": densest,
+        })
+    return out
+
+
+def _entry_heights(where, rows, hours, refs, main, r, n_h):
+    """A bike's session over its heights: the range, the height its settings are made for (the
+    densest), and at the highest point how rich the main jet runs and the power against the bike's
+    reference (means over the session's hours)."""
+    top = int(np.argmax(hours.levels[int(rows.session[r])]))
+    cols = slice(top * n_h, (top + 1) * n_h)
+    f_top = rows.required[r, cols]
+    cf_top = np.asarray(hours.air.sae_j1349_cf, float)[rows.index[r, cols]]
+    ref_cf = refs.sae_cf[refs.of_bike[rows.bike[r]]]
+    return {
+        "source": where["source"], "elevation_m_min": where["elevation_m_min"], "elevation_m_max": where["elevation_m_max"],
+        "set_for_elevation_m": where["set_for_elevation_m"],
+        "rich_at_highest_pct": rounded(100.0 * np.mean(main.delivered[r] / f_top - 1.0), 1),
+        "power_at_highest_pct": rounded(100.0 * np.mean(ref_cf / cf_top), 1),
     }
 
 
@@ -515,7 +571,8 @@ def _weather_rows(event, hours, refs, zone):
     idx = np.arange(max(first, 0), min(last, len(wt) - 1) + 1)
     with pywarnings.catch_warnings():  # the same air as the session hours: warned there already
         pywarnings.simplefilter("ignore", air.OutOfRangeWarning)
-        w_air = air_at(event.weather, event.site.elevation, wt[idx], str(event.source or event.name))
+        w_air = air_at(event.weather, getattr(event, "forecast_elevation", event.site.elevation), wt[idx],
+                       str(event.source or event.name))
     w_factor = carb.area_factor(w_air.dry_air_density, refs.dry[refs.fleet], w_air.moist_air_density,
                                 refs.moist[refs.fleet], density_exponent=0.5)
     fields = _air_fields(w_air)
