@@ -12,7 +12,8 @@ from pathlib import Path
 __all__ = ["notebook", "demo_file", "DEMO_FILES", "NOTEBOOK_NAMES"]
 
 #: The demo scenario's files (an invented fleet, site and weather), in ``tuning/demo/``.
-DEMO_FILES = ("demo-fleet.yaml", "demo-event.yaml", "demo-event-metar.yaml", "demo-weather.csv")
+DEMO_FILES = ("demo-fleet.yaml", "demo-event.yaml", "demo-event-metar.yaml", "demo-weather.csv",
+              "demo-trail-event.yaml", "demo-trail-weather.csv", "demo-trail-route.gpx")
 #: The parameterised notebooks the build runs, in ``tuning/notebooks/``.
 NOTEBOOK_NAMES = ("fleet-report.ipynb", "setup-sheets.ipynb")
 
