@@ -26,7 +26,9 @@ demo: $(STAMP)
 	$(VENV)/bin/carbfleet build tuning/demo/demo-fleet.yaml tuning/demo/demo-event.yaml --out out
 	$(VENV)/bin/carbfleet build tuning/demo/demo-fleet.yaml tuning/demo/demo-event.yaml --out out-us --units us
 	$(VENV)/bin/carbfleet build tuning/demo/demo-fleet.yaml tuning/demo/demo-event.yaml --out out-de --language de
-	@echo "open out/index.html (metric, English), out-us/index.html (US units), out-de/index.html (German)"
+	$(VENV)/bin/carbfleet build tuning/demo/demo-fleet.yaml tuning/demo/demo-trail-event.yaml --out out-trail
+	@echo "open out/index.html (metric, English), out-us/index.html (US units), out-de/index.html (German),"
+	@echo "     out-trail/index.html (a trail day over a GPX route and a range of heights)"
 
 test: $(TESTSTAMP)
 	$(PY) -m ruff check tuning tests benchmarks
@@ -49,7 +51,7 @@ messages: $(STAMP)
 		--no-fuzzy-matching
 
 clean:
-	rm -rf out out-us out-de .pytest_cache
+	rm -rf out out-us out-de out-trail .pytest_cache
 
 distclean: clean
 	rm -rf $(VENV) .venv-* *.egg-info build dist

@@ -339,3 +339,88 @@ def test_air_state_against_coolprop_one_point():
     x_v = float(air.vapour_mole_fraction(state.vapour_pressure, 86_500.0, 297.15))
     assert float(state.moist_air_density) == pytest.approx(coolprop_density(297.15, 86_500.0, x_v), rel=3e-4)
     assert float(state.density_altitude) > float(state.pressure_altitude)  # warm air: thinner than ISA
+
+
+# --- the air at another height (issue 13) --------------------------------------------------
+# Carrying the table's air from one height to another must land on the table again: USSA_TABLE
+# above (U.S. Standard Atmosphere 1976, table I, from memory), layer 0 (lapse 6.5 K/km).
+_HEIGHT_PAIRS = [(a, b) for a in (0.0, 1000.0, 2000.0, 3000.0) for b in (0.0, 1000.0, 2000.0, 3000.0, 5000.0) if a != b]
+
+
+def _table_row(z):
+    return next(row for row in USSA_TABLE if row[0] == z)
+
+
+@pytest.mark.parametrize(("from_z", "to_z"), _HEIGHT_PAIRS)
+def test_carried_temperature_and_pressure_against_ussa_1976(from_z, to_z):
+    """USSA-1976 table I (from memory): start from the table's T and p at one height, carry them
+    with the standard lapse rate, and read the other height's printed T (±0.001 K, 3 decimals)
+    and p (± one unit in the 5th digit)."""
+    _, t0, p0, _, _ = _table_row(from_z)
+    _, t1, p1, _, _ = _table_row(to_z)
+    t = air.temperature_at_height(t0, from_z, to_z)
+    p = air.pressure_at_height(p0, t0, from_z, to_z)
+    assert t == pytest.approx(t1, abs=1.5e-3)  # both ends rounded to 3 decimals
+    digit = 10.0 ** (np.floor(np.log10(p1)) - 4)
+    assert p == pytest.approx(p1, abs=1.5 * digit)  # both ends rounded to 5 digits
+
+
+@pytest.mark.parametrize(("pressure_hpa", "rise_m"), [(1013.25, 500.0), (900.0, 1000.0), (850.0, -800.0), (800.0, 1500.0)])
+def test_carried_pressure_against_metpy_add_height_to_pressure(pressure_hpa, rise_m):
+    """MetPy's ``add_height_to_pressure`` (its standard atmosphere: 288 K at 1013.25 hPa, 6.5 K/km):
+    start at the pressure's standard-atmosphere height and temperature. Tolerance 0.02 %: MetPy takes
+    the heights as geopotential, we convert geometric ones (0.6 m in 1000 m at 2 km)."""
+    p0 = metpy_units.Quantity(pressure_hpa, "hPa")
+    z0 = metpy_calc.pressure_to_height_std(p0).m_as("m")
+    t0 = 288.0 - 6.5e-3 * z0
+    expected = metpy_calc.add_height_to_pressure(p0, metpy_units.Quantity(rise_m, "m")).m_as("Pa")
+    got = air.pressure_at_height(pressure_hpa * 100.0, t0, z0, z0 + rise_m)
+    assert got == pytest.approx(expected, rel=2e-4)
+
+
+def test_carried_air_below_the_station_is_warmer_and_denser():
+    """The direction that hurts engines: a route 500 m below the weather station is warmer by
+    6.5 K/km × 0.5 km = 3.25 K (USSA-1976 lapse, table 4) yet denser, so it needs richer settings."""
+    t, p, rh = 288.15 - 9.75, 84_559.0, 0.5  # USSA-1976 at 1500 m (from memory), half saturated
+    t_low = air.temperature_at_height(t, 1500.0, 1000.0)
+    p_low = air.pressure_at_height(p, t, 1500.0, 1000.0)
+    assert t_low - t == pytest.approx(3.25, abs=0.002)  # 6.5 K/km; geopotential shortens 500 m by 0.2 m
+    e = air.vapour_pressure_from_relative_humidity(rh, t)
+    e_low = air.vapour_pressure_at_height(e, p, p_low, t_low)
+    high, low = air.air_state(t, p, dew_point=air.dew_point_from_vapour_pressure(e)), \
+        air.air_state(t_low, p_low, dew_point=air.dew_point_from_vapour_pressure(e_low))
+    assert p_low > p
+    assert low.dry_air_density[()] > high.dry_air_density[()] * 1.04  # USSA-1976: 1.1117 / 1.0581 - 1 = 5 %
+
+
+def test_isothermal_lapse_rate_is_the_limit_of_small_ones():
+    """Eq. 33b (Γ = 0) continues eq. 33a (USSA-1976): a lapse rate of 1e-7 K/m gives the same pressure."""
+    tiny = air.pressure_at_height(90_000.0, 280.0, 1000.0, 2500.0, lapse_rate=1e-7)
+    flat = air.pressure_at_height(90_000.0, 280.0, 1000.0, 2500.0, lapse_rate=0.0)
+    assert tiny == pytest.approx(flat, rel=1e-7)
+    # hypsometric equation by hand: scale height R T / g = 287.05 × 280 / 9.80665 = 8195.8 m (USSA constants)
+    assert flat == pytest.approx(90_000.0 * np.exp(-1500.0 * 0.99976 / 8195.8), rel=2e-4)
+
+
+@pytest.mark.parametrize(("t_c", "rh", "rise_m"), [(10.0, 0.9, 1000.0), (25.0, 0.8, 2000.0), (5.0, 1.0, 800.0),
+                                                   (20.0, 0.3, -600.0), (0.0, 0.6, 1500.0)])
+def test_carried_humidity_keeps_the_mixing_ratio_until_saturation(t_c, rh, rise_m):
+    """MetPy's ``mixing_ratio_from_relative_humidity`` (independent): the mixing ratio is kept where
+    the air stays unsaturated; where it would not, the relative humidity is 100 % (never more)."""
+    t0, p0 = C0 + t_c, 90_000.0
+    e0 = air.vapour_pressure_from_relative_humidity(rh, t0)
+    t1 = air.temperature_at_height(t0, 1000.0, 1000.0 + rise_m)
+    p1 = air.pressure_at_height(p0, t0, 1000.0, 1000.0 + rise_m)
+    e1 = air.vapour_pressure_at_height(e0, p0, p1, t1)
+    rh1 = air.relative_humidity_from_vapour_pressure(e1, t1)
+    assert rh1 <= 1.0 + 1e-12
+
+    def mixing(p, t, r):
+        return metpy_calc.mixing_ratio_from_relative_humidity(
+            metpy_units.Quantity(p, "Pa"), metpy_units.Quantity(t, "K"), metpy_units.Quantity(r, "")).m_as("")
+
+    w0 = mixing(p0, t0, air.relative_humidity_from_vapour_pressure(e0, t0))
+    if rh1 < 1.0 - 1e-9:
+        assert mixing(p1, t1, rh1) == pytest.approx(w0, rel=1e-3)  # MetPy's e_s differs slightly from CIPM's p_sv
+    else:
+        assert mixing(p1, t1, 1.0) < w0  # the surplus condensed

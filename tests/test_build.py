@@ -206,3 +206,32 @@ def test_output_gets_the_permissions_of_the_umask(plan, tmp_path):
     assert stat.S_IMODE(out.stat().st_mode) == 0o755
     for path in out.rglob("*"):
         assert stat.S_IMODE(path.stat().st_mode) == (0o755 if path.is_dir() else 0o644), path
+
+
+def test_the_trail_demo_builds_from_the_example_copy_and_shows_its_heights(tmp_path):
+    """The invented trail-ride demo (a GPX route and a range of heights; issue 13), copied by
+    ``carbfleet example`` and built: every sheet shows where each session is ridden and the height
+    set for. The route's lowest and highest points are read here from the GPX file with the
+    standard library's XML parser (not gpxpy, which the loader uses)."""
+    import xml.etree.ElementTree as ET
+
+    from tuning.cli import main
+
+    assert main(["example", str(tmp_path / "demo")]) == 0
+    demo = tmp_path / "demo"
+    ns = {"g": "http://www.topografix.com/GPX/1/1"}
+    heights = [float(e.text) for e in ET.parse(demo / "demo-trail-route.gpx").getroot().iterfind(".//g:trkpt/g:ele", ns)]
+    low, high = min(heights), max(heights)
+    out = tmp_path / "out-trail"
+    assert main(["build", str(demo / "demo-fleet.yaml"), str(demo / "demo-trail-event.yaml"), "--out", str(out), "--quiet"]) == 0
+    doc = json.loads((out / "recommendations.json").read_text())
+    loop = next(s for s in doc["sessions"] if s["heights"]["source"] == "route")
+    assert (loop["heights"]["elevation_m_min"], loop["heights"]["elevation_m_max"]) == (round(low, 1), round(high, 1))
+    sheets = sorted((out / "sheets").glob("*.html"))
+    assert len(sheets) == len({e["bike"] for e in doc["entries"]}) > 0
+    said = f"ridden {low:.0f}…{high:.0f} m; set for {low:.0f} m; at {high:.0f} m "
+    for sheet in sheets:
+        assert said in html.unescape(sheet.read_text()), sheet.name
+        assert (out / "sheets" / (sheet.stem + ".pdf")).stat().st_size > 0
+    summary = html.unescape((out / "fleet-summary.html").read_text())
+    assert "Where the sessions are ridden" in summary and "Route profile: demo-trail-route.gpx" in summary

@@ -371,6 +371,24 @@ def test_sorted_window_loss_equals_the_sum_over_hours(factors, delivered):
     np.testing.assert_allclose(got, expected, rtol=1e-9, atol=1e-12)
 
 
+@settings(max_examples=30, deadline=None)
+@given(
+    samples=st.lists(st.tuples(st.floats(0.6, 1.4), st.floats(0.0, 1.0)), min_size=1, max_size=12),
+    delivered=st.lists(st.floats(0.5, 1.5), min_size=1, max_size=6),
+)
+def test_weighted_window_loss_equals_the_weighted_sum_over_samples(samples, delivered):
+    """Samples of a session ridden over several heights count by their share of the hour; the
+    leanest deviation still sees every sample, even one of share 0 (the densest point governs)."""
+    factors, shares = [f for f, _ in samples], [w for _, w in samples]
+    expected = [sum(w * (4.0 if f > d else 1.0) * (f / d - 1.0) ** 2 for f, w in samples) for d in delivered]
+    required = np.array([factors + [0.9, 1.1]])  # two padding samples
+    valid = np.array([[True] * len(factors) + [False, False]])
+    weights = np.array([shares + [5.0, 5.0]])  # padding weights must not count
+    window = plan.WindowLoss(required, valid, weights)
+    np.testing.assert_allclose(window(np.array([delivered]))[0], expected, rtol=1e-9, atol=1e-12)
+    np.testing.assert_allclose(window.leanest(np.array([delivered]))[0], [max(factors) / d - 1.0 for d in delivered])
+
+
 @pytest.mark.parametrize("screw_kind", ["air", "fuel"])
 def test_screw_before_pilot_when_the_screw_can_reach(screw_kind):
     # Workshop order (common practice): trim with the mixture screw; change the pilot jet only

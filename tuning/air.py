@@ -40,6 +40,9 @@ __all__ = [
     "vapour_pressure_from_relative_humidity",
     "vapour_pressure_from_dew_point",
     "dew_point_from_vapour_pressure",
+    "temperature_at_height",
+    "pressure_at_height",
+    "vapour_pressure_at_height",
     "relative_humidity_from_vapour_pressure",
     "vapour_mole_fraction",
     "compressibility_factor",
@@ -879,6 +882,139 @@ class AirState:
     density_altitude: np.ndarray  # [m, geopotential], from the moist-air density
     sae_j1349_cf: np.ndarray  # [1]
     icing_risk: np.ndarray  # int, 0..3: none, light, moderate, serious
+
+
+# --- the air at another height -------------------------------------------------------------
+def temperature_at_height(air_temperature, from_elevation, to_elevation, lapse_rate=c.STANDARD_LAPSE_RATE):
+    r"""Air temperature carried from one height to another along a constant lapse rate.
+
+    Parameters
+    ----------
+    air_temperature : array_like
+        Air temperature at ``from_elevation`` [K].
+    from_elevation, to_elevation : array_like
+        Geometric heights above mean sea level [m] (converted to geopotential inside).
+    lapse_rate : array_like
+        Decrease of temperature with height :math:`\Gamma = -dT/dz` [K/m]; positive cools
+        upwards (the standard atmosphere's 0.0065), 0 isothermal, negative an inversion.
+
+    Returns
+    -------
+    numpy.ndarray
+        Air temperature at ``to_elevation`` [K].
+
+    Notes
+    -----
+    :math:`T = T_b - \Gamma (H - H_b)` in geopotential metres; the standard atmosphere's
+    linear temperature profile with :math:`L_{M,b} = -\Gamma`. The sign is the meteorologists':
+    a route below the weather's height is warmer by :math:`\Gamma` per metre.
+
+    References
+    ----------
+    .. [1] U.S. Standard Atmosphere, 1976, NOAA-S/T 76-1562, eq. 23 (linear temperature in a
+       layer) and eq. 18 (geopotential altitude).
+    """
+    temperature = _array(air_temperature, "air_temperature")
+    _require_positive(temperature, "air_temperature", "K")
+    rise = _geopotential_rise(from_elevation, to_elevation)
+    result = temperature - np.asarray(lapse_rate, float) * rise
+    _require_positive(result, "air_temperature at the new height", "K")
+    return _result(result)
+
+
+def pressure_at_height(station_pressure, air_temperature, from_elevation, to_elevation,
+                       lapse_rate=c.STANDARD_LAPSE_RATE):
+    r"""Pressure carried from one height to another (hypsometric equation, linear temperature).
+
+    Parameters
+    ----------
+    station_pressure : array_like
+        Pressure at ``from_elevation`` [Pa].
+    air_temperature : array_like
+        Air temperature at ``from_elevation`` [K].
+    from_elevation, to_elevation : array_like
+        Geometric heights above mean sea level [m].
+    lapse_rate : array_like
+        Decrease of temperature with height [K/m] (see :func:`temperature_at_height`).
+
+    Returns
+    -------
+    numpy.ndarray
+        Pressure at ``to_elevation`` [Pa].
+
+    Notes
+    -----
+    Hydrostatic balance of an ideal gas whose temperature is linear in geopotential height:
+    :math:`p = p_b \, (T / T_b)^{g_0 M_0 / (R^* \Gamma)}` with :math:`T` from
+    :func:`temperature_at_height` (USSA-1976 eq. 33a with :math:`L_{M,b} = -\Gamma`), and for
+    :math:`\Gamma = 0` :math:`p = p_b \exp(-g_0 M_0 (H - H_b) / (R^* T_b))` (eq. 33b). Dry air's
+    molar mass is used for the column; the vapour in it lowers its mean molar mass by under
+    0.5 %, which changes 1000 m of pressure difference by under 0.1 % (estimate).
+
+    References
+    ----------
+    .. [1] U.S. Standard Atmosphere, 1976, NOAA-S/T 76-1562, eq. 33a and 33b.
+    """
+    pressure = _array(station_pressure, "station_pressure")
+    temperature = _array(air_temperature, "air_temperature")
+    _require_positive(pressure, "station_pressure", "Pa")
+    _require_positive(temperature, "air_temperature", "K")
+    gamma = np.asarray(lapse_rate, float)
+    rise = _geopotential_rise(from_elevation, to_elevation)
+    g_m_r = c.STANDARD_GRAVITY * c.USSA_AIR_MOLAR_MASS / c.USSA_GAS_CONSTANT  # [K/m]
+    top = temperature - gamma * rise
+    _require_positive(top, "air_temperature at the new height", "K")
+    flat = np.abs(gamma) < 1e-9
+    with np.errstate(divide="ignore", invalid="ignore"):
+        linear = pressure * (top / temperature) ** (g_m_r / np.where(flat, 1.0, gamma))
+    isothermal = pressure * np.exp(-g_m_r * rise / temperature)
+    return _result(np.where(flat, isothermal, linear))
+
+
+def vapour_pressure_at_height(vapour_pressure, station_pressure, pressure_at_new_height, temperature_at_new_height):
+    r"""Vapour pressure at another height, keeping the mixing ratio, never above saturation.
+
+    Parameters
+    ----------
+    vapour_pressure : array_like
+        Vapour pressure where the weather was given [Pa].
+    station_pressure : array_like
+        Pressure where the weather was given [Pa].
+    pressure_at_new_height : array_like
+        Pressure at the new height [Pa] (:func:`pressure_at_height`).
+    temperature_at_new_height : array_like
+        Air temperature at the new height [K] (:func:`temperature_at_height`).
+
+    Returns
+    -------
+    numpy.ndarray
+        Vapour pressure [Pa], at most :math:`p_{sv}(T)` (relative humidity at most 1).
+
+    Notes
+    -----
+    The mixing ratio :math:`w = \varepsilon e / (p - e)` is what an air parcel keeps when it
+    moves up or down without condensing; constant :math:`w` means constant :math:`e/p`, so
+    :math:`e = e_b \, p / p_b`. Where that exceeds saturation at the new temperature the
+    surplus is taken as condensed (cloud, fog) and :math:`e = p_{sv}(T)`. Keeping the dew point
+    instead would keep :math:`e`; the two differ by :math:`e_b (1 - p/p_b)`, under 1 hPa for
+    1000 m and 15 hPa of vapour, which moves the dry-air density by under 0.1 %.
+
+    References
+    ----------
+    .. [1] WMO, Guide to Instruments and Methods of Observation (WMO-No. 8), annex 4.B
+       (mixing ratio, from memory); Picard et al., Metrologia 45 (2008) 149, eq. A1.2 (p_sv).
+    """
+    vapour = _array(vapour_pressure, "vapour_pressure")
+    _require_non_negative(vapour, "vapour_pressure", "Pa")
+    carried = vapour * _array(pressure_at_new_height, "pressure_at_new_height") / _array(station_pressure, "station_pressure")
+    return _result(np.minimum(carried, saturation_vapour_pressure(temperature_at_new_height)))
+
+
+def _geopotential_rise(from_elevation, to_elevation):
+    """Geopotential height of ``to_elevation`` above ``from_elevation`` [m] (negative below)."""
+    below = _array(from_elevation, "from_elevation")
+    above = _array(to_elevation, "to_elevation")
+    return np.asarray(geopotential_altitude(above), float) - np.asarray(geopotential_altitude(below), float)
 
 
 def air_state(air_temperature, station_pressure, *, relative_humidity=None, dew_point=None):

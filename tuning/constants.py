@@ -68,6 +68,9 @@ ISA_SEA_LEVEL_TEMPERATURE = 288.15
 ISA_SEA_LEVEL_PRESSURE = 101_325.0
 #: Temperature lapse rate of the first layer, 0–11 km geopotential [K/m] (USSA-1976 table 4).
 ISA_LAPSE_RATE = -6.5e-3
+#: Default lapse rate for carrying a forecast to other heights, as a decrease with height
+#: Γ = −dT/dz [K/m]: the standard atmosphere's 6.5 K/km (USSA-1976 table 4, L = −6.5 K/km).
+STANDARD_LAPSE_RATE = -ISA_LAPSE_RATE
 #: Top of the first layer (the troposphere) [m, geopotential] (USSA-1976 table 4).
 ISA_TROPOPAUSE = 11_000.0
 #: Bottom of the tabulated standard atmosphere [m, geometric] (USSA-1976 tables start at -5 km).

@@ -169,6 +169,12 @@ class Display:
             return self.number(mm / MM_PER_IN, digits + 2, "in")
         return self.number(mm, digits, "mm")
 
+    def lapse_rate(self, k_per_km) -> str:
+        """A decrease of temperature with height: ``6.5 K/km`` or ``3.6 °F/1000 ft``."""
+        if self.units == "us":
+            return self.number(self.temperature_step(k_per_km) * M_PER_FT, 1, "°F/1000 ft")
+        return self.number(k_per_km, 1, "K/km")
+
     def percent(self, value, digits: int = 0, signed: bool = False) -> str:
         """``12 %`` from 12 (not from 0.12)."""
         return self.number(value, digits, "%", signed)

@@ -8,7 +8,11 @@ be left out only when every session time (and every weather row) carries an offs
 words; the command line's ``--units`` and ``--language`` win (:func:`tuning.config.display_for`).
 
 ``weather`` is either the path of a CSV table, relative to the event file (see
-:mod:`tuning.config.weather`), or ``{metar: [report, ...]}``.
+:mod:`tuning.config.weather`), or ``{metar: [report, ...]}``; it holds at ``weather_elevation``
+(the site's elevation when left out).
+
+Where the sessions are ridden (``elevation: {min, max}`` or ``route: file.gpx``, per session or for
+the whole event) and ``lapse_rate``: :mod:`tuning.config.heights`.
 
 Every session must lie inside the weather samples, with no gap longer than
 :data:`tuning.config.weather.MAX_GAP` (3 hours) between samples inside the session: the plan
@@ -25,6 +29,7 @@ from pydantic import Field
 
 from tuning.config import model
 from tuning.config.fleet import CHANGE_POLICY, CHANGE_THRESHOLD, refuse_other_kind
+from tuning.config.heights import LAPSE_RATE, ROUTE, WEATHER_ELEVATION, ElevationSpan, profile_of
 from tuning.config.limits import MAX_BIKE_HOURS, MAX_BIKE_SESSIONS, MAX_METAR_REPORTS, MAX_SESSIONS
 from tuning.config.quantities import FILE_RANGES
 from tuning.config.source import display_name, load_yaml
@@ -54,6 +59,8 @@ class Session(FileModel):
     name: Text("Name of the session, unique in the event.")
     start: Text("Start, ISO 8601 in the site's time zone unless an offset is given, e.g. '2026-06-13 09:00'.")
     end: Text("End, after the start.")
+    elevation: ElevationSpan = None
+    route: ROUTE = None
 
 
 class Site(FileModel):
@@ -94,6 +101,10 @@ class EventFile(FileModel):
                     "Weather: a CSV path, or {metar: [reports]}.")
     units: UNITS = None
     language: LANGUAGE = None
+    elevation: ElevationSpan = None
+    route: ROUTE = None
+    weather_elevation: WEATHER_ELEVATION = None
+    lapse_rate: LAPSE_RATE = None
 
 
 def _zone(name: str | None, ctx: Context):
@@ -142,7 +153,8 @@ def load_event(path, fleet: model.Fleet | None = None) -> model.Event:
     raw = checked.model_dump(exclude_unset=True)
     site = raw["site"]
     zone = _zone(site.get("time_zone"), ctx)
-    sessions = _sessions(raw["sessions"], zone, ctx)
+    event_heights = profile_of(raw, "", path, ctx)
+    sessions = _sessions(raw["sessions"], zone, ctx, path, event_heights)
     if fleet is not None and sessions:
         _check_size(len(fleet.bikes), [s for _, s in sessions], ctx)
     fuel = raw.get("fuel")
@@ -150,7 +162,8 @@ def load_event(path, fleet: model.Fleet | None = None) -> model.Event:
         ctx.at_path("fuel", f"unknown fuel '{fuel}'{did_you_mean(fuel, fleet.fuels)}; {known_list(fleet.fuels)}")
     weather, weather_problems = None, []
     if zone is not False:
-        weather, weather_problems = _weather(raw["weather"], Path(path), zone, site["elevation"], sessions, ctx)
+        forecast_elevation = raw.get("weather_elevation", site["elevation"])  # where the forecast holds
+        weather, weather_problems = _weather(raw["weather"], Path(path), zone, forecast_elevation, sessions, ctx)
     if weather is not None:
         _check_coverage(weather, sessions, ctx)
     problems = sorted(ctx.problems, key=_line_key) + sorted(weather_problems, key=_line_key)
@@ -167,11 +180,14 @@ def load_event(path, fleet: model.Fleet | None = None) -> model.Event:
         change_threshold=raw.get("change_threshold"),
         units=raw.get("units"),
         language=raw.get("language"),
+        weather_elevation=raw.get("weather_elevation"),
+        lapse_rate=raw.get("lapse_rate"),
     )
 
 
-def _sessions(raw: list[dict], zone, ctx: Context) -> list[tuple[int, model.Session]]:
-    """(index in the file, session) of every session whose times read; problems into ``ctx``."""
+def _sessions(raw: list[dict], zone, ctx: Context, path, event_heights) -> list[tuple[int, model.Session]]:
+    """(index in the file, session) of every session whose times read; problems into ``ctx``. A
+    session's own heights win over the event's ``event_heights``."""
     sessions: list[tuple[int, model.Session]] = []
     names: dict[str, int] = {}
     for i, s in enumerate(raw):
@@ -190,7 +206,8 @@ def _sessions(raw: list[dict], zone, ctx: Context) -> list[tuple[int, model.Sess
         if times["end"] <= times["start"]:
             ctx.at_path(f"sessions[{i}].end", f"ends ({s['end']}) at or before it starts ({s['start']})")
             continue
-        sessions.append((i, model.Session(name=s["name"], start=times["start"], end=times["end"])))
+        heights = profile_of(s, f"sessions[{i}]", path, ctx) if {"elevation", "route"} & s.keys() else event_heights
+        sessions.append((i, model.Session(name=s["name"], start=times["start"], end=times["end"], heights=heights)))
     ordered = sorted(sessions, key=lambda item: item[1].start)
     for (i0, a), (i1, b) in zip(ordered, ordered[1:]):
         if b.start < a.end:
@@ -233,7 +250,7 @@ def _check_size(bikes: int, sessions: list[model.Session], ctx: Context) -> None
         ctx.at_path("sessions", f"{bikes:,} bikes × {len(sessions):,} sessions is {entries:,} bike-sessions, more than "
                     f"the limit of {MAX_BIKE_SESSIONS:,} (see FORMATS.md); plan fewer bikes or sessions at a time")
         return
-    hours = sum(_session_hours(s) for s in sessions)
+    hours = sum(_session_hours(s) * (len(s.heights.elevations) if s.heights else 1) for s in sessions)
     if bikes * hours > MAX_BIKE_HOURS:
         ctx.at_path("sessions", f"{bikes:,} bikes × {hours:,} session hours is {bikes * hours:,} bike-hours, more than "
                     f"the limit of {MAX_BIKE_HOURS:,} (see FORMATS.md); plan fewer bikes or shorter sessions at a time")

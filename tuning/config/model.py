@@ -177,10 +177,28 @@ class Site:
 
 
 @dataclass(frozen=True)
+class HeightProfile:
+    """Where a session is ridden: the heights it reaches and the share of the time at each.
+
+    ``elevations`` [m] ascending, from the lowest point reached to the highest; ``shares`` [1]
+    sum to 1 (a share may be 0: a route's top is kept so that the thinnest air is seen).
+    ``source`` is ``range`` (an ``elevation: {min, max}``) or ``route`` (a GPX file, named in
+    ``route``); ``profile`` holds a route's (distance [m], elevation [m]) points for its chart.
+    """
+
+    elevations: tuple[float, ...]
+    shares: tuple[float, ...]
+    source: Literal["range", "route"]
+    route: str | None = None
+    profile: tuple[tuple[float, float], ...] = ()
+
+
+@dataclass(frozen=True)
 class Session:
     name: str
     start: datetime  # timezone-aware
     end: datetime  # timezone-aware, after start
+    heights: HeightProfile | None = None  # None: ridden at the site's elevation
 
 
 @dataclass(frozen=True, eq=False)
@@ -212,3 +230,10 @@ class Event:
     change_threshold: float | None = None  # overrides the fleet's
     units: str | None = None  # display units of the reports: "metric" or "us"; None: metric (the command line wins)
     language: str | None = None  # language of the reports: "en" or "de"; None: en (the command line wins)
+    weather_elevation: float | None = None  # [m] where the forecast holds; None: the site's elevation
+    lapse_rate: float | None = None  # [K/m] decrease of temperature with height; None: the standard 0.0065
+
+    @property
+    def forecast_elevation(self) -> float:
+        """Where the forecast holds [m]: ``weather_elevation``, else the site's elevation."""
+        return self.site.elevation if self.weather_elevation is None else self.weather_elevation

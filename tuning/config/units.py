@@ -36,7 +36,7 @@ SI_UNITS = {
 }
 
 #: How a unit is written for people where pint spells it otherwise (the one home of ``%``).
-UNIT_LABELS = {"percent": "%"}
+UNIT_LABELS = {"percent": "%", "delta_degC/km": "K/km"}
 _PINT_UNITS = {label: unit for unit, label in UNIT_LABELS.items()}
 
 #: Common spellings of the units of each default unit's dimension, for the JSON Schema's pattern
@@ -48,6 +48,7 @@ UNIT_SPELLINGS = {
     "[mass] / [length] / [time] ** 2": ("hPa", "Pa", "kPa", "mbar", "millibar", "bar", "inHg", "mmHg", "psi", "atm"),
     "[mass] / [length] ** 3": ("kg/L", "kg/l", "g/mL", "g/ml", "g/cm**3", "g/cc", "kg/m**3"),
     "[length] ** 3": ("cc", "cm**3", "mL", "ml", "L", "l", "in**3"),
+    "[temperature] / [length]": ("K/km", "K/m", "delta_degC/km"),
     "percent": ("%", "percent"),
     "angle": ("deg", "degree", "degrees", "rad", "radian", "radians"),
 }

@@ -26,7 +26,11 @@ def mixture_curves(rows, refs, hours, main, idle, clip, reference_afr) -> dict:
     worst_hour = np.argmax(np.where(rows.valid, rows.required, -np.inf), axis=1)
     worst = rows.required[np.arange(len(rows.bike)), worst_hour]
     cf_event = np.where(rows.valid, np.asarray(hours.air.sae_j1349_cf, float)[rows.index], np.nan)
-    power = 100.0 * np.nanmean(refs.sae_cf[refs.of_bike[rows.bike]][:, None] / cf_event, axis=1)
+    ratio = refs.sae_cf[refs.of_bike[rows.bike]][:, None] / cf_event
+    if rows.weight is None:
+        power = 100.0 * np.nanmean(ratio, axis=1)
+    else:  # sessions ridden over several heights: each sample by its share of the hour
+        power = 100.0 * np.nansum(ratio * rows.weight, axis=1) / np.maximum(rows.weight.sum(axis=1), 1e-300)
     return {
         "current_afr": np.repeat((reference_afr * worst)[:, None], len(THROTTLE), axis=1),
         "recommended_afr": reference_afr * worst[:, None] / delivered,

@@ -155,6 +155,7 @@ class _Columns:
     session_dicts: list  # the document's sessions, with their SAE J1349 power
     ref_dicts: list  # per reference conditions
     stats: list  # per session (_session_stats)
+    ridden: list  # per session: where it is ridden (_session_heights), or None at the site
     settings: list  # the proven settings, per row
     bike_ids: list
     hour_iso: list  # per session hour
@@ -189,10 +190,14 @@ def _columns(fleet, event, rows, hours, refs, main, idle, curves, allocation) ->
     stats = _session_stats(hours, s_count)
     for d, stat in zip(session_dicts, stats):
         d.update(power_vs_sae_j1349_pct=stat["power_vs_sae_j1349_pct"], sae_j1349_within_range=stat["sae_j1349_within_range"])
+    ridden = _session_heights(event, hours, s_count)
+    for d, where in zip(session_dicts, ridden):
+        if where is not None:
+            d["heights"] = {k: v for k, v in where.items() if k != "densest_level"}
     pilot = idle.pilot
     main_steps, pilot_steps = _steps(fleet, main), _steps(fleet, pilot)
     return _Columns(
-        zone=zone, sessions=sessions, session_dicts=session_dicts, ref_dicts=ref_dicts, stats=stats,
+        zone=zone, sessions=sessions, session_dicts=session_dicts, ref_dicts=ref_dicts, stats=stats, ridden=ridden,
         settings=[fleet.bikes[b].settings for b in rows.bike], bike_ids=[b.id for b in fleet.bikes],
         hour_iso=hour_iso, hour_base=hour_base,
         required=np.round(rows.required, 4),
@@ -228,7 +233,7 @@ def _entries(fleet, rows, hours, refs, main, idle, clip, curves, rejet, cols):
             session_warnings = _set_aside(found, bike_notices[bike.id])
             if any(w["severity"] == "danger" for w in session_warnings):
                 in_danger.add(bike.id)
-            entries.append(_entry(bike, model, rows, hours, refs, curves, rejet, cols, r, s,
+            entries.append(_entry(bike, model, rows, hours, refs, main, curves, rejet, cols, r, s,
                                   settings_out, checks, session_warnings))
     return entries, bike_notices, in_danger
 
@@ -258,14 +263,17 @@ def _set_aside(found, notices) -> list:
     return sorted((w for w in found if w["code"] not in BIKE_CODES), key=lambda w: severity_rank(w["severity"]))
 
 
-def _entry(bike, model, rows, hours, refs, curves, rejet, cols, r, s, settings_out, checks, session_warnings) -> dict:
+def _entry(bike, model, rows, hours, refs, main, curves, rejet, cols, r, s, settings_out, checks, session_warnings) -> dict:
     """One bike × session entry of the document."""
     stat = cols.stats[s]
     reference = int(refs.of_bike[int(rows.bike[r])])
-    n_h = int(rows.valid[r].sum())
+    n_h = int(hours.hours_per_level[s])
     base = hours.offsets[s]
-    hours_out = [dict(h, area_factor=f) for h, f in zip(cols.hour_base[base: base + n_h], cols.required[r, :n_h].tolist())]
-    return {
+    where = cols.ridden[s]
+    first = n_h * (where["densest_level"] if where is not None else 0)  # the hours at the densest height
+    hours_out = [dict(h, area_factor=f) for h, f in zip(cols.hour_base[base + first: base + first + n_h],
+                                                         cols.required[r, first: first + n_h].tolist())]
+    entry = {
         "bike": bike.id, "model": bike.model, "session": cols.sessions[s].name,
         "start": cols.session_dicts[s]["start"], "end": cols.session_dicts[s]["end"], "notes": bike.notes,
         "strokes": int(model.strokes),
@@ -294,6 +302,9 @@ def _entry(bike, model, rows, hours, refs, curves, rejet, cols, r, s, settings_o
         "checks": checks,
         "warnings": session_warnings,
     }
+    if where is not None:
+        entry["heights"] = _entry_heights(where, rows, hours, refs, main, r, n_h)
+    return entry
 
 
 def _bikes(fleet, bike_notices, in_danger) -> list:
@@ -303,6 +314,53 @@ def _bikes(fleet, bike_notices, in_danger) -> list:
         notices = list(bike_notices[bike.id].values())
         bikes_out.append({"bike": bike.id, "model": bike.model, "danger": bike.id in in_danger, "notices": notices})
     return bikes_out
+
+
+def _session_heights(event, hours, s_count):
+    """Per session where it is ridden, or None where at the site's elevation with the forecast
+    holding there (the document as before): the heights, their shares, the densest height, the
+    route's profile, where the forecast holds and the lapse rate used."""
+    forecast = event.forecast_elevation
+    carried = forecast != event.site.elevation
+    lapse = constants.STANDARD_LAPSE_RATE if event.lapse_rate is None else event.lapse_rate
+    dry = np.asarray(hours.air.dry_air_density, float)
+    out = []
+    for s in range(s_count):
+        profile = event.sessions[s].heights
+        if profile is None and not carried:
+            out.append(None)
+            continue
+        levels, n_h, base = hours.levels[s], hours.hours_per_level[s], hours.offsets[s]
+        shares = profile.shares if profile is not None else (1.0,)
+        densest = int(np.argmax([dry[base + k * n_h: base + (k + 1) * n_h].max() for k in range(len(levels))]))
+        out.append({
+            "source": profile.source if profile is not None else "site",
+            "route": profile.route if profile is not None else None,
+            "elevation_m_min": rounded(min(levels), 1), "elevation_m_max": rounded(max(levels), 1),
+            "set_for_elevation_m": rounded(levels[densest], 1),
+            "weather_elevation_m": rounded(forecast, 1), "lapse_rate_K_per_km": rounded(lapse * 1000.0, 2),
+            "levels": [{"elevation_m": rounded(z, 1), "share": rounded(w, 4)} for z, w in zip(levels, shares)],
+            "profile_m": [[rounded(d, 0), rounded(z, 1)] for d, z in (profile.profile if profile is not None else ())],
+            "densest_level": densest,
+        })
+    return out
+
+
+def _entry_heights(where, rows, hours, refs, main, r, n_h):
+    """A bike's session over its heights: the range, the height its settings are made for (the
+    densest), and at the highest point how rich the main jet runs and the power against the bike's
+    reference (means over the session's hours)."""
+    top = int(np.argmax(hours.levels[int(rows.session[r])]))
+    cols = slice(top * n_h, (top + 1) * n_h)
+    f_top = rows.required[r, cols]
+    cf_top = np.asarray(hours.air.sae_j1349_cf, float)[rows.index[r, cols]]
+    ref_cf = refs.sae_cf[refs.of_bike[rows.bike[r]]]
+    return {
+        "source": where["source"], "elevation_m_min": where["elevation_m_min"], "elevation_m_max": where["elevation_m_max"],
+        "set_for_elevation_m": where["set_for_elevation_m"],
+        "rich_at_highest_pct": rounded(100.0 * np.mean(main.delivered[r] / f_top - 1.0), 1),
+        "power_at_highest_pct": rounded(100.0 * np.mean(ref_cf / cf_top), 1),
+    }
 
 
 def _session_stats(hours, s_count):
@@ -581,7 +639,7 @@ def _weather_rows(event, hours, refs, zone):
     idx = np.arange(max(first, 0), min(last, len(wt) - 1) + 1)
     with pywarnings.catch_warnings():  # the same air as the session hours: warned there already
         pywarnings.simplefilter("ignore", air.OutOfRangeWarning)
-        w_air = air_at(event.weather, event.site.elevation, wt[idx], str(event.source or event.name))
+        w_air = air_at(event.weather, event.forecast_elevation, wt[idx], str(event.source or event.name))
     w_factor = metering.area_factor(w_air.dry_air_density, refs.dry[refs.fleet], w_air.moist_air_density,
                                     refs.moist[refs.fleet], density_exponent=constants.METERING_LAW_EXPONENT)
     fields = _air_fields(w_air)

@@ -104,7 +104,9 @@ class Rows:
 
     ``bike`` and ``session`` (R,) index the fleet's bikes and the event's sessions; ``index``
     and ``valid`` (R, H) point into the event's hours; ``required`` (R, H) is the required area
-    factor [1] (NaN at padding) and ``window`` its :class:`WindowLoss`.
+    factor [1] (NaN at padding) and ``window`` its :class:`WindowLoss`. ``index`` points at
+    samples (hours × heights, :class:`tuning.plan.hours.EventHours`); ``weight`` (R, H) holds
+    their shares where some session is ridden over several heights, else None (every sample 1).
     """
 
     bike: np.ndarray
@@ -115,6 +117,7 @@ class Rows:
     window: WindowLoss
     n_bikes: int
     n_sessions: int
+    weight: np.ndarray | None = None
 
     @property
     def largest(self) -> np.ndarray:
@@ -140,5 +143,8 @@ def rows_of(fleet, hours, refs, meter) -> Rows:
         required = np.where(valid, required, np.nan)
     else:
         required = np.zeros(valid.shape)
-    window = WindowLoss(np.where(valid, required, 1.0), valid)
-    return Rows(bike, session, index, valid, required, window, n_bikes, n_sessions)
+    weight = None
+    if getattr(hours, "weighted", False) and len(bike):
+        weight = np.where(valid, np.asarray(hours.weight, float)[index], 0.0)
+    window = WindowLoss(np.where(valid, required, 1.0), valid, weight)
+    return Rows(bike, session, index, valid, required, window, n_bikes, n_sessions, weight)

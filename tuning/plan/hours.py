@@ -2,7 +2,15 @@
 
 Session hours are the start, every whole hour between, and the end; the weather is
 interpolated linearly in time (never extrapolated) and converted to the station pressure with
-the site's elevation (:func:`tuning.air.station_pressure`).
+the elevation where it holds (:func:`tuning.air.station_pressure`; the site's unless the event
+gives ``weather_elevation``).
+
+A session ridden over a range of heights (``Session.heights``) has a *sample* for every hour at
+every height of its profile, weighted by the share of the time spent at that height: the air is
+carried from the forecast's elevation to each height (:func:`tuning.air.temperature_at_height`,
+:func:`tuning.air.pressure_at_height`, :func:`tuning.air.vapour_pressure_at_height`, with the
+event's lapse rate). A session without one is ridden at the site's elevation, one sample an hour
+of weight 1, exactly as before.
 """
 
 from __future__ import annotations
@@ -12,10 +20,10 @@ from datetime import datetime
 
 import numpy as np
 
-from tuning import air
+from tuning import air, constants
 from tuning.errors import UserError
 
-__all__ = ["HOUR", "session_hours", "EventHours", "event_hours", "References", "references", "epoch"]
+__all__ = ["HOUR", "session_hours", "EventHours", "event_hours", "air_at_heights", "References", "references", "epoch"]
 
 HOUR = 3600  #: [s]
 
@@ -59,6 +67,31 @@ def air_at(weather, elevation, times, where):
     return air.air_state(temperature, p_station, dew_point=humidity)
 
 
+def air_at_heights(weather, forecast_elevation, times, elevations, lapse_rate, where):
+    """Air state at ``times`` [s UTC] and ``elevations`` [m] (one each per sample), the forecast
+    holding at ``forecast_elevation`` and carried along ``lapse_rate`` [K/m].
+
+    Samples at the forecast's own elevation get exactly :func:`air_at`'s values.
+    """
+    elevations = np.asarray(elevations, float)
+    at_forecast = air_at(weather, forecast_elevation, times, where)
+    moved = elevations != forecast_elevation
+    if not moved.any():
+        return at_forecast
+    t0, p0 = at_forecast.air_temperature[moved], at_forecast.station_pressure[moved]
+    z = elevations[moved]
+    t1 = air.temperature_at_height(t0, forecast_elevation, z, lapse_rate)
+    p1 = air.pressure_at_height(p0, t0, forecast_elevation, z, lapse_rate)
+    e1 = air.vapour_pressure_at_height(at_forecast.vapour_pressure[moved], p0, p1, t1)
+    carried = air.air_state(t1, p1, dew_point=np.maximum(air.dew_point_from_vapour_pressure(e1), 1.0))
+    merged = {}
+    for name in at_forecast.__dataclass_fields__:
+        value = np.array(getattr(at_forecast, name), copy=True)
+        value[moved] = getattr(carried, name)
+        merged[name] = value
+    return type(at_forecast)(**merged)
+
+
 def air_for_conditions(conditions):
     """Air state (arrays of one) at a set of reference conditions."""
     p_station = air.station_pressure(
@@ -72,11 +105,15 @@ def air_for_conditions(conditions):
 
 @dataclass(frozen=True)
 class EventHours:
-    """Every session's hours, end to end, and the air at each.
+    """Every session's samples (hours × heights), end to end, and the air at each.
 
-    ``times`` (N,) [s UTC] holds the sessions' hours one session after another; session ``s``
-    is ``times[offsets[s]:offsets[s+1]]``; ``index`` (S, H) and ``valid`` (S, H) pad them to the
-    longest session. ``air`` is the :class:`tuning.air.AirState` at ``times``.
+    ``times`` (N,) [s UTC] holds the sessions' samples one session after another, height by
+    height (all hours at the profile's first height, then at the next); session ``s`` is
+    ``times[offsets[s]:offsets[s+1]]``; ``index`` (S, H) and ``valid`` (S, H) pad them to the
+    longest session. ``elevation`` (N,) [m] and ``weight`` (N,) [1] give each sample's height
+    and share of its hour (1 where a session is ridden at one height). ``levels[s]`` are the
+    heights of session ``s`` and ``hours_per_level[s]`` its hours. ``air`` is the
+    :class:`tuning.air.AirState` of the samples. ``weighted`` is False when every weight is 1.
     """
 
     times: np.ndarray
@@ -84,21 +121,42 @@ class EventHours:
     index: np.ndarray
     valid: np.ndarray
     air: object
+    elevation: np.ndarray | None = None
+    weight: np.ndarray | None = None
+    levels: tuple = ()
+    hours_per_level: tuple = ()
+    weighted: bool = False
+
+
+def _profile(session, site_elevation):
+    """(heights [m], shares [1]) where ``session`` is ridden."""
+    heights = getattr(session, "heights", None)
+    if heights is None:
+        return np.array([float(site_elevation)]), np.array([1.0])
+    return np.asarray(heights.elevations, float), np.asarray(heights.shares, float)
 
 
 def event_hours(event) -> EventHours:
-    """The hours of every session of ``event`` and the air at each."""
+    """The samples (hours × heights) of every session of ``event`` and the air at each."""
     hours = [session_hours(s) for s in event.sessions]
-    longest = max(len(h) for h in hours)
-    times = np.concatenate(hours)
-    offsets = np.cumsum([0] + [len(h) for h in hours])
-    index = np.zeros((len(hours), longest), np.int64)
-    valid = np.zeros((len(hours), longest), bool)
-    for s, h in enumerate(hours):
-        index[s, : len(h)] = offsets[s] + np.arange(len(h))
-        valid[s, : len(h)] = True
-    state = air_at(event.weather, event.site.elevation, times, str(event.source or event.name))
-    return EventHours(times, offsets, index, valid, state)
+    profiles = [_profile(s, event.site.elevation) for s in event.sessions]
+    samples = [np.tile(h, len(z)) for h, (z, _) in zip(hours, profiles)]
+    elevation = np.concatenate([np.repeat(z, len(h)) for h, (z, _) in zip(hours, profiles)])
+    weight = np.concatenate([np.repeat(w, len(h)) for h, (_, w) in zip(hours, profiles)])
+    longest = max(len(t) for t in samples)
+    times = np.concatenate(samples)
+    offsets = np.cumsum([0] + [len(t) for t in samples])
+    index = np.zeros((len(samples), longest), np.int64)
+    valid = np.zeros((len(samples), longest), bool)
+    for s, t in enumerate(samples):
+        index[s, : len(t)] = offsets[s] + np.arange(len(t))
+        valid[s, : len(t)] = True
+    lapse = constants.STANDARD_LAPSE_RATE if event.lapse_rate is None else event.lapse_rate
+    where = str(event.source or event.name)
+    state = air_at_heights(event.weather, event.forecast_elevation, times, elevation, lapse, where)
+    return EventHours(times, offsets, index, valid, state, elevation, weight,
+                      tuple(tuple(z.tolist()) for z, _ in profiles), tuple(len(h) for h in hours),
+                      not bool(np.all(weight == 1.0)))
 
 
 @dataclass(frozen=True)

@@ -24,11 +24,12 @@ LEAN_WEIGHT = 4.0  #: weight of a lean deviation in the cost (our choice: err ri
 RICH_WEIGHT = 1.0  #: weight of a rich deviation
 
 
-def lean_loss(required, delivered, valid):
-    """Sum over the last axis (hours) of the lean-weighted squared mixture deviation (direct)."""
+def lean_loss(required, delivered, valid, weights=1.0):
+    """Sum over the last axis (hours) of the lean-weighted squared mixture deviation (direct),
+    each sample times its ``weights`` [1]."""
     with np.errstate(invalid="ignore", divide="ignore"):
         deviation = required / delivered - 1.0
-    weight = np.where(deviation > 0.0, LEAN_WEIGHT, RICH_WEIGHT)
+    weight = np.where(deviation > 0.0, LEAN_WEIGHT, RICH_WEIGHT) * weights
     return np.where(valid, weight * deviation * deviation, 0.0).sum(axis=-1)
 
 
@@ -46,26 +47,46 @@ class WindowLoss:
     over each part, weighted :data:`RICH_WEIGHT` and :data:`LEAN_WEIGHT`. Identical to
     :func:`lean_loss` but costs O(log H) per candidate instead of O(H).
 
+    With ``weights`` (a session ridden over several heights: each sample weighted by the share
+    of its hour spent at its height) the sums are weighted and :math:`n` is the sum of the
+    weights; the lean guard (:meth:`leanest`) still looks at every sample, whatever its weight,
+    so the densest point reached governs.
+
     Parameters
     ----------
     required : numpy.ndarray, shape (R, H)
         Required area factors [1] (positive where valid).
     valid : numpy.ndarray of bool, shape (R, H)
+    weights : numpy.ndarray, shape (R, H), optional
+        Weight of each sample [1], >= 0; None: every sample counts 1.
     """
 
     _INVALID = 1.0e3  # stands in for padding hours; delivered factors must stay below it
     _ROW = 4.0e3  # row offset in the flattened search keys
 
-    def __init__(self, required, valid):
+    def __init__(self, required, valid, weights=None):
         required = np.asarray(required, float)
         valid = np.asarray(valid, bool)
         rows, hours = required.shape
-        f = np.sort(np.where(valid, required, self._INVALID), axis=1)
-        self.count = valid.sum(axis=1)
-        fz = np.where(f < self._INVALID, f, 0.0)
+        keyed = np.where(valid, required, self._INVALID)
         zero = np.zeros((rows, 1))
-        self.sum1 = np.concatenate([zero, np.cumsum(fz, axis=1)], axis=1)
-        self.sum2 = np.concatenate([zero, np.cumsum(fz * fz, axis=1)], axis=1)
+        if weights is None:
+            f = np.sort(keyed, axis=1)
+            self.count = valid.sum(axis=1)
+            fz = np.where(f < self._INVALID, f, 0.0)
+            wf, wff = fz, fz * fz
+            self.weight = None
+        else:
+            order = np.argsort(keyed, axis=1, kind="stable")
+            f = np.take_along_axis(keyed, order, axis=1)
+            w = np.take_along_axis(np.where(valid, np.asarray(weights, float), 0.0), order, axis=1)
+            fz = np.where(f < self._INVALID, f, 0.0)
+            wf, wff = w * fz, w * fz * fz
+            self.weight = np.concatenate([zero, np.cumsum(w, axis=1)], axis=1)
+            self.count = self.weight[:, -1]
+        self.sum1 = np.concatenate([zero, np.cumsum(wf, axis=1)], axis=1)
+        self.sum2 = np.concatenate([zero, np.cumsum(wff, axis=1)], axis=1)
+        self.n_valid = valid.sum(axis=1)
         self.offset = np.arange(rows) * self._ROW
         self.keys = (f + self.offset[:, None]).ravel()
         self.base = np.arange(rows) * hours
@@ -81,14 +102,19 @@ class WindowLoss:
         if np.any(d >= self._INVALID) or np.any(d <= 0):
             raise ValueError("delivered area factors must lie in (0, 1000)")
         k = np.searchsorted(self.keys, d + self.offset[idx][:, None], side="right") - self.base[idx][:, None]
-        n = self.count[idx][:, None]
+        n = self.n_valid[idx][:, None]
         k = np.minimum(k, n)
         r = idx[:, None]
         s1_lo, s2_lo = self.sum1[r, k], self.sum2[r, k]
         s1_hi, s2_hi = self.sum1[r, n] - s1_lo, self.sum2[r, n] - s2_lo
         inv = 1.0 / d
-        rich = s2_lo * inv * inv - 2.0 * s1_lo * inv + k
-        lean = s2_hi * inv * inv - 2.0 * s1_hi * inv + (n - k)
+        if self.weight is None:
+            w_lo, w_hi = k, n - k
+        else:
+            w_lo = self.weight[r, k]
+            w_hi = self.weight[r, n] - w_lo
+        rich = s2_lo * inv * inv - 2.0 * s1_lo * inv + w_lo
+        lean = s2_hi * inv * inv - 2.0 * s1_hi * inv + w_hi
         return (RICH_WEIGHT * rich + LEAN_WEIGHT * lean).reshape(shape)
 
     def rms(self, delivered, rows=None):

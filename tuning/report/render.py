@@ -251,8 +251,9 @@ def summary_html(plan: dict, paper: str = "a4", links: bool = True, display: Dis
     """The fleet summary as a self-contained HTML page."""
     context = _common(plan, paper, f"{plan['event']} · {display._(SUMMARY_WORD)}", display=display)
     names = safe_file_names([e["bike"] for e in plan["entries"]])
+    route = charts.route_chart(plan, display)
     context.update(r=tables.summary_rows(plan, names, display), chart_svg=charts.to_svg(charts.weather_chart(plan, display)),
-                   links=links)
+                   route_svg=charts.to_svg(route) if route is not None else "", links=links)
     return environment().get_template("summary.html.j2").render(**context)
 
 

@@ -365,6 +365,7 @@ def _session_rows(entries, plan_sessions, d) -> list[dict]:
             "power": d.percent(common.get("power_vs_sae_j1349_pct")),
             "power_in_range": common.get("sae_j1349_within_range", True),
             "verdicts": verdicts(e, d),
+            "ridden": ridden_words(e, common.get("heights"), d),
         })
     return sessions
 
@@ -521,8 +522,51 @@ def summary_rows(plan: dict, file_names: dict[str, str], display: Display = METR
     return {"bikes": bikes, "batches": batch_rows, "danger": danger_rows(plan, by_bike, file_names, d),
             "warning_groups": warning_groups(plan, by_bike, d), "work_orders": work_order_rows(plan, file_names, d),
             "weather": weather, "sessions": sessions, "pick_list": pick_list, "stock_kept": kept,
+            "heights": heights_rows(plan, d),
             "to_order": to_order,
             "stock_status": to_order_text(to_order, d) if kept else d._(NO_STOCK_LIST)}
+
+
+def ridden_words(entry: dict, session_heights: dict | None, d: Display) -> str:
+    """Where a bike's session is ridden and what its settings are made for, in one line
+    ("ridden 1200–2100 m; set for 1200 m; at 2100 m 5 % rich, 78 % power"); empty where the
+    session is ridden at the site's elevation with the forecast holding there."""
+    h = entry.get("heights")
+    if not h:
+        return ""
+    low, high = h["elevation_m_min"], h["elevation_m_max"]
+    if d.elevation(low) == d.elevation(high):
+        forecast = (session_heights or {}).get("weather_elevation_m")
+        return d._("ridden at %(elevation)s, the forecast carried from %(forecast)s") % {
+            "elevation": d.elevation(low), "forecast": d.elevation(forecast)}
+    rich = h.get("rich_at_highest_pct")
+    mixture = (d._("%(pct)s rich") if rich is None or rich >= 0 else d._("%(pct)s lean")) % {
+        "pct": d.percent(None if rich is None else abs(rich))}
+    words = d._("ridden %(range)s; set for %(set_for)s; at %(high)s %(mixture)s, %(power)s power") % {
+        "range": d.elevation_span(low, high), "set_for": d.elevation(h["set_for_elevation_m"]),
+        "high": d.elevation(high), "mixture": mixture, "power": d.percent(h.get("power_at_highest_pct"))}
+    route = (session_heights or {}).get("route")
+    return words + (" " + d._("(route %(file)s)") % {"file": route} if route else "")
+
+
+def heights_rows(plan: dict, d: Display) -> list[dict]:
+    """The summary's rows on where the sessions are ridden; empty when every session is ridden at
+    the site's elevation with the forecast holding there."""
+    source_words = {"range": N_("elevation range"), "route": N_("route"), "site": N_("site")}
+    rows = []
+    for s in plan["sessions"]:
+        h = s.get("heights")
+        if not h:
+            continue
+        rows.append({
+            "session": s["name"],
+            "source": d._(source_words[h["source"]]) + (f" {h['route']}" if h.get("route") else ""),
+            "heights": d.elevation_span(h["elevation_m_min"], h["elevation_m_max"]),
+            "set_for": d.elevation(h["set_for_elevation_m"]),
+            "forecast": d.elevation(h["weather_elevation_m"]),
+            "lapse_rate": d.lapse_rate(h["lapse_rate_K_per_km"]),
+        })
+    return rows
 
 
 def to_order_text(count: int, display: Display = METRIC_EN) -> str:
