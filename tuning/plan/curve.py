@@ -17,9 +17,14 @@ from tuning.plan.clip import THROTTLE
 __all__ = ["mixture_curves"]
 
 
-def mixture_curves(rows, refs, hours, main, idle, clip, reference_afr) -> dict:
+def mixture_curves(rows, refs, hours, main, idle, clip, reference_afr, multiplier=None) -> dict:
     """Arrays per row: the curves (R, T), the leanest deviation per opening (R, T), the
-    worst hour's index, the factor's range and the power against the reference [%]."""
+    worst hour's index, the factor's range and the power against the reference [%].
+
+    ``multiplier`` (a calibration, :mod:`tuning.plan.calibrate`): per circuit (R,) the richest
+    calibrated required factor of the session against the law's largest; a circuit whose fuel the
+    calibration says falls short delivers that much less. The lean check takes the leaner of the
+    law's and the calibrated curve."""
     n = len(rows.bike)
     if n == 0:
         empty = np.zeros((0, len(THROTTLE)))
@@ -29,14 +34,22 @@ def mixture_curves(rows, refs, hours, main, idle, clip, reference_afr) -> dict:
     weights = carb.circuit_weights(THROTTLE)  # (T, 3)
     delivered = (weights[None, :, 0] * idle.delivered[:, None] + weights[None, :, 1] * clip.curve
                  + weights[None, :, 2] * main.delivered[:, None])
+    proven = np.ones_like(delivered)
+    if multiplier is not None:
+        m = [np.asarray(multiplier[c], float)[:, None] for c in ("pilot", "needle", "main")]
+        calibrated = (weights[None, :, 0] * idle.delivered[:, None] / m[0] + weights[None, :, 1] * clip.curve / m[1]
+                      + weights[None, :, 2] * main.delivered[:, None] / m[2])
+        proven = weights[None, :, 0] / m[0] + weights[None, :, 1] / m[1] + weights[None, :, 2] / m[2]
+    else:
+        calibrated = delivered
     worst_hour = np.argmax(np.where(rows.valid, rows.required, -np.inf), axis=1)
     worst = rows.required[np.arange(n), worst_hour]
     cf_event = np.where(rows.valid, np.asarray(hours.air.sae_j1349_cf, float)[rows.index], np.nan)
     power = 100.0 * np.nanmean(refs.sae_cf[refs.of_bike[rows.bike]][:, None] / cf_event, axis=1)
     return {
-        "current_afr": np.repeat((reference_afr * worst)[:, None], len(THROTTLE), axis=1),
-        "recommended_afr": reference_afr * worst[:, None] / delivered,
-        "leanest_by_throttle": worst[:, None] / delivered - 1.0,
+        "current_afr": reference_afr * worst[:, None] / proven,
+        "recommended_afr": reference_afr * worst[:, None] / calibrated,
+        "leanest_by_throttle": worst[:, None] / np.minimum(delivered, calibrated) - 1.0,
         "worst_hour": worst_hour,
         "factor_min": np.nanmin(rows.required, axis=1),
         "factor_max": np.nanmax(rows.required, axis=1),

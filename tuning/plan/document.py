@@ -118,8 +118,9 @@ def _throttle_span(mask):
 
 
 def assemble(fleet, event, rows, hours, refs, main, idle, clip, curves, rejet, allocation, pick_list,
-             policy_name, threshold) -> dict:
-    """The plan document from the stages' records (see the schema for every field)."""
+             policy_name, threshold, circuits=None) -> dict:
+    """The plan document from the stages' records (see the schema for every field); ``circuits``
+    (:class:`tuning.plan.calibrate.CircuitRows`) the rows each circuit was planned on."""
     zone = ZoneInfo(event.site.time_zone)
     sessions = list(event.sessions)
     n, s_count = len(rows.bike), rows.n_sessions
@@ -148,7 +149,9 @@ def assemble(fleet, event, rows, hours, refs, main, idle, clip, curves, rejet, a
     band = [round(reference_afr * TARGET_BAND[0], 2), round(reference_afr * TARGET_BAND[1], 2)]
     sources = _sources(allocation, rows, fleet)
     bike_ids = [b.id for b in fleet.bikes]
-    main_cols, pilot_cols = _jet_columns(main, main_steps, rows), _jet_columns(pilot, pilot_steps, rows)
+    main_rows, pilot_rows = (circuits.main, circuits.pilot) if circuits is not None else (rows, rows)
+    main_cols, pilot_cols = _jet_columns(main, main_steps, main_rows), _jet_columns(pilot, pilot_steps, pilot_rows)
+    delivered = _delivered_columns(main, idle, clip)
 
     with gc_paused():  # many small dicts, no cycles
         entries, bike_notices, in_danger = [], {bid: {} for bid in bike_ids}, set()
@@ -201,6 +204,7 @@ def assemble(fleet, event, rows, hours, refs, main, idle, clip, curves, rejet, a
                     "reference_afr": round(reference_afr, 2), "target_band_afr": band,
                     "time": hour_iso[base + int(curves["worst_hour"][r])],
                     "basis": "leanest hour of the session (largest required area factor)",
+                    "delivered_area_factor": delivered[r],
                 },
                 "rejet_temperatures_C": {k: rejet[k][r] for k in ("below", "below_jet", "above", "above_jet")},
                 "power_vs_reference_pct": power[r],
@@ -209,9 +213,10 @@ def assemble(fleet, event, rows, hours, refs, main, idle, clip, curves, rejet, a
             })
 
     bikes_out = []
-    for bike in fleet.bikes:
+    for i, bike in enumerate(fleet.bikes):
         notices = list(bike_notices[bike.id].values())
-        bikes_out.append({"bike": bike.id, "model": bike.model, "danger": bike.id in in_danger, "notices": notices})
+        bikes_out.append({"bike": bike.id, "model": bike.model, "danger": bike.id in in_danger, "notices": notices,
+                          "basis": _basis_dict(circuits.basis[i] if circuits is not None else None)})
     work_orders = _work_orders(fleet, rows, main, idle, clip, allocation, sessions, bike_ids)
     warnings_count = sum(len(e["warnings"]) for e in entries) + sum(len(b["notices"]) for b in bikes_out)
     return {
@@ -231,6 +236,29 @@ def assemble(fleet, event, rows, hours, refs, main, idle, clip, curves, rejet, a
         "warnings_count": warnings_count,
         "entries": entries,
     }
+
+
+def _delivered_columns(main, idle, clip) -> list[dict]:
+    """Per row the area factor each circuit's recommended settings deliver against the proven ones
+    [1] (the needle's over the curve's openings): what the law predicts a reading from, without any
+    calibration (:func:`tuning.calibration.readings_from`)."""
+    pilot, needle, main_f = rounded(idle.delivered, 4), rounded(clip.curve, 4), rounded(main.delivered, 4)
+    return [{"pilot": pilot[r], "needle": needle[r], "main": main_f[r]} for r in range(len(pilot))]
+
+
+def _basis_dict(basis) -> dict:
+    """What a bike's settings rest on, with its words: the law, its model's calibration or its own."""
+    if basis is None or basis["kind"] == "law":
+        basis = {"kind": "law", "readings": 0, "sessions": 0, "events": 0, "uncertainty_pct": None,
+                 "density_exponent": None, "density_exponent_sd": None, "offsets_pct": None, "law_kept": False}
+        return {**basis, **said("basis/law")}
+    pct = basis["uncertainty_pct"]
+    params = {"sessions": {"id": "count/sessions", "params": {"count": basis["sessions"]}},
+              "events": {"id": "count/events", "params": {"count": basis["events"]}},
+              "uncertainty_pct": printed(pct, ".1f" if pct < 2 else ".0f")}
+    if basis["law_kept"]:
+        return {**basis, **said("basis/law-kept", {k: params[k] for k in ("sessions", "events")})}
+    return {**basis, **said(f"basis/{basis['kind']}", params)}
 
 
 def _session_stats(hours, s_count):

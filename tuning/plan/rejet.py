@@ -27,8 +27,12 @@ SHIFT_RANGE_K = 40.0  #: largest temperature shift searched each way [K]
 _ITERATIONS = 20  # 40 K / 2**20: far below the printed 0.1 K
 
 
-def rejet_thresholds(fleet, rows, hours, refs, meter, main):
+def rejet_thresholds(fleet, rows, hours, refs, meter, main, multiplier=None):
     """Thresholds per row; a dict of lists (°C, jet numbers; None where none applies).
+
+    ``multiplier`` (R,): a calibration's richest main-circuit factor against the law's in each row's
+    session; where above 1 it scales the law's factor (kept over the shift), where below 1 the law's
+    own factor is used (err rich: the guard holds under the law too).
 
     ``below``/``below_jet``: under ``below`` °C (the coldest hour of the run), fit ``below_jet``;
     ``above``/``above_jet``: over ``above`` °C (the warmest hour of the run), ``above_jet`` is safe.
@@ -82,11 +86,13 @@ def rejet_thresholds(fleet, rows, hours, refs, meter, main):
     rh = np.asarray(hours.air.relative_humidity, float)[run_hour]
     t0 = air_t[run_hour]
 
+    scale = 1.0 if multiplier is None else np.maximum(np.asarray(multiplier, float)[first_row], 1.0)
+
     def factor(shift):
         state = air.air_state(t0 + shift, p, relative_humidity=rh)
-        return carb.area_factor(state.dry_air_density, refs.dry[ref], state.moist_air_density, refs.moist[ref],
-                                meter.rho_event[bike], meter.rho_reference[bike], meter.afr_event[bike],
-                                meter.afr_reference[bike], meter.exponent[bike])
+        return scale * carb.area_factor(state.dry_air_density, refs.dry[ref], state.moist_air_density, refs.moist[ref],
+                                        meter.rho_event[bike], meter.rho_reference[bike], meter.afr_event[bike],
+                                        meter.afr_reference[bike], meter.exponent[bike])
 
     # colder: the fitted size reaches the lean guard (it must change); warmer: the next smaller
     # size becomes the better one, where the lean-weighted deviations of the two sizes are equal,

@@ -408,6 +408,7 @@ def sheet_rows(entries: list[dict], record: dict | None = None, work=None, conde
         "bike": first["bike"], "model": first["model"], "notes": first.get("notes") or "",
         "strokes": first["strokes"], "premix_ratio": first.get("premix_ratio"),
         "density_exponent": d.number(first["density_exponent"], 2), "reference": first["reference"],
+        "basis": basis_words(record, d),
         "sessions": sessions, "circuits": circuits,
         "power_out_of_range": not all(x["power_in_range"] for x in sessions),
         "float_level": d.number(float_levels[0], 1, "mm") if float_levels[0] is not None else d._("not given"),
@@ -417,6 +418,13 @@ def sheet_rows(entries: list[dict], record: dict | None = None, work=None, conde
         "band": first["mixture_curve"]["target_band_afr"],
         "stock_kept": any(e["settings"][k].get("in_stock") is not None for e in entries for k in ("main_jet", "pilot_jet")),
     }
+
+
+def basis_words(record: dict | None, display: Display = METRIC_EN) -> str:
+    """What the bike's settings rest on, in words (its calibration from recorded outcomes, or the law);
+    empty for a plan without the field."""
+    basis = (record or {}).get("basis")
+    return say_item(basis, display) if basis else ""
 
 
 def change_set(entries: list[dict]) -> tuple:
