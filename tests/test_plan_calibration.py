@@ -215,3 +215,28 @@ def test_calibrated_plans_keep_the_documents_schema(uphill, downhill):
     jsonschema.Draft202012Validator(schema).validate(rich)
     kept = [b for b in rich["bikes"] if b["basis"]["law_kept"]]
     assert kept and all(b["basis"]["id"] == "basis/law-kept" for b in kept)
+
+
+def test_bad_outcomes_are_one_clear_line(uphill):
+    from tuning.errors import UserError
+
+    fleet, event = uphill
+    law = make_plan(fleet, event)
+    good = lean_at_full_throttle(law, "F01")[0]
+    cases = [(dict(good, bike="X99"), "not in the plan"), (dict(good, throttle=None), "needs the throttle"),
+             (dict(good, wideband_afr=None, plug="white"), "plug: 'white'"), (dict(good, time="noon"), "time: 'noon'"),
+             (dict(good, throttle=1.4), "throttle: 1.4")]
+    for outcome, words in cases:
+        with pytest.raises(UserError, match=words) as caught:
+            readings_from(law, [good, outcome])
+        assert str(caught.value).startswith("outcome 2 (bike ") and "\n" not in str(caught.value)
+
+
+def test_plug_without_opening_reads_the_main_and_ok_is_no_news(uphill):
+    """A plug read after a full-throttle run (common practice) speaks for the main circuit; 'ok' says the
+    mixture is the proven one, so its reading is the law's prediction turned round."""
+    fleet, event = uphill
+    law = make_plan(fleet, event)
+    o = dict(lean_at_full_throttle(law, "K01")[0], throttle=None, wideband_afr=None, plug="ok")
+    (r,) = readings_from(law, [o])
+    assert r.kind == "plug" and r.circuit == "main" and r.y == pytest.approx(-r.predicted_log_deviation)

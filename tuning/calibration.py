@@ -459,7 +459,9 @@ def estimate(readings: Iterable[Reading], fleet, *, noise: Noise = NOISE, priors
         seen = tuple(any(r.circuit == c for r in rs) for c in CIRCUITS)
         n_r, n_s, n_e = _counts(rs)
         models[model] = Estimate(mu, c_m, "calibrated", seen, float("nan"), n_r, n_s, n_e)
-        own = {b: [r for r in rs if r.bike == b] for b in names}
+        own: dict = {}
+        for r in rs:
+            own.setdefault(r.bike, []).append(r)
         for i, b in enumerate(names):
             k = q_inv[i] @ t_inv
             mean = q_inv[i] @ (t_inv @ mu + a[i])
