@@ -90,6 +90,9 @@ def test_lean_bike_gets_a_richer_main_and_other_models_stay(uphill):
     for bike in model_of:
         if model_of[bike] != model_of["F01"]:
             assert settings_of(plan, bike) == settings_of(law, bike), bike
+            for a, b in zip(law["entries"], plan["entries"]):
+                if a["bike"] == bike:
+                    assert (a["mixture_curve"], a["rejet_temperatures_C"]) == (b["mixture_curve"], b["rejet_temperatures_C"])
     basis = {b["bike"]: b["basis"] for b in plan["bikes"]}
     assert basis["F01"]["kind"] == "calibrated" and basis["F02"]["kind"] == "model"
     assert basis["T01"]["kind"] == "law" and basis["T01"]["text"] == "no readings yet: the law"

@@ -88,7 +88,8 @@ def make_plan(fleet, event, *, policy_name: str | None = None, change_threshold:
         main, idle, clip = guarded(rows, circuits, (main, idle, clip),
                                    _circuits(fleet, circuit_rows(fleet, rows, hours, refs, None), settings, penalties))
     curves = mixture_curves(rows, refs, hours, main, idle, clip, float(fleet.reference_afr), circuits.multiplier)
-    rejet = rejet_thresholds(fleet, circuits.main, hours, refs, meter, main, circuits.multiplier["main"])
+    rejet = rejet_thresholds(fleet, circuits.main, hours, refs, meter, main,
+                             circuits.multiplier["main"] if circuits.multiplier else None)
     fitted, planned = _jets_by_bike(rows, main, idle.pilot)
     stock = dict(fleet.stock) if fleet.stock else None
     allocation = allocate([b.id for b in fleet.bikes], fitted, planned, stock)

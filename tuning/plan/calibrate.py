@@ -38,8 +38,8 @@ __all__ = ["CircuitRows", "circuit_rows", "law_leanness", "guarded"]
 @dataclass(frozen=True)
 class CircuitRows:
     """The rows each circuit is planned on (``pilot``, ``needle``, ``main``: :class:`~tuning.plan.factor.Rows`,
-    the law's own rows where nothing is calibrated), the calibrated log factor per circuit (R, H) and the
-    richest calibrated multiplier of each row's session per circuit (R,), and per bike its ``basis``."""
+    the law's own rows where nothing is calibrated), the richest calibrated multiplier of each row's
+    session per circuit (R,) (None without a calibration), and per bike its ``basis``."""
 
     pilot: object
     needle: object
@@ -65,8 +65,7 @@ def circuit_rows(fleet, rows, hours, refs, calibration) -> CircuitRows:
     """The rows of each circuit with the calibrated required factor (``calibration`` None: the law's rows)."""
     n = len(rows.bike)
     if calibration is None or n == 0:
-        ones = {c: np.ones(n) for c in CIRCUITS}
-        return CircuitRows(rows, rows, rows, ones, [_basis(None, None) for _ in fleet.bikes], False)
+        return CircuitRows(rows, rows, rows, None, [_basis(None, None) for _ in fleet.bikes], False)
     mean, cov, applies, estimates = _bike_arrays(fleet, calibration)
     moist = np.asarray(hours.air.moist_air_density, float)[rows.index]
     x = np.log(moist / refs.moist[refs.of_bike[rows.bike]][:, None])  # (R, H)

@@ -39,7 +39,9 @@ def mixture_curves(rows, refs, hours, main, idle, clip, reference_afr, multiplie
         m = [np.asarray(multiplier[c], float)[:, None] for c in ("pilot", "needle", "main")]
         calibrated = (weights[None, :, 0] * idle.delivered[:, None] / m[0] + weights[None, :, 1] * clip.curve / m[1]
                       + weights[None, :, 2] * main.delivered[:, None] / m[2])
-        proven = weights[None, :, 0] / m[0] + weights[None, :, 1] / m[1] + weights[None, :, 2] / m[2]
+        law = (m[0] == 1.0) & (m[1] == 1.0) & (m[2] == 1.0)  # rows on the law: exactly as without a calibration
+        proven = np.where(law, 1.0, weights[None, :, 0] / m[0] + weights[None, :, 1] / m[1] + weights[None, :, 2] / m[2])
+        calibrated = np.where(law, delivered, calibrated)
     else:
         calibrated = delivered
     worst_hour = np.argmax(np.where(rows.valid, rows.required, -np.inf), axis=1)
