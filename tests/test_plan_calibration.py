@@ -21,7 +21,7 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 from tuning import carb
-from tuning.calibration import Calibration, Estimate, estimate, readings_from
+from tuning.calibration import NOT_USED, Calibration, Estimate, estimate, readings_from
 from tuning.config import load_event, load_fleet
 from tuning.display import Display
 from tuning.plan import LEAN_GUARD, MID_RANGE_OPENINGS, make_plan
@@ -101,6 +101,17 @@ def test_lean_bike_gets_a_richer_main_and_other_models_stay(uphill):
     assert basis["F01"]["text"].startswith("calibrated from 4 sessions at 1 event, ±")
     german = tables.basis_words(next(b for b in plan["bikes"] if b["bike"] == "F01"), Display("metric", "de"))
     assert german.startswith("kalibriert aus 4 Turns bei 1 Veranstaltung, ±")
+
+
+def test_calibration_not_used_plans_the_law_and_says_so(uphill):
+    """--no-calibration: the law's settings, and a sheet that does not claim there are no readings."""
+    fleet, event = uphill
+    law = make_plan(fleet, event)
+    off = make_plan(fleet, event, calibration=NOT_USED)
+    assert [e["settings"] for e in off["entries"]] == [e["settings"] for e in law["entries"]]
+    assert {b["basis"]["id"] for b in off["bikes"]} == {"basis/not-used"}
+    assert tables.basis_words(off["bikes"][0], Display("metric", "de")) == \
+        "das Zumessgesetz: Kalibrierung für diesen Plan nicht verwendet"
 
 
 def test_recording_the_same_outcomes_twice_gives_the_same_plan(uphill):

@@ -68,7 +68,7 @@ from tuning.errors import UserError
 
 __all__ = [
     "CIRCUITS", "CIRCUIT_BANDS", "PLUG_CLASSES", "PLUG_VALUE", "LEAN_SIDE_SD", "Noise", "Priors", "NOISE", "PRIORS",
-    "Reading", "Estimate", "Calibration", "circuit_of", "readings_from", "estimate",
+    "Reading", "Estimate", "Calibration", "NOT_USED", "circuit_of", "readings_from", "estimate",
 ]
 
 CIRCUITS = ("pilot", "needle", "main")
@@ -338,14 +338,21 @@ class Estimate:
 
 @dataclass(frozen=True)
 class Calibration:
-    """Estimates per bike and per model (:func:`estimate`); a bike or model not named is the law."""
+    """Estimates per bike and per model (:func:`estimate`); a bike or model not named is the law.
+    ``used`` False (:data:`NOT_USED`): readings exist but the plan is asked to rest on the law alone
+    (``--no-calibration``), and its sheets say so."""
 
     bikes: dict = field(default_factory=dict)
     models: dict = field(default_factory=dict)
     lean_side_sd: float = LEAN_SIDE_SD
+    used: bool = True
 
     def of(self, bike: str) -> Estimate:
         return self.bikes.get(bike) or _law_estimate(0.5)
+
+
+#: The plan on the law alone although a calibration could be had: ``make_plan(..., calibration=NOT_USED)``.
+NOT_USED = Calibration(used=False)
 
 
 def _law_estimate(exponent: float, covariance=None) -> Estimate:

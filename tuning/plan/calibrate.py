@@ -64,8 +64,11 @@ def _bike_arrays(fleet, calibration):
 def circuit_rows(fleet, rows, hours, refs, calibration) -> CircuitRows:
     """The rows of each circuit with the calibrated required factor (``calibration`` None: the law's rows)."""
     n = len(rows.bike)
-    if calibration is None or n == 0:
-        return CircuitRows(rows, rows, rows, None, [_basis(None, None) for _ in fleet.bikes], False)
+    if calibration is None or n == 0 or not calibration.used:
+        basis = [_basis(None, None) for _ in fleet.bikes]
+        if calibration is not None and not calibration.used:
+            basis = [dict(b, not_used=True) for b in basis]
+        return CircuitRows(rows, rows, rows, None, basis, False)
     mean, cov, applies, estimates = _bike_arrays(fleet, calibration)
     moist = np.asarray(hours.air.moist_air_density, float)[rows.index]
     x = np.log(moist / refs.moist[refs.of_bike[rows.bike]][:, None])  # (R, H)

@@ -249,9 +249,10 @@ def _delivered_columns(main, idle, clip) -> list[dict]:
 def _basis_dict(basis) -> dict:
     """What a bike's settings rest on, with its words: the law, its model's calibration or its own."""
     if basis is None or basis["kind"] == "law":
+        text_id = "basis/not-used" if basis is not None and basis.get("not_used") else "basis/law"
         basis = {"kind": "law", "readings": 0, "sessions": 0, "events": 0, "uncertainty_pct": None,
                  "density_exponent": None, "density_exponent_sd": None, "offsets_pct": None, "law_kept": False}
-        return {**basis, **said("basis/law")}
+        return {**basis, **said(text_id)}
     pct = basis["uncertainty_pct"]
     params = {"sessions": {"id": "count/sessions", "params": {"count": basis["sessions"]}},
               "events": {"id": "count/events", "params": {"count": basis["events"]}},

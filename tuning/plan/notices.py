@@ -136,6 +136,7 @@ TEXTS = {
     "basis/model": N_("no readings of its own yet: its model's calibration from %(sessions)s at %(events)s, "
                       "±%(uncertainty_pct)s"),
     "basis/calibrated": N_("calibrated from %(sessions)s at %(events)s, ±%(uncertainty_pct)s"),
+    "basis/not-used": N_("the law: calibration not used for this plan"),
     "basis/law-kept": N_("the law: the calibration from %(sessions)s at %(events)s would leave a circuit leaner "
                          "than the guard by the law, so its settings are not used"),
     "count/sessions": (N_("%(count)s session"), N_("%(count)s sessions")),
