@@ -140,6 +140,20 @@ def _pick_list(entries_of: dict[str, list[dict]], stock: bool) -> list[dict]:
     return rows
 
 
+def _basis(b):
+    """Bike 0 calibrated from its own readings, bike 1 from its model's, the others on the law (invented)."""
+    if b > 1:
+        return {"kind": "law", "readings": 0, "sessions": 0, "events": 0, "uncertainty_pct": None,
+                "density_exponent": None, "density_exponent_sd": None, "offsets_pct": None, "law_kept": False,
+                **said("basis/law")}
+    kind = "calibrated" if b == 0 else "model"
+    params = {"sessions": {"id": "count/sessions", "params": {"count": 6}},
+              "events": {"id": "count/events", "params": {"count": 3}}, "uncertainty_pct": 2}
+    return {"kind": kind, "readings": 40, "sessions": 6, "events": 3, "uncertainty_pct": 2.0, "density_exponent": 0.62,
+            "density_exponent_sd": 0.05, "offsets_pct": {"pilot": None, "needle": 1.2, "main": 4.8}, "law_kept": False,
+            **said(f"basis/{kind}", params)}
+
+
 def make_plan(n_bikes: int = 3, n_sessions: int = 2, bike_ids: list[str] | None = None, stock: bool = True) -> dict:
     """Return an invented plan document for ``n_bikes`` bikes x ``n_sessions`` sessions.
 
@@ -255,6 +269,8 @@ def make_plan(n_bikes: int = 3, n_sessions: int = 2, bike_ids: list[str] | None 
                     "recommended_afr": [round(12.8 + 0.01 * (i % 3), 2) for i in range(21)],
                     "reference_afr": 12.8, "target_band_afr": [12.3, 13.2],
                     "time": session["start"], "basis": "leanest hour of the session (largest required area factor)",
+                    "delivered_area_factor": {"pilot": 0.97, "needle": [round(0.96 + 0.001 * i, 4) for i in range(21)],
+                                              "main": 0.95},
                 },
                 "rejet_temperatures_C": {"below": 2.0, "below_jet": main["recommended"] + 3,
                                          "above": 31.0, "above_jet": None},
@@ -270,7 +286,7 @@ def make_plan(n_bikes: int = 3, n_sessions: int = 2, bike_ids: list[str] | None 
                    warning("assumed-screw-range", params={"usable_low_turns": 1, "usable_high_turns": 3})]
         bikes.append({"bike": bike, "model": entries_of[bike][0]["model"],
                       "danger": any(w["severity"] == "danger" for e in entries_of[bike] for w in e["warnings"]),
-                      "notices": notices})
+                      "notices": notices, "basis": _basis(b)})
     warnings_count = sum(len(e["warnings"]) for e in entries) + sum(len(b["notices"]) for b in bikes)
     return {
         "format": "carbfleet-plan/3",

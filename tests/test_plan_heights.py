@@ -48,7 +48,7 @@ def by_key(doc):
 
 
 def delivered(fleet, entry):
-    """Area factor [1] of the recommended main jet against the fitted one (tuning.carb's jet law)."""
+    """Area factor [1] of the recommended main jet against the fitted one (tuning.metering's jet law)."""
     main = entry["settings"]["main_jet"]
     family = fleet.bikes[[b.id for b in fleet.bikes].index(entry["bike"])].settings.main_jet_family
     return float(metering.area_factor_between_jets(main["current"], main["recommended"], fleet.jet_families[family].coding))

@@ -7,7 +7,8 @@ described by ``tuning/schemas/recommendations.schema.json``); :func:`write_plan_
 each a function of plain inputs to a small record, vectorised over bikes × sessions × hours:
 
 1. :mod:`~tuning.plan.hours` — the sessions' hours and the air at each, the references' air;
-2. :mod:`~tuning.plan.factor` — the required area factor of every bike in every hour;
+2. :mod:`~tuning.plan.factor` — the required area factor of every bike in every hour, and
+   :mod:`~tuning.plan.calibrate` — per circuit, with a calibration where one is given;
 3. :mod:`~tuning.plan.jets` — the main jet;
 4. :mod:`~tuning.plan.idle` — pilot jet and mixture screw, the screw first;
 5. :mod:`~tuning.plan.clip` — the needle clip, given the main jet;
@@ -25,6 +26,7 @@ The rules: no recommendation leaves any hour, opening or circuit leaner than the
 from __future__ import annotations
 
 from tuning.plan import document, policy
+from tuning.plan.calibrate import circuit_rows, guarded
 from tuning.plan.clip import CLIP_LEAN_LIMIT, MID_RANGE_OPENINGS, THROTTLE, plan_clip
 from tuning.plan.curve import mixture_curves
 from tuning.plan.factor import metering, required_area_factor, rows_of
@@ -46,7 +48,8 @@ __all__ = [
 FORMAT = document.FORMAT
 
 
-def make_plan(fleet, event, *, policy_name: str | None = None, change_threshold: float | None = None) -> dict:
+def make_plan(fleet, event, *, policy_name: str | None = None, change_threshold: float | None = None,
+              calibration=None) -> dict:
     """Plan the settings of every bike for every session of an event.
 
     Parameters
@@ -77,18 +80,29 @@ def make_plan(fleet, event, *, policy_name: str | None = None, change_threshold:
     meter = metering(fleet, event)
     rows = rows_of(fleet, hours, refs, meter)
     settings = [fleet.bikes[b].settings for b in rows.bike]
+    circuits = circuit_rows(fleet, rows, hours, refs, calibration)
 
-    main = plan_main(fleet, rows, settings, penalties["main_jet"])
-    idle = plan_idle(fleet, rows, settings, penalties)
-    clip = plan_clip(fleet, rows, settings, main, penalties["clip"])
-    curves = mixture_curves(rows, refs, hours, main, idle, clip, float(fleet.reference_afr))
-    rejet = rejet_thresholds(fleet, rows, hours, refs, meter, main)
+    main, idle, clip = _circuits(fleet, circuits, settings, penalties)
+    if circuits.calibrated:  # never leaner by the law than the guard or the law's own plan
+        main, idle, clip = guarded(rows, circuits, (main, idle, clip),
+                                   _circuits(fleet, circuit_rows(fleet, rows, hours, refs, None), settings, penalties))
+    curves = mixture_curves(rows, refs, hours, main, idle, clip, float(fleet.reference_afr), circuits.multiplier)
+    rejet = rejet_thresholds(fleet, circuits.main, hours, refs, meter, main,
+                             circuits.multiplier["main"] if circuits.multiplier else None)
     fitted, planned = _jets_by_bike(rows, main, idle.pilot)
     stock = dict(fleet.stock) if fleet.stock else None
     allocation = allocate([b.id for b in fleet.bikes], fitted, planned, stock)
     picks = pick_list(fitted, planned, stock)
     return document.assemble(fleet, event, rows, hours, refs, main, idle, clip, curves, rejet, allocation, picks,
-                             chosen_policy, float(threshold))
+                             chosen_policy, float(threshold), circuits)
+
+
+def _circuits(fleet, circuits, settings, penalties):
+    """Main jet, idle circuit and clip, each planned on its circuit's rows."""
+    main = plan_main(fleet, circuits.main, settings, penalties["main_jet"])
+    idle = plan_idle(fleet, circuits.pilot, settings, penalties)
+    clip = plan_clip(fleet, circuits.needle, settings, main, penalties["clip"])
+    return main, idle, clip
 
 
 def _jets_by_bike(rows, main, pilot):

@@ -121,11 +121,12 @@ def _throttle_span(mask):
 
 
 def assemble(fleet, event, rows, hours, refs, main, idle, clip, curves, rejet, allocation, pick_list,
-             policy_name, threshold) -> dict:
-    """The plan document from the stages' records (see the schema for every field)."""
-    cols = _columns(fleet, event, rows, hours, refs, main, idle, curves, allocation)
+             policy_name, threshold, circuit_rows=None) -> dict:
+    """The plan document from the stages' records (see the schema for every field); ``circuit_rows``
+    (:class:`tuning.plan.calibrate.CircuitRows`) the rows each circuit was planned on."""
+    cols = _columns(fleet, event, rows, hours, refs, main, idle, clip, curves, allocation, circuit_rows)
     entries, bike_notices, in_danger = _entries(fleet, rows, hours, refs, main, idle, clip, curves, rejet, cols)
-    bikes_out = _bikes(fleet, bike_notices, in_danger)
+    bikes_out = _bikes(fleet, bike_notices, in_danger, circuit_rows)
     work_orders = _work_orders(fleet, rows, main, idle, clip, allocation, cols.sessions, cols.bike_ids)
     warnings_count = sum(len(e["warnings"]) for e in entries) + sum(len(b["notices"]) for b in bikes_out)
     return {
@@ -172,10 +173,11 @@ class _Columns:
     sources: dict
     main_cols: dict
     pilot_cols: dict
+    delivered: list  # per row: each circuit's delivered area factor (_delivered_columns)
     has_stock: bool
 
 
-def _columns(fleet, event, rows, hours, refs, main, idle, curves, allocation) -> _Columns:
+def _columns(fleet, event, rows, hours, refs, main, idle, clip, curves, allocation, circuit_rows) -> _Columns:
     zone = ZoneInfo(event.site.time_zone)
     sessions = list(event.sessions)
     s_count = rows.n_sessions
@@ -210,7 +212,9 @@ def _columns(fleet, event, rows, hours, refs, main, idle, curves, allocation) ->
         reference_afr=reference_afr,
         band=[round(reference_afr * TARGET_BAND[0], 2), round(reference_afr * TARGET_BAND[1], 2)],
         sources=_sources(allocation, rows),
-        main_cols=_jet_columns(main, main_steps, rows), pilot_cols=_jet_columns(pilot, pilot_steps, rows),
+        main_cols=_jet_columns(main, main_steps, rows if circuit_rows is None else circuit_rows.main),
+        pilot_cols=_jet_columns(pilot, pilot_steps, rows if circuit_rows is None else circuit_rows.pilot),
+        delivered=_delivered_columns(main, idle, clip),
         has_stock=bool(fleet.stock),
     )
 
@@ -296,6 +300,7 @@ def _entry(bike, model, rows, hours, refs, main, curves, rejet, cols, r, s, sett
             "reference_afr": round(cols.reference_afr, 2), "target_band_afr": cols.band,
             "time": cols.hour_iso[base + int(curves["worst_hour"][r])],
             "basis": "leanest hour of the session (largest required area factor)",
+            "delivered_area_factor": cols.delivered[r],
         },
         "rejet_temperatures_C": {k: rejet[k][r] for k in ("below", "below_jet", "above", "above_jet")},
         "power_vs_reference_pct": cols.power[r],
@@ -307,13 +312,39 @@ def _entry(bike, model, rows, hours, refs, main, curves, rejet, cols, r, s, sett
     return entry
 
 
-def _bikes(fleet, bike_notices, in_danger) -> list:
-    """Per bike: its notices (bike-level warnings) and whether some session of it is in danger."""
+def _bikes(fleet, bike_notices, in_danger, circuit_rows) -> list:
+    """Per bike: its notices (bike-level warnings), whether some session of it is in danger, and what
+    its settings rest on."""
     bikes_out = []
-    for bike in fleet.bikes:
+    for i, bike in enumerate(fleet.bikes):
         notices = list(bike_notices[bike.id].values())
-        bikes_out.append({"bike": bike.id, "model": bike.model, "danger": bike.id in in_danger, "notices": notices})
+        bikes_out.append({"bike": bike.id, "model": bike.model, "danger": bike.id in in_danger, "notices": notices,
+                          "basis": _basis_dict(circuit_rows.basis[i] if circuit_rows is not None else None)})
     return bikes_out
+
+
+def _delivered_columns(main, idle, clip) -> list[dict]:
+    """Per row the area factor each circuit's recommended settings deliver against the proven ones
+    [1] (the needle's over the curve's openings): what the law predicts a reading from, without any
+    calibration (:func:`tuning.calibration.readings_from`)."""
+    pilot, needle, main_f = rounded(idle.delivered, 4), rounded(clip.curve, 4), rounded(main.delivered, 4)
+    return [{"pilot": pilot[r], "needle": needle[r], "main": main_f[r]} for r in range(len(pilot))]
+
+
+def _basis_dict(basis) -> dict:
+    """What a bike's settings rest on, with its words: the law, its model's calibration or its own."""
+    if basis is None or basis["kind"] == "law":
+        text_id = "basis/not-used" if basis is not None and basis.get("not_used") else "basis/law"
+        basis = {"kind": "law", "readings": 0, "sessions": 0, "events": 0, "uncertainty_pct": None,
+                 "density_exponent": None, "density_exponent_sd": None, "offsets_pct": None, "law_kept": False}
+        return {**basis, **said(text_id)}
+    pct = basis["uncertainty_pct"]
+    params = {"sessions": {"id": "count/sessions", "params": {"count": basis["sessions"]}},
+              "events": {"id": "count/events", "params": {"count": basis["events"]}},
+              "uncertainty_pct": printed(pct, ".1f" if pct < 2 else ".0f")}
+    if basis["law_kept"]:
+        return {**basis, **said("basis/law-kept", {k: params[k] for k in ("sessions", "events")})}
+    return {**basis, **said(f"basis/{basis['kind']}", params)}
 
 
 def _session_heights(event, hours, s_count):

@@ -130,21 +130,17 @@ def rows_of(fleet, hours, refs, meter) -> Rows:
     n_bikes, n_sessions = len(fleet.bikes), len(hours.offsets) - 1
     bike = np.repeat(np.arange(n_bikes), n_sessions)
     session = np.tile(np.arange(n_sessions), n_bikes)
-    index = hours.index[session] if len(bike) else np.zeros((0, hours.index.shape[1]), np.int64)
-    valid = hours.valid[session] if len(bike) else np.zeros((0, hours.valid.shape[1]), bool)
-    if len(bike):
-        ref = refs.of_bike[bike]
-        dry = np.asarray(hours.air.dry_air_density, float)[index]
-        moist = np.asarray(hours.air.moist_air_density, float)[index]
-        required = area_factor(
-            dry, refs.dry[ref][:, None], moist, refs.moist[ref][:, None],
-            meter.rho_event[bike][:, None], meter.rho_reference[bike][:, None],
-            meter.afr_event[bike][:, None], meter.afr_reference[bike][:, None], meter.exponent[bike][:, None])
-        required = np.where(valid, required, np.nan)
-    else:
-        required = np.zeros(valid.shape)
+    index, valid = hours.index[session], hours.valid[session]
+    ref = refs.of_bike[bike]
+    dry = np.asarray(hours.air.dry_air_density, float)[index]
+    moist = np.asarray(hours.air.moist_air_density, float)[index]
+    required = area_factor(
+        dry, refs.dry[ref][:, None], moist, refs.moist[ref][:, None],
+        meter.rho_event[bike][:, None], meter.rho_reference[bike][:, None],
+        meter.afr_event[bike][:, None], meter.afr_reference[bike][:, None], meter.exponent[bike][:, None])
+    required = np.where(valid, required, np.nan)
     weight = None
-    if getattr(hours, "weighted", False) and len(bike):
+    if hours.weighted:
         weight = np.where(valid, np.asarray(hours.weight, float)[index], 0.0)
     window = WindowLoss(np.where(valid, required, 1.0), valid, weight)
     return Rows(bike, session, index, valid, required, window, n_bikes, n_sessions, weight)

@@ -130,7 +130,7 @@ class EventHours:
 
 def _profile(session, site_elevation):
     """(heights [m], shares [1]) where ``session`` is ridden."""
-    heights = getattr(session, "heights", None)
+    heights = session.heights
     if heights is None:
         return np.array([float(site_elevation)]), np.array([1.0])
     return np.asarray(heights.elevations, float), np.asarray(heights.shares, float)

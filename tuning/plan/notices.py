@@ -135,6 +135,16 @@ TEXTS = {
     "cure/richest-groove": N_("the clip is already in its richest groove: fit a richer needle or a larger needle jet"),
     "cure/clip-lower": N_("move the needle clip one groove lower (richer)"),
     "cure/main-jet": N_("fit a larger main jet"),
+    # --- what a bike's settings rest on (a calibration from recorded outcomes, or the law) ---------
+    "basis/law": N_("no readings yet: the law"),
+    "basis/model": N_("no readings of its own yet: its model's calibration from %(sessions)s at %(events)s, "
+                      "±%(uncertainty_pct)s"),
+    "basis/calibrated": N_("calibrated from %(sessions)s at %(events)s, ±%(uncertainty_pct)s"),
+    "basis/not-used": N_("the law: calibration not used for this plan"),
+    "basis/law-kept": N_("the law: the calibration from %(sessions)s at %(events)s would leave a circuit leaner "
+                         "than the guard by the law, so its settings are not used"),
+    "count/sessions": (N_("%(count)s session"), N_("%(count)s sessions")),
+    "count/events": (N_("%(count)s event"), N_("%(count)s events")),
     # --- checks ----------------------------------------------------------------------------------
     "check/float-level": N_("Float level: check %(float_level_mm)s (value from the settings)."),
     "check/float-level-unknown": N_("Float level: not on record; check it against the service manual."),

@@ -31,8 +31,12 @@ _ITERATIONS = 20  # 40 K / 2**20: far below the printed 0.1 K
 PRINT_HALF_STEP_K = 0.05
 
 
-def rejet_thresholds(fleet, rows, hours, refs, meter, main):
+def rejet_thresholds(fleet, rows, hours, refs, meter, main, multiplier=None):
     """Thresholds per row; a dict of lists (°C, jet numbers; None where none applies).
+
+    ``multiplier`` (R,): a calibration's richest main-circuit factor against the law's in each row's
+    session; where above 1 it scales the law's factor (kept over the shift), where below 1 the law's
+    own factor is used (err rich: the guard holds under the law too).
 
     ``below``/``below_jet``: under ``below`` °C (the coldest hour of the run), fit ``below_jet``;
     ``above``/``above_jet``: over ``above`` °C (the warmest hour of the run), ``above_jet`` is safe.
@@ -41,7 +45,7 @@ def rejet_thresholds(fleet, rows, hours, refs, meter, main):
     out = {k: [None] * n for k in ("below", "below_jet", "above", "above_jet")}
     group, run = _run_groups(rows, hours, main)
     sizes_up, sizes_dn = _neighbour_sizes(fleet, main, run["first_row"])
-    colder, warmer = _shifts(rows, hours, refs, meter, main, run, sizes_dn)
+    colder, warmer = _shifts(rows, hours, refs, meter, main, run, sizes_dn, multiplier)
     below = np.round(run["t_min"] + np.minimum(colder, 0.0) - ZERO_CELSIUS - PRINT_HALF_STEP_K, 1)
     above = np.round(run["t_max"] + np.maximum(warmer, 0.0) - ZERO_CELSIUS + PRINT_HALF_STEP_K, 1)
     has_up = np.isfinite(colder) & np.isfinite(sizes_up)
@@ -96,7 +100,7 @@ def _neighbour_sizes(fleet, main, first_row):
     return sizes_up, sizes_dn
 
 
-def _shifts(rows, hours, refs, meter, main, run, sizes_dn):
+def _shifts(rows, hours, refs, meter, main, run, sizes_dn, multiplier):
     """Per run: the temperature shifts [K] of its densest hour, ``colder`` (negative) where the fitted
     size reaches the lean guard and ``warmer`` where the next smaller size becomes the better one."""
     first_row, run_hour = run["first_row"], run["hour"]
@@ -114,11 +118,13 @@ def _shifts(rows, hours, refs, meter, main, run, sizes_dn):
     rh = np.asarray(hours.air.relative_humidity, float)[run_hour]
     t0 = np.asarray(hours.air.air_temperature, float)[run_hour]
 
+    scale = 1.0 if multiplier is None else np.maximum(np.asarray(multiplier, float)[first_row], 1.0)
+
     def factor(shift):
         state = air.air_state(t0 + shift, p, relative_humidity=rh)
-        return metering.area_factor(state.dry_air_density, refs.dry[ref], state.moist_air_density, refs.moist[ref],
-                                    meter.rho_event[bike], meter.rho_reference[bike], meter.afr_event[bike],
-                                    meter.afr_reference[bike], meter.exponent[bike])
+        return scale * metering.area_factor(state.dry_air_density, refs.dry[ref], state.moist_air_density, refs.moist[ref],
+                                            meter.rho_event[bike], meter.rho_reference[bike], meter.afr_event[bike],
+                                            meter.afr_reference[bike], meter.exponent[bike])
 
     # colder: the fitted size reaches the lean guard (it must change); warmer: the next smaller
     # size becomes the better one, where the lean-weighted deviations of the two sizes are equal,

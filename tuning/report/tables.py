@@ -332,6 +332,7 @@ def sheet_rows(entries: list[dict], record: dict | None = None, work=None, conde
         "bike": first["bike"], "model": first["model"], "notes": first["notes"] or "",
         "strokes": first["strokes"], "premix_ratio": first["premix_ratio"],
         "density_exponent": d.number(first["density_exponent"], 2), "reference": first["reference"],
+        "basis": basis_words(record, d),
         "sessions": sessions, "circuits": _circuit_rows(entries, d),
         "power_out_of_range": not all(x["power_in_range"] for x in sessions),
         "float_level": d.number(float_levels[0], 1, "mm") if float_levels[0] is not None else d._("not given"),
@@ -442,6 +443,13 @@ def _warning_rows(entries, record, condense, d) -> list[dict]:
     for w in warning_rows:
         w["severity_text"] = d._(w["severity"])
     return warning_rows
+
+
+def basis_words(record: dict | None, display: Display = METRIC_EN) -> str:
+    """What the bike's settings rest on, in words (its calibration from recorded outcomes, or the law);
+    empty for a plan without the field."""
+    basis = (record or {}).get("basis")
+    return say_item(basis, display) if basis else ""
 
 
 def change_set(entries: list[dict]) -> tuple:
