@@ -6,7 +6,7 @@ sheet's "work and record" form (``tuning.report.tables.FORM_FIELDS``) that each 
 A row names a ``bike`` of the fleet and a ``session`` of the event (or ``after``: after the event,
 for the row that says the bike was returned to its proven settings). Any of: ``throttle`` (a
 fraction 0..1, or percent 0..100: a file whose throttle column holds any value above 1, or a
-``%`` sign, is read in percent) with ``wideband_afr``; ``plug`` (``lean``, ``ok``, ``rich``);
+``%`` sign, is read in percent, and a value between 0 and 1 in it is refused as ambiguous) with ``wideband_afr``; ``plug`` (``lean``, ``ok``, ``rich``);
 ``remark``; the settings fitted where they differ from the plan (``main_jet``, ``pilot_jet``,
 ``clip``, ``mixture_screw_turns``); ``returned_to_proven`` (yes/no); ``time`` for the many rows of
 a wideband log (seconds, or an ISO 8601 time). Every row is checked before anything is recorded;
@@ -196,6 +196,10 @@ def _throttle(text, percent, fail):
         fail("throttle", f"{text!r}: expected a fraction 0..1 or a percent 0..100")
         return None
     high = 100.0 if percent else 1.0
+    if percent and 0.0 < value < 1.0 and not text.endswith("%"):
+        fail("throttle", f"{text!r} is a fraction, but other rows of this file give percent (above 1): write "
+             f"{value * 100:g} for {value * 100:g} %, or all rows as fractions")
+        return None
     if not 0.0 <= value <= high:
         fail("throttle", f"{text!r}: expected 0 to {high:g}{' %' if percent else ''}"
              + ("" if percent else " (a fraction; a file in percent has values above 1)"))

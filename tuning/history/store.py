@@ -139,8 +139,8 @@ def _insert_new(conn, table, rows: list[dict], keys: list[str]):
         from sqlalchemy.dialects.postgresql import insert
     else:
         from sqlalchemy.dialects.sqlite import insert
-    result = conn.execute(insert(table).on_conflict_do_nothing(index_elements=keys), rows)
-    return result.rowcount
+    statement = insert(table).on_conflict_do_nothing(index_elements=keys).returning(table.c[keys[-1]])
+    return len(conn.execute(statement, rows).all())  # rowcount is -1 for many rows on some drivers
 
 
 @dataclass(frozen=True)
