@@ -84,7 +84,8 @@ def open_history(where: str | Path) -> History:
         version = schema.migrate(engine)
     except sa.exc.OperationalError as exc:
         engine.dispose()
-        raise UserError(f"--history: {_shown(where)}: cannot open it ({_reason(exc)})") from None
+        raise UserError(f"--history: {_shown(where)}: cannot open it ({_reason(exc)}); name another with "
+                        "--history, or plan without one: --no-history") from None
     except sa.exc.DatabaseError as exc:
         engine.dispose()
         raise UserError(f"--history: {_shown(where)}: not a carbfleet history ({_reason(exc)})") from None
