@@ -395,7 +395,7 @@ def cmd_build(args) -> int:
                            workers=args.workers, policy=args.policy, units=args.units, language=args.language,
                            adjust=history.adjust)
         history.record()  # the output is in place: the plan it shows is the one recorded
-        history_lines = history.lines(Display(result.units, result.language))
+        history_lines = history.lines(Display(result.units, result.language)) if history.plan is not None else []
     finally:
         history.close()
     for note in dict.fromkeys(str(w.message) for w in caught
