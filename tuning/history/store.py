@@ -281,6 +281,12 @@ class History:
         keys = ("event_key", "fleet", *COLUMNS)
         return [{k: r[k] for k in keys} for r in found]
 
+    def fleets(self) -> list[str]:
+        """The names of the fleets with plans or outcomes in this history, sorted."""
+        with self.engine.connect() as conn:
+            return sorted(set(conn.execute(sa.select(plans.c.fleet).distinct()).scalars())
+                          | set(conn.execute(sa.select(outcomes.c.fleet).distinct()).scalars()))
+
     def events_of(self, fleet_name: str) -> list[dict]:
         """The events this fleet has plans or outcomes for, oldest first: key, name, site, days, elevation."""
         used = sa.union(sa.select(plans.c.event_id).where(plans.c.fleet == fleet_name),

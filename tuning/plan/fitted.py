@@ -16,6 +16,8 @@ must change is not counted as a jet coming off the bike).
 
 from __future__ import annotations
 
+import copy
+
 import numpy as np
 
 from tuning.plan.document import _jet_words, _quarters, jet_number
@@ -43,8 +45,6 @@ def start_from_fitted(plan: dict, fleet, fitted: dict) -> dict:
     """
     if not fitted:
         return plan
-    import copy
-
     plan = copy.deepcopy(plan)
     bikes = {b.id: b for b in fleet.bikes}
     for bike_id, f in fitted.items():

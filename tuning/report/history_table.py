@@ -43,24 +43,14 @@ def history_table(history, fleet_name: str | None, bike: str | None, d: Display)
 
 
 def _planned_keys(history, fleet_name):
-    for fleet in ([fleet_name] if fleet_name else _fleets(history)):
+    for fleet in ([fleet_name] if fleet_name else history.fleets()):
         for e in history.events_of(fleet):
             yield fleet, e["key"]
 
 
-def _fleets(history):
-    import sqlalchemy as sa
-
-    from tuning.history.schema import outcomes, plans
-
-    with history.engine.connect() as conn:
-        return sorted(set(conn.execute(sa.select(plans.c.fleet).distinct()).scalars())
-                      | set(conn.execute(sa.select(outcomes.c.fleet).distinct()).scalars()))
-
-
 def _all_events(history, fleet_name):
     events = []
-    for fleet in ([fleet_name] if fleet_name else _fleets(history)):
+    for fleet in ([fleet_name] if fleet_name else history.fleets()):
         events += history.events_of(fleet)
     return sorted(events, key=lambda e: (e["last_day"], e["id"]))
 
