@@ -257,3 +257,14 @@ def test_a_bike_returned_to_proven_starts_from_proven(capsys, tmp_path):
     after, _lines = _plan(capsys, fleet, event, tmp_path / "p1", "--history", place)
     t01 = [e["settings"]["main_jet"]["current"] for e in after["entries"] if e["bike"] == "T01"]
     assert t01 == [172.5] * len(t01)
+
+
+def test_the_tests_write_no_history_into_the_checkout(capsys, tmp_path):
+    """Planning the shipped demo (in the checkout) records into this test's own history file."""
+    import os
+
+    shipped = Path(__file__).resolve().parents[1] / "tuning" / "demo"
+    place = Path(os.environ["CARBFLEET_HISTORY"])
+    assert shipped.parents[1] not in place.parents
+    _plan(capsys, shipped / "demo-fleet.yaml", shipped / "demo-event.yaml", tmp_path / "out")
+    assert place.is_file() and not (shipped / "history.sqlite").exists()
