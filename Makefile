@@ -22,13 +22,18 @@ $(TESTSTAMP): pyproject.toml | $(VENV)/bin/python
 	$(PY) -m pip install --quiet -e '.[test]'
 	touch $(STAMP) $(TESTSTAMP)
 
+# The demo's history goes to out-history/ (not beside the shipped demo fleet file, in the package).
+DEMO_HISTORY = --history out-history/demo-history.sqlite
+
 demo: $(STAMP)
-	$(VENV)/bin/carbfleet build tuning/demo/demo-fleet.yaml tuning/demo/demo-event.yaml --out out
-	$(VENV)/bin/carbfleet build tuning/demo/demo-fleet.yaml tuning/demo/demo-event.yaml --out out-us --units us
-	$(VENV)/bin/carbfleet build tuning/demo/demo-fleet.yaml tuning/demo/demo-event.yaml --out out-de --language de
-	$(VENV)/bin/carbfleet build tuning/demo/demo-fleet.yaml tuning/demo/demo-trail-event.yaml --out out-trail
+	mkdir -p out-history
+	$(VENV)/bin/carbfleet build tuning/demo/demo-fleet.yaml tuning/demo/demo-event.yaml --out out $(DEMO_HISTORY)
+	$(VENV)/bin/carbfleet build tuning/demo/demo-fleet.yaml tuning/demo/demo-event.yaml --out out-us --units us $(DEMO_HISTORY)
+	$(VENV)/bin/carbfleet build tuning/demo/demo-fleet.yaml tuning/demo/demo-event.yaml --out out-de --language de $(DEMO_HISTORY)
+	$(VENV)/bin/carbfleet build tuning/demo/demo-fleet.yaml tuning/demo/demo-trail-event.yaml --out out-trail $(DEMO_HISTORY)
 	@echo "open out/index.html (metric, English), out-us/index.html (US units), out-de/index.html (German),"
-	@echo "     out-trail/index.html (a trail day over a GPX route and a range of heights)"
+	@echo "     out-trail/index.html (a trail day over a GPX route and a range of heights);"
+	@echo "the plans are recorded in out-history/demo-history.sqlite (carbfleet history --history out-history/demo-history.sqlite)"
 
 test: $(TESTSTAMP)
 	$(PY) -m ruff check tuning tests benchmarks
@@ -51,7 +56,7 @@ messages: $(STAMP)
 		--no-fuzzy-matching
 
 clean:
-	rm -rf out out-us out-de out-trail .pytest_cache
+	rm -rf out out-us out-de out-trail out-history .pytest_cache
 
 distclean: clean
 	rm -rf $(VENV) .venv-* *.egg-info build dist

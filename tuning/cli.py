@@ -287,6 +287,7 @@ def add_plan_parser(sub) -> None:
                    "all new or all old, and an existing file of those names only when carbfleet wrote it")
     add_policy_option(p)
     add_display_options(p)
+    add_history_options(p)
     p.set_defaults(func=cmd_plan)
 
 
@@ -319,10 +320,17 @@ def cmd_plan(args) -> int:
     event = load_event(args.event, fleet)
     display = display_for(event, args.units, args.language)
     _ = display._
-    with warnings.catch_warnings(record=True) as caught:
-        warnings.simplefilter("always")
-        plan = make_plan(fleet, event, policy_name=args.policy)
-    paths = write_plan_files(plan, args.out)  # SI, whatever the display
+    history = _PlanHistory(_history_place(args, args.fleet))  # before the work: fail fast
+    try:
+        with warnings.catch_warnings(record=True) as caught:
+            warnings.simplefilter("always")
+            calibration = history.calibration(fleet, use=not args.no_calibration)
+            plan = history.adjust(fleet, event, make_plan(fleet, event, policy_name=args.policy, calibration=calibration))
+        paths = write_plan_files(plan, args.out)  # SI, whatever the display
+        history.record()
+        history_lines = history.lines(display)
+    finally:
+        history.close()
     for note in dict.fromkeys(str(w.message) for w in caught):  # one line each, no source echo
         say("carbfleet plan: " + _("note: {note}").format(note=note), file=sys.stderr)
     entries = plan["entries"]
@@ -351,6 +359,8 @@ def cmd_plan(args) -> int:
         say(_("  ... and {count} more rows in recommendations.csv").format(count=len(entries) - 40))
     for path in paths:
         say(_("wrote {path}").format(path=path))
+    for line in history_lines:
+        say(line)
     return EXIT_OK
 
 
@@ -375,6 +385,7 @@ def add_build_parser(sub) -> None:
                    help="notebook kernels rendering sheets in parallel, 1 to 8 (default 2)")
     add_policy_option(p)
     add_display_options(p)
+    add_history_options(p)
     p.set_defaults(func=cmd_build)
 
 
@@ -382,18 +393,29 @@ def cmd_build(args) -> int:
     import warnings
 
     from tuning.config.spec import one_line
+    from tuning.display import Display
     from tuning.report import build
 
-    with warnings.catch_warnings(record=True) as caught:
-        warnings.simplefilter("always")
-        # units/language None: the event file's setting, else metric/en (tuning.config.display_for)
-        result = build(args.fleet, args.event, args.out, paper=args.paper, quiet=args.quiet,
-                       workers=args.workers, policy=args.policy, units=args.units, language=args.language)
+    history = _PlanHistory(_history_place(args, args.fleet))  # before the work: fail fast
+    try:
+        with warnings.catch_warnings(record=True) as caught:
+            warnings.simplefilter("always")
+            # units/language None: the event file's setting, else metric/en (tuning.config.display_for)
+            result = build(args.fleet, args.event, args.out, paper=args.paper, quiet=args.quiet,
+                           workers=args.workers, policy=args.policy, units=args.units, language=args.language,
+                           adjust=history.adjust,
+                           calibrate=lambda fleet: history.calibration(fleet, use=not args.no_calibration))
+        history.record()  # the output is in place: the plan it shows is the one recorded
+        history_lines = history.lines(Display(result.units, result.language)) if history.plan is not None else []
+    finally:
+        history.close()
     for note in dict.fromkeys(str(w.message) for w in caught
                               if not issubclass(w.category, (DeprecationWarning, ResourceWarning))):
         print(one_line(f"carbfleet build: note: {note}"), file=sys.stderr)  # one line each, no source echo
     if not args.quiet:
         print(one_line(result.summary_line()))
+        for line in history_lines:
+            print(one_line(line))
     return EXIT_OK
 
 
@@ -438,6 +460,215 @@ def cmd_example(args) -> int:
     return EXIT_OK
 
 
+# --- history ---------------------------------------------------------------------------
+HISTORY_ENV = "CARBFLEET_HISTORY"  #: where --history is not given (a shared PostgreSQL URL, say)
+HISTORY_FILE = "history.sqlite"  #: the default history's name, beside the fleet file
+
+
+def add_history_options(p, can_skip: bool = True) -> None:
+    """``--history`` (and ``--no-history`` for the verbs that would only record a plan)."""
+    p.add_argument("--history", metavar="PATH_OR_URL", default=None,
+                   help=f"the history: a SQLite file (its folder must exist) or a postgresql:// URL shared by "
+                   f"several branches; default: ${HISTORY_ENV} if set, else {HISTORY_FILE} beside the fleet file")
+    if can_skip:
+        p.add_argument("--no-history", action="store_true",
+                       help="neither read nor write the history: plan on the proven settings, record nothing")
+        p.add_argument("--no-calibration", action="store_true",
+                       help="plan on the metering law alone, not on what the history's recorded readings say "
+                       "(the sheets say so); the plan is still recorded")
+
+
+def _history_place(args, fleet_path) -> str | None:
+    """Where this command's history is (None: --no-history)."""
+    from pathlib import Path
+
+    if getattr(args, "no_history", False):
+        return None
+    if args.history is not None:
+        if not args.history.strip():
+            raise UserError("--history: the path is empty (an unset shell variable?); name a file or a URL")
+        return args.history
+    if os.environ.get(HISTORY_ENV, "").strip():
+        return os.environ[HISTORY_ENV].strip()
+    return str(Path(fleet_path).parent / HISTORY_FILE) if fleet_path else HISTORY_FILE
+
+
+class _PlanHistory:
+    """What ``plan`` and ``build`` do with the history: before planning, the settings bikes still
+    wear; after, the changes since the last plan of the same event; once the output is written,
+    the plan recorded."""
+
+    def __init__(self, place: str | None):
+        from tuning.history import open_history
+
+        self.history = open_history(place) if place else None
+        self.before, self.fitted, self.plan, self.event = None, {}, None, None
+
+    def calibration(self, fleet, use: bool = True):
+        """What the history's recorded outcomes say of the fleet's bikes (None: nothing recorded, or
+        no history: the law); with ``use`` False the law, the sheets saying the calibration was not used."""
+        from tuning.calibration import NOT_USED
+
+        if not use:
+            return NOT_USED
+        if self.history is None:
+            return None
+        from tuning.history import calibration_of
+
+        return calibration_of(self.history, fleet)
+
+    def adjust(self, fleet, event, plan: dict) -> dict:
+        """The plan started from the settings bikes still wear (the law stays on the proven ones)."""
+        self.event = event
+        if self.history is None:
+            self.plan = plan
+            return plan
+        from tuning.history import fitted_state
+        from tuning.plan.fitted import start_from_fitted
+
+        self.before = self.history.last_plan(event, fleet.name)
+        self.fitted = fitted_state(self.history, fleet)
+        self.plan = start_from_fitted(plan, fleet, self.fitted)
+        return self.plan
+
+    def record(self) -> None:
+        if self.history is not None and self.plan is not None:
+            self.history.record_plan(self.event, self.plan)
+
+    def lines(self, display) -> list[str]:
+        """The terminal's lines: bikes starting from fitted settings, bikes changed since the last plan."""
+        if self.history is None:
+            return []
+        _ = display._
+        lines = []
+        if self.fitted:
+            bikes = ", ".join(f"{b} ({f.event})" for b, f in self.fitted.items())
+            lines.append(display.n_("{count} bike starts from the settings it still wears, not its proven ones "
+                                    "(the event it wore them at in brackets): {bikes}",
+                                    "{count} bikes start from the settings they still wear, not their proven ones "
+                                    "(the event they wore them at in brackets): {bikes}",
+                                    len(self.fitted)).format(count=len(self.fitted), bikes=bikes))
+        if self.before is not None:
+            lines.append(_changes_line(self.before[0], self.before[1], self.plan, display))
+        return lines
+
+    def close(self) -> None:
+        if self.history is not None:
+            self.history.close()
+
+
+_SHORT = {"main_jet": N_("main"), "pilot_jet": N_("pilot"), "clip": N_("clip"), "mixture_screw": N_("screw")}
+
+
+def _changes_line(made_at: str, before: dict, after: dict, display) -> str:
+    """``3 bikes changed since the plan of 18:00: K03 main 120→118, ...`` (the morning-of re-run)."""
+    from datetime import datetime
+    from zoneinfo import ZoneInfo
+
+    from tuning.history import plan_changes
+
+    zone = ZoneInfo(after["site"]["time_zone"])
+    made = datetime.fromisoformat(made_at).astimezone(zone)
+    when = made.strftime("%H:%M") if made.date() == datetime.now(zone).date() else made.strftime("%Y-%m-%d %H:%M")
+    changed = plan_changes(before, after)
+    if not changed:
+        return display._("no bike changed since the plan of {when}").format(when=when)
+    parts = []
+    for bike, moves in changed.items():
+        pairs: dict[str, list[str]] = {}
+        for key, _session, old, new in moves:
+            pair = f"{_plain(display, old)}→{_plain(display, new)}"
+            if pair not in pairs.setdefault(key, []):
+                pairs[key].append(pair)
+        parts.append(" ".join([bike] + [f"{display._(_SHORT[k])} {'/'.join(v)}" for k, v in pairs.items()]))
+    return display.n_("{count} bike changed since the plan of {when}: {changes}",
+                      "{count} bikes changed since the plan of {when}: {changes}", len(changed)).format(
+        count=len(changed), when=when, changes=", ".join(parts))
+
+
+def add_record_parser(sub) -> None:
+    from tuning.history.outcomes import AFR_RANGE, COLUMNS
+
+    p = sub.add_parser(
+        "record", help="record what was fitted and seen at an event (an outcomes CSV) in the history",
+        description="Record an outcomes file in the history: one row per bike and session (or 'after' for "
+        "after the event) with the columns bike and session and any of " + ", ".join(COLUMNS[2:]) + ". "
+        f"throttle is a fraction 0..1 or a percent 0..100; wideband_afr an air-fuel ratio {AFR_RANGE[0]:g}..{AFR_RANGE[1]:g}; "
+        "plug lean, ok or rich; main_jet, pilot_jet, clip and mixture_screw_turns what was fitted where it "
+        "differs from the plan; returned_to_proven yes or no. Every row is checked first: any bad row is "
+        "reported as file:line: column: problem (exit 2) and nothing of the file is recorded. Recording the "
+        "same file again changes nothing.")
+    p.add_argument("fleet", metavar="FLEET", help="fleet file (YAML)")
+    p.add_argument("event", metavar="EVENT", help="event file (YAML) the outcomes are from")
+    p.add_argument("outcomes", metavar="OUTCOMES", help="outcomes file (CSV, UTF-8, a header line)")
+    add_history_options(p, can_skip=False)
+    p.set_defaults(func=cmd_record)
+
+
+def cmd_record(args) -> int:
+    from tuning.config import display_for, load_event, load_fleet
+    from tuning.config.spec import one_line
+    from tuning.history import open_history, read_outcomes
+
+    fleet = load_fleet(args.fleet)
+    event = load_event(args.event, fleet)
+    sha, rows = read_outcomes(args.outcomes, fleet, event)  # every row checked before anything is written
+    place = _history_place(args, args.fleet)
+    with open_history(place) as history:
+        done = history.record_outcomes(fleet, event, args.outcomes, sha, rows)
+    d = display_for(event, None, None)
+    if done.again:
+        text = d._("{file} was recorded before: nothing changed in {history}")
+    else:
+        text = d.n_("recorded {rows} row of {file} in {history}", "recorded {rows} rows of {file} in {history}",
+                    done.rows)
+    print(one_line(text.format(rows=done.rows, file=args.outcomes, history=_shown_place(place))))
+    return EXIT_OK
+
+
+def _shown_place(place: str) -> str:
+    from tuning.history.store import _shown
+
+    return _shown(place)
+
+
+def add_history_parser(sub) -> None:
+    p = sub.add_parser(
+        "history", help="show what each bike ran, where, in what air, and what was seen",
+        description="Show the history: per bike, every event with a plan or outcomes: site and days, "
+        "density altitude and temperature of the plan, the settings planned and fitted, plug readings, "
+        "wideband readings (count, leanest and richest) and remarks. Reads only; creates nothing.")
+    p.add_argument("bike", metavar="BIKE", nargs="?", help="only this bike")
+    p.add_argument("--fleet", metavar="FLEET", default=None,
+                   help=f"only this fleet's bikes; its folder holds the default history ({HISTORY_FILE})")
+    add_history_options(p, can_skip=False)
+    add_display_options(p, event_file=False)
+    p.set_defaults(func=cmd_history)
+
+
+def cmd_history(args) -> int:
+    from pathlib import Path
+
+    from rich.console import Console
+
+    from tuning.config import display_for, load_fleet
+    from tuning.history import is_url, open_history
+    from tuning.report.history_table import history_table
+
+    fleet = load_fleet(args.fleet) if args.fleet else None
+    place = _history_place(args, args.fleet or "")
+    if not is_url(place) and not Path(place).is_file():
+        raise UserError(f"--history: no history at {place}; plan, build or record first, or name it with --history")
+    display = display_for(None, args.units, args.language)
+    with open_history(place) as history:
+        table = history_table(history, fleet.name if fleet else None, args.bike, display)
+    if table is None:
+        print(display._("nothing recorded for {what}").format(what=args.bike or _shown_place(place)))
+        return EXIT_OK
+    Console(highlight=False, soft_wrap=False).print(table)
+    return EXIT_OK
+
+
 # --- main ------------------------------------------------------------------------------
 def make_parser() -> argparse.ArgumentParser:
     parser = argparse.ArgumentParser(
@@ -453,6 +684,8 @@ def make_parser() -> argparse.ArgumentParser:
     add_plan_parser(sub)
     add_build_parser(sub)
     add_example_parser(sub)
+    add_record_parser(sub)
+    add_history_parser(sub)
     return parser
 
 

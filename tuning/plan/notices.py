@@ -56,10 +56,11 @@ CODES = {
     "assumed-needle-geometry": ("note", N_("the needle geometry was assumed, not given: the clip only moves richer")),
     "assumed-screw-range": ("note", N_("the mixture screw's usable range was assumed, not given")),
     "no-needle": ("note", N_("no needle or clip position on record: the clip is not planned")),
+    "fitted-not-proven": ("action", N_("the bike still wears the settings of an earlier event, not its proven ones")),
 }
 
 #: Codes about a bike's records rather than a session: given once per bike.
-BIKE_CODES = frozenset({"assumed-needle-geometry", "assumed-screw-range", "no-needle"})
+BIKE_CODES = frozenset({"assumed-needle-geometry", "assumed-screw-range", "no-needle", "fitted-not-proven"})
 
 #: Words named by a key in the parameters (``part``, ``screw``, ``direction``); ``no change`` is
 #: the direction of a setting that stays.
@@ -99,6 +100,9 @@ TEXTS = {
         "Required area factor %(factor_min)s..%(factor_max)s is outside the model's range "
         "%(range_low)s..%(range_high)s: treat the settings as a starting point and make a test run with "
         "a plug reading first."),
+    "fitted-not-proven": N_(
+        "Starts from the settings fitted for %(event)s, not the proven ones: nothing recorded says the bike "
+        "was returned. Check what is fitted before the work; the jets to pick still count from the proven ones."),
     "no-needle": N_(
         "No needle or clip position on record: the clip is not planned; record the needle and clip in the "
         "fleet file."),

@@ -228,8 +228,14 @@ def _check_options(paper: str, workers: int, units: str = "metric", language: st
 
 def build(fleet_path: str | Path, event_path: str | Path, out_dir: str | Path, paper: str = "a4",
           quiet: bool = False, workers: int = 2, policy: str | None = None,
-          units: str | None = None, language: str | None = None) -> BuildResult:
+          units: str | None = None, language: str | None = None, adjust=None, calibrate=None) -> BuildResult:
     """Plan ``fleet_path`` x ``event_path`` and build the whole output folder ``out_dir``.
+
+    ``calibrate``, if given, is called as ``calibrate(fleet)`` before planning and returns the
+    calibration to plan with (:func:`tuning.plan.make_plan`'s ``calibration``; None: the law).
+
+    ``adjust``, if given, is called as ``adjust(fleet, event, plan)`` after planning and returns
+    the plan document to build (the CLI's history: settings still fitted, the plan to record).
 
     ``units`` (``metric`` or ``us``) and ``language`` (``en`` or ``de``) of the pages: ``None``
     takes the event file's ``units`` and ``language``, else metric and English.
@@ -248,7 +254,10 @@ def build(fleet_path: str | Path, event_path: str | Path, out_dir: str | Path, p
     event = load_event(event_path, fleet)
     if event.weather.source and event.weather.source != "METAR":
         inputs.append(event.weather.source)
-    plan = make_plan(fleet, event, policy_name=policy)
+    calibration = calibrate(fleet) if calibrate is not None else None
+    plan = make_plan(fleet, event, policy_name=policy, calibration=calibration)
+    if adjust is not None:
+        plan = adjust(fleet, event, plan)
     display = display_for(event, units, language)  # the command line, else the event file, else metric/en
     units, language = display.units, display.language
     return build_from_plan(plan, out_dir, paper=paper, quiet=quiet, workers=workers,
