@@ -37,6 +37,7 @@ demo: $(STAMP)
 
 test: $(TESTSTAMP)
 	$(PY) -m ruff check tuning tests benchmarks
+	$(PY) -m ruff format --check tuning tests benchmarks
 	$(PY) -m pytest
 
 bench: $(TESTSTAMP)

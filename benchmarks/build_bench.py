@@ -117,11 +117,18 @@ def run_build(n_bikes: int, workers: int, sample: bool = True) -> dict:
     stop.set()
     if sample:
         sampler.join()
-    usage = (resource.getrusage(resource.RUSAGE_SELF).ru_maxrss
-             + resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss) * 1024
-    return {"bikes": n_bikes, "seconds": seconds, "cpu_s": cpu, "peak_tree_rss_MB": peak[0] / 1e6,
-            "getrusage_self_plus_child_MB": usage / 1e6, "out": str(out),
-            "font_subsetter": result.font_subsetter}
+    usage = (
+        resource.getrusage(resource.RUSAGE_SELF).ru_maxrss + resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss
+    ) * 1024
+    return {
+        "bikes": n_bikes,
+        "seconds": seconds,
+        "cpu_s": cpu,
+        "peak_tree_rss_MB": peak[0] / 1e6,
+        "getrusage_self_plus_child_MB": usage / 1e6,
+        "out": str(out),
+        "font_subsetter": result.font_subsetter,
+    }
 
 
 def _cpu_seconds() -> float:
@@ -156,8 +163,13 @@ def floor(out: Path) -> dict:
     cpu = _cpu_seconds() - cpu_before
     del pipeline
     shutil.rmtree(tmp, ignore_errors=True)
-    return {"sheets": len(sheets), "kernel_start_s": kernel_seconds, "render_s": render_seconds,
-            "floor_s": kernel_seconds + render_seconds, "cpu_s": cpu}
+    return {
+        "sheets": len(sheets),
+        "kernel_start_s": kernel_seconds,
+        "render_s": render_seconds,
+        "floor_s": kernel_seconds + render_seconds,
+        "cpu_s": cpu,
+    }
 
 
 def main() -> None:
@@ -189,10 +201,14 @@ def main() -> None:
     base = floor(Path(speed["out"]))
     print(f"font subsetter: {speed['font_subsetter']}")
     each = ", ".join(f"{r['seconds']:.1f}" for r in runs)
-    print(f"build, {args.bikes} bikes x 4 sessions, {args.workers} workers: median {seconds:.1f} s of "
-          f"{len(runs)} runs ({each}); {seconds / args.bikes * 1000:.0f} ms per bike")
-    print(f"floor: kernel start {base['kernel_start_s']:.1f} s + one-process PDF of {base['sheets']} finished "
-          f"sheets {base['render_s']:.1f} s = {base['floor_s']:.1f} s")
+    print(
+        f"build, {args.bikes} bikes x 4 sessions, {args.workers} workers: median {seconds:.1f} s of "
+        f"{len(runs)} runs ({each}); {seconds / args.bikes * 1000:.0f} ms per bike"
+    )
+    print(
+        f"floor: kernel start {base['kernel_start_s']:.1f} s + one-process PDF of {base['sheets']} finished "
+        f"sheets {base['render_s']:.1f} s = {base['floor_s']:.1f} s"
+    )
     cpu = statistics.median(r["cpu_s"] for r in runs)
     print(f"CPU (user + system): build median {cpu:.1f} s, floor {base['cpu_s']:.1f} s")
     print(f"build / floor: {seconds / base['floor_s']:.2f} (target <= 0.8); build target < 25 s")
@@ -200,9 +216,11 @@ def main() -> None:
     if args.memory_bikes:
         memory = child(args.memory_bikes, sample=True)
         shutil.rmtree(Path(memory["out"]).parent, ignore_errors=True)
-        print(f"build, {args.memory_bikes} bikes: {memory['seconds']:.1f} s; peak RSS of the process tree "
-              f"{memory['peak_tree_rss_MB']:.0f} MB (sampled), getrusage self + largest child "
-              f"{memory['getrusage_self_plus_child_MB']:.0f} MB (target < 1500 MB)")
+        print(
+            f"build, {args.memory_bikes} bikes: {memory['seconds']:.1f} s; peak RSS of the process tree "
+            f"{memory['peak_tree_rss_MB']:.0f} MB (sampled), getrusage self + largest child "
+            f"{memory['getrusage_self_plus_child_MB']:.0f} MB (target < 1500 MB)"
+        )
     print(f"load average after: {os.getloadavg()[0]:.2f}")
 
 

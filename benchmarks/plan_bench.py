@@ -42,8 +42,12 @@ def build(n_bikes: int, n_hours: int, random_state: int = 7, n_sessions: int = 1
 
     models = {
         "A": m.Model("A", 2, 250e-6, m.Carburetor("round", 38e-3, 2.62e-3), 40.0, settings(160.0, "main", "N1", "air")),
-        "B": m.Model("B", 4, 450e-6, m.Carburetor("flat", 40e-3, 2.62e-3, True), None, settings(170.0, "main", "N1", "fuel")),
-        "C": m.Model("C", 2, 125e-6, m.Carburetor("round", 36e-3, None), 32.0, settings(400.0, "main-flow", "N2", "air")),
+        "B": m.Model(
+            "B", 4, 450e-6, m.Carburetor("flat", 40e-3, 2.62e-3, True), None, settings(170.0, "main", "N1", "fuel")
+        ),
+        "C": m.Model(
+            "C", 2, 125e-6, m.Carburetor("round", 36e-3, None), 32.0, settings(400.0, "main-flow", "N2", "air")
+        ),
     }
     names = list(models)
     bikes = []
@@ -51,20 +55,35 @@ def build(n_bikes: int, n_hours: int, random_state: int = 7, n_sessions: int = 1
         name = names[i % 3]
         st = models[name].settings
         offset = float(rng.integers(-2, 3)) * (2.5 if st.main_jet_family == "main" else 10.0)
-        bikes.append(m.Bike(f"B{i:05d}", name, replace(st, main_jet=st.main_jet + offset), reference,
-                            models[name].premix_ratio, 0.5 + 0.1 * float(rng.random())))
+        bikes.append(
+            m.Bike(
+                f"B{i:05d}",
+                name,
+                replace(st, main_jet=st.main_jet + offset),
+                reference,
+                models[name].premix_ratio,
+                0.5 + 0.1 * float(rng.random()),
+            )
+        )
     stock = {("main", float(s)): int(rng.integers(0, 4)) for s in families["main"].sizes}
     fleet = m.Fleet("bench", reference, fuels, families, needles, models, tuple(bikes), stock)
     zone = ZoneInfo("Europe/Vienna")
     start = datetime(2026, 6, 13, 0, 0, tzinfo=zone)
-    times = np.array([np.datetime64((start + timedelta(hours=h)).astimezone(UTC).replace(tzinfo=None), "s")
-                      for h in range(n_hours + 2)])
+    times = np.array(
+        [
+            np.datetime64((start + timedelta(hours=h)).astimezone(UTC).replace(tzinfo=None), "s")
+            for h in range(n_hours + 2)
+        ]
+    )
     temperature = 283.15 + 8.0 * np.sin(np.arange(n_hours + 2) / 24 * 2 * np.pi)
-    weather = m.Weather(times, temperature, np.full(n_hours + 2, 101500.0), "qnh",
-                        np.full(n_hours + 2, 0.6), "relative", "bench")
+    weather = m.Weather(
+        times, temperature, np.full(n_hours + 2, 101500.0), "qnh", np.full(n_hours + 2, 0.6), "relative", "bench"
+    )
     length = n_hours // n_sessions  # the hours split into sessions back to back
-    sessions = tuple(m.Session(f"s{i + 1}", start + timedelta(hours=i * length),
-                               start + timedelta(hours=(i + 1) * length - 1)) for i in range(n_sessions))
+    sessions = tuple(
+        m.Session(f"s{i + 1}", start + timedelta(hours=i * length), start + timedelta(hours=(i + 1) * length - 1))
+        for i in range(n_sessions)
+    )
     event = m.Event("bench", m.Site("Bench Hill", 1800.0, "Europe/Vienna"), sessions, weather, "E10")
     return fleet, event
 

@@ -85,10 +85,37 @@ class _PostgresServer:
             self.port = s.getsockname()[1]
         data, log = self.folder / "data", self.folder / "log"
         run = dict(check=True, capture_output=True, timeout=120)
-        subprocess.run([*self.as_user, str(self.bin / "initdb"), "-D", str(data), "-U", "carbfleet", "-A", "trust",
-                        "-E", "UTF8", "--no-locale"], **run)
-        subprocess.run([*self.as_user, str(self.bin / "pg_ctl"), "-D", str(data), "-l", str(log), "-w", "-o",
-                        f"-p {self.port} -k {self.folder} -c listen_addresses=127.0.0.1 -c fsync=off", "start"], **run)
+        subprocess.run(
+            [
+                *self.as_user,
+                str(self.bin / "initdb"),
+                "-D",
+                str(data),
+                "-U",
+                "carbfleet",
+                "-A",
+                "trust",
+                "-E",
+                "UTF8",
+                "--no-locale",
+            ],
+            **run,
+        )
+        subprocess.run(
+            [
+                *self.as_user,
+                str(self.bin / "pg_ctl"),
+                "-D",
+                str(data),
+                "-l",
+                str(log),
+                "-w",
+                "-o",
+                f"-p {self.port} -k {self.folder} -c listen_addresses=127.0.0.1 -c fsync=off",
+                "start",
+            ],
+            **run,
+        )
         self.data = data
         self.count = 0
 
@@ -104,8 +131,11 @@ class _PostgresServer:
     def stop(self):
         import subprocess
 
-        subprocess.run([*self.as_user, str(self.bin / "pg_ctl"), "-D", str(self.data), "-m", "fast", "-w", "stop"],
-                       capture_output=True, timeout=120)
+        subprocess.run(
+            [*self.as_user, str(self.bin / "pg_ctl"), "-D", str(self.data), "-m", "fast", "-w", "stop"],
+            capture_output=True,
+            timeout=120,
+        )
         shutil.rmtree(self.folder, ignore_errors=True)
 
 

@@ -19,8 +19,9 @@ from tuning.config import model as m
 ZONE = "America/Denver"
 
 
-def conditions(elevation=0.0, celsius=20.0, pressure=101325.0, kind="station", relative_humidity=0.5,
-               dew_point=None, fuel="E0"):
+def conditions(
+    elevation=0.0, celsius=20.0, pressure=101325.0, kind="station", relative_humidity=0.5, dew_point=None, fuel="E0"
+):
     return m.Conditions(
         elevation=elevation,
         air_temperature=273.15 + celsius,
@@ -67,8 +68,18 @@ NEEDLES = {
 }
 
 
-def settings(main=160.0, main_family="main-round", pilot=40.0, needle="N-taper", clip=3, screw_kind="air",
-             turns=1.5, usable=(1.0, 3.0), float_level=None, range_assumed=False):
+def settings(
+    main=160.0,
+    main_family="main-round",
+    pilot=40.0,
+    needle="N-taper",
+    clip=3,
+    screw_kind="air",
+    turns=1.5,
+    usable=(1.0, 3.0),
+    float_level=None,
+    range_assumed=False,
+):
     return m.Settings(
         main_jet=main,
         main_jet_family=main_family,
@@ -96,8 +107,9 @@ MODELS = {
         displacement=449e-6,
         carburetor=m.Carburetor("flat", 40e-3, 2.62e-3, accelerator_pump=True),
         premix_ratio=None,
-        settings=settings(main=170.0, main_family="main-flat", pilot=42.5, screw_kind="fuel", turns=2.0,
-                          float_level=8.0e-3),
+        settings=settings(
+            main=170.0, main_family="main-flat", pilot=42.5, screw_kind="fuel", turns=2.0, float_level=8.0e-3
+        ),
     ),
     "TX-125": m.Model(
         name="TX-125",
@@ -115,8 +127,9 @@ def bike(bike_id, model_name, reference, **overrides):
     premix = overrides.pop("premix_ratio", mod.premix_ratio)
     exponent = overrides.pop("density_exponent", 0.5)
     st = replace(mod.settings, **overrides) if overrides else mod.settings
-    return m.Bike(id=bike_id, model=model_name, settings=st, reference=reference, premix_ratio=premix,
-                  density_exponent=exponent)
+    return m.Bike(
+        id=bike_id, model=model_name, settings=st, reference=reference, premix_ratio=premix, density_exponent=exponent
+    )
 
 
 def fleet(bikes=None, reference=None, stock=None, name="test-fleet"):
@@ -139,8 +152,17 @@ def fleet(bikes=None, reference=None, stock=None, name="test-fleet"):
     )
 
 
-def event(elevation=1500.0, celsius=15.0, relative_humidity=0.5, pressure=None, hours=6, spread=0.0,
-          fuel=None, sessions=None, start_local=datetime(2026, 7, 11, 9, 0)):
+def event(
+    elevation=1500.0,
+    celsius=15.0,
+    relative_humidity=0.5,
+    pressure=None,
+    hours=6,
+    spread=0.0,
+    fuel=None,
+    sessions=None,
+    start_local=datetime(2026, 7, 11, 9, 0),
+):
     """An event with hourly weather in station pressure (ISA at ``elevation`` unless given).
 
     ``spread`` [K] adds a linear warming across the weather rows (from -spread/2 to +spread/2).
@@ -149,8 +171,9 @@ def event(elevation=1500.0, celsius=15.0, relative_humidity=0.5, pressure=None, 
     start = start_local.replace(tzinfo=zone)
     n = hours + 3
     t0 = start - timedelta(hours=1)
-    times = np.array([np.datetime64((t0 + timedelta(hours=i)).astimezone(UTC).replace(tzinfo=None), "s")
-                      for i in range(n)])
+    times = np.array(
+        [np.datetime64((t0 + timedelta(hours=i)).astimezone(UTC).replace(tzinfo=None), "s") for i in range(n)]
+    )
     if pressure is None:
         pressure = 101325.0 * (1 - 2.25577e-5 * elevation) ** 5.25588  # ISA barometric formula
     temperature = 273.15 + celsius + np.linspace(-spread / 2, spread / 2, n)

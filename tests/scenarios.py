@@ -34,7 +34,9 @@ def downhill(folder: Path, colder_degF: float = 40.0, stock: bool = True) -> tup
     """The demo fleet proven at 1650 m, ridden at 120 m in air ``colder_degF`` colder; (fleet, event)."""
     fleet, event = _copy_demo(folder)
     text = fleet.read_text(encoding="utf-8")
-    text = text.replace("  elevation: 150 m\n  air_temperature: 20 degC\n", "  elevation: 1650 m\n  air_temperature: 15 degC\n", 1)
+    text = text.replace(
+        "  elevation: 150 m\n  air_temperature: 20 degC\n", "  elevation: 1650 m\n  air_temperature: 15 degC\n", 1
+    )
     if not stock:
         text = text[: text.index("\nstock:")] + "\n"
     fleet.write_text(text, encoding="utf-8")

@@ -67,8 +67,12 @@ def test_sea_level_density_derived_from_base_constants():
 @pytest.mark.parametrize(
     "pressure_hpa, altitude",
     [(850.0, 1457.0), (700.0, 3012.0), (500.0, 5574.0), (300.0, 9164.0)],
-    ids=["ICAO std isobar 850 hPa: 1457 m (from memory)", "700 hPa: 3012 m (from memory)",
-         "500 hPa: 5574 m (from memory)", "300 hPa: 9164 m (from memory)"],
+    ids=[
+        "ICAO std isobar 850 hPa: 1457 m (from memory)",
+        "700 hPa: 3012 m (from memory)",
+        "500 hPa: 5574 m (from memory)",
+        "300 hPa: 9164 m (from memory)",
+    ],
 )
 def test_pressure_altitude_of_standard_isobars(pressure_hpa, altitude):
     # Heights of the standard isobaric surfaces in the ICAO / US standard atmosphere, whole metres.
@@ -94,7 +98,11 @@ def test_outside_troposphere_warns_and_still_computes():
 
 
 # --- pressure reduction ----------------------------------------------------------------------
-QNH_GRID = [(qnh, elevation) for qnh in (950.0, 990.0, 1013.25, 1035.0) for elevation in (-400.0, 0.0, 800.0, 1340.0, 2500.0, 4500.0)]
+QNH_GRID = [
+    (qnh, elevation)
+    for qnh in (950.0, 990.0, 1013.25, 1035.0)
+    for elevation in (-400.0, 0.0, 800.0, 1340.0, 2500.0, 4500.0)
+]
 
 
 @pytest.mark.parametrize("qnh_hpa, elevation", QNH_GRID)
@@ -102,9 +110,13 @@ def test_station_pressure_from_qnh_against_metpy(qnh_hpa, elevation):
     # MetPy altimeter_to_station_pressure (Smithsonian 1951 relation). MetPy computes the
     # exponent from its own R_d and g (0.190261) where we use the printed 0.190284: up to
     # 4 Pa at 4500 m, so the tolerance is 5 Pa (0.05 hPa).
-    expected = metpy_calc.altimeter_to_station_pressure(
-        metpy_units.Quantity(qnh_hpa, "hPa"), metpy_units.Quantity(elevation, "m")
-    ).to("Pa").magnitude
+    expected = (
+        metpy_calc.altimeter_to_station_pressure(
+            metpy_units.Quantity(qnh_hpa, "hPa"), metpy_units.Quantity(elevation, "m")
+        )
+        .to("Pa")
+        .magnitude
+    )
     assert air.station_pressure_from_qnh(qnh_hpa * 100.0, elevation) == pytest.approx(expected, abs=5.0)
 
 
@@ -175,7 +187,9 @@ def test_dew_point_against_psychrolib(vapour_pressure):
 def test_vapour_pressure_from_relative_humidity_against_psychrolib(celsius, relative_humidity):
     # psychrolib GetVapPresFromRelHum (ASHRAE definition e = RH · p_ws over water).
     expected = psychrolib.GetVapPresFromRelHum(celsius, relative_humidity)
-    assert air.vapour_pressure_from_relative_humidity(relative_humidity, celsius + C0) == pytest.approx(expected, rel=3e-4)
+    assert air.vapour_pressure_from_relative_humidity(relative_humidity, celsius + C0) == pytest.approx(
+        expected, rel=3e-4
+    )
 
 
 def test_dew_point_round_trip_including_below_freezing():
@@ -232,7 +246,10 @@ def test_moist_air_density_against_coolprop(celsius, hpa, relative_humidity):
     assert air.moist_air_density(pressure, temperature, vapour) == pytest.approx(expected, rel=3e-4)
 
 
-@pytest.mark.parametrize("celsius, hpa, relative_humidity", [(-40.0, 600.0, 1.0), (-25.0, 1100.0, 0.5), (50.0, 600.0, 1.0), (50.0, 1100.0, 1.0)])
+@pytest.mark.parametrize(
+    "celsius, hpa, relative_humidity",
+    [(-40.0, 600.0, 1.0), (-25.0, 1100.0, 0.5), (50.0, 600.0, 1.0), (50.0, 1100.0, 1.0)],
+)
 def test_moist_air_density_against_coolprop_at_the_edges(celsius, hpa, relative_humidity):
     # The edges of the range in which this module uses CIPM-2007 without a warning.
     temperature, pressure = celsius + C0, hpa * 100.0
@@ -244,7 +261,9 @@ def test_moist_air_density_against_coolprop_at_the_edges(celsius, hpa, relative_
     assert result == pytest.approx(coolprop_density(temperature, pressure, x_v), rel=3e-4)
 
 
-@pytest.mark.parametrize("celsius, hpa, relative_humidity", [(-5.0, 700.0, 0.8), (20.0, 1013.25, 0.5), (35.0, 850.0, 0.9)])
+@pytest.mark.parametrize(
+    "celsius, hpa, relative_humidity", [(-5.0, 700.0, 0.8), (20.0, 1013.25, 0.5), (35.0, 850.0, 0.9)]
+)
 def test_dry_air_partial_density_and_compressibility_against_coolprop(celsius, hpa, relative_humidity):
     # CoolProp 'Vda' is the volume per kg of dry air: its inverse is the dry-air partial
     # density. CoolProp 'Z' is the mixture's compressibility factor.
@@ -365,7 +384,9 @@ def test_carried_temperature_and_pressure_against_ussa_1976(from_z, to_z):
     assert p == pytest.approx(p1, abs=1.5 * digit)  # both ends rounded to 5 digits
 
 
-@pytest.mark.parametrize(("pressure_hpa", "rise_m"), [(1013.25, 500.0), (900.0, 1000.0), (850.0, -800.0), (800.0, 1500.0)])
+@pytest.mark.parametrize(
+    ("pressure_hpa", "rise_m"), [(1013.25, 500.0), (900.0, 1000.0), (850.0, -800.0), (800.0, 1500.0)]
+)
 def test_carried_pressure_against_metpy_add_height_to_pressure(pressure_hpa, rise_m):
     """MetPy's ``add_height_to_pressure`` (its standard atmosphere: 288 K at 1013.25 hPa, 6.5 K/km):
     start at the pressure's standard-atmosphere height and temperature. Tolerance 0.02 %: MetPy takes
@@ -387,8 +408,10 @@ def test_carried_air_below_the_station_is_warmer_and_denser():
     assert t_low - t == pytest.approx(3.25, abs=0.002)  # 6.5 K/km; geopotential shortens 500 m by 0.2 m
     e = air.vapour_pressure_from_relative_humidity(rh, t)
     e_low = air.vapour_pressure_at_height(e, p, p_low, t_low)
-    high, low = air.air_state(t, p, dew_point=air.dew_point_from_vapour_pressure(e)), \
-        air.air_state(t_low, p_low, dew_point=air.dew_point_from_vapour_pressure(e_low))
+    high, low = (
+        air.air_state(t, p, dew_point=air.dew_point_from_vapour_pressure(e)),
+        air.air_state(t_low, p_low, dew_point=air.dew_point_from_vapour_pressure(e_low)),
+    )
     assert p_low > p
     assert low.dry_air_density[()] > high.dry_air_density[()] * 1.04  # USSA-1976: 1.1117 / 1.0581 - 1 = 5 %
 
@@ -402,8 +425,10 @@ def test_isothermal_lapse_rate_is_the_limit_of_small_ones():
     assert flat == pytest.approx(90_000.0 * np.exp(-1500.0 * 0.99976 / 8195.8), rel=2e-4)
 
 
-@pytest.mark.parametrize(("t_c", "rh", "rise_m"), [(10.0, 0.9, 1000.0), (25.0, 0.8, 2000.0), (5.0, 1.0, 800.0),
-                                                   (20.0, 0.3, -600.0), (0.0, 0.6, 1500.0)])
+@pytest.mark.parametrize(
+    ("t_c", "rh", "rise_m"),
+    [(10.0, 0.9, 1000.0), (25.0, 0.8, 2000.0), (5.0, 1.0, 800.0), (20.0, 0.3, -600.0), (0.0, 0.6, 1500.0)],
+)
 def test_carried_humidity_keeps_the_mixing_ratio_until_saturation(t_c, rh, rise_m):
     """MetPy's ``mixing_ratio_from_relative_humidity`` (independent): the mixing ratio is kept where
     the air stays unsaturated; where it would not, the relative humidity is 100 % (never more)."""
@@ -417,7 +442,8 @@ def test_carried_humidity_keeps_the_mixing_ratio_until_saturation(t_c, rh, rise_
 
     def mixing(p, t, r):
         return metpy_calc.mixing_ratio_from_relative_humidity(
-            metpy_units.Quantity(p, "Pa"), metpy_units.Quantity(t, "K"), metpy_units.Quantity(r, "")).m_as("")
+            metpy_units.Quantity(p, "Pa"), metpy_units.Quantity(t, "K"), metpy_units.Quantity(r, "")
+        ).m_as("")
 
     w0 = mixing(p0, t0, air.relative_humidity_from_vapour_pressure(e0, t0))
     if rh1 < 1.0 - 1e-9:

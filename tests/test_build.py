@@ -46,9 +46,17 @@ def all_files(folder: Path) -> dict[str, bytes]:
 def test_folder_has_every_output(built, plan):
     out, result = built
     names = safe_file_names(BIKES)
-    expected = {"index.html", "fleet-summary.html", "fleet-summary.pdf", "print-pack.pdf",
-                "recommendations.json", "notebooks/fleet-report.ipynb", "notebooks/fleet-report.html",
-                "notebooks/setup-sheets-1.ipynb", "notebooks/setup-sheets-2.ipynb"}
+    expected = {
+        "index.html",
+        "fleet-summary.html",
+        "fleet-summary.pdf",
+        "print-pack.pdf",
+        "recommendations.json",
+        "notebooks/fleet-report.ipynb",
+        "notebooks/fleet-report.html",
+        "notebooks/setup-sheets-1.ipynb",
+        "notebooks/setup-sheets-2.ipynb",
+    }
     expected |= {f"sheets/{names[b]}.{ext}" for b in BIKES for ext in ("html", "pdf")}
     assert expected <= set(all_files(out))
     assert result.sheets == len(BIKES) and result.warnings == plan["warnings_count"]
@@ -76,9 +84,12 @@ def test_every_sheet_shows_the_plan_settings_in_html_and_pdf(built, plan):
         assert bike in text  # the id as printed (escaped in HTML, plain on paper)
         for i, e in enumerate(entries):
             s = e["settings"]
-            for key, value in (("main_jet", s["main_jet"]["recommended"]), ("pilot_jet", s["pilot_jet"]["recommended"]),
-                               ("clip", s["clip"]["recommended"]),
-                               ("mixture_screw", turns_text(s["mixture_screw"]["recommended_turns"]))):
+            for key, value in (
+                ("main_jet", s["main_jet"]["recommended"]),
+                ("pilot_jet", s["pilot_jet"]["recommended"]),
+                ("clip", s["clip"]["recommended"]),
+                ("mixture_screw", turns_text(s["mixture_screw"]["recommended_turns"])),
+            ):
                 assert str(value) in cells[(key, e["session"])]
                 assert str(value) in text
             for key in ("main_jet", "pilot_jet", "clip", "mixture_screw"):
@@ -220,10 +231,17 @@ def test_the_trail_demo_builds_from_the_example_copy_and_shows_its_heights(tmp_p
     assert main(["example", str(tmp_path / "demo")]) == 0
     demo = tmp_path / "demo"
     ns = {"g": "http://www.topografix.com/GPX/1/1"}
-    heights = [float(e.text) for e in ET.parse(demo / "demo-trail-route.gpx").getroot().iterfind(".//g:trkpt/g:ele", ns)]
+    heights = [
+        float(e.text) for e in ET.parse(demo / "demo-trail-route.gpx").getroot().iterfind(".//g:trkpt/g:ele", ns)
+    ]
     low, high = min(heights), max(heights)
     out = tmp_path / "out-trail"
-    assert main(["build", str(demo / "demo-fleet.yaml"), str(demo / "demo-trail-event.yaml"), "--out", str(out), "--quiet"]) == 0
+    assert (
+        main(
+            ["build", str(demo / "demo-fleet.yaml"), str(demo / "demo-trail-event.yaml"), "--out", str(out), "--quiet"]
+        )
+        == 0
+    )
     doc = json.loads((out / "recommendations.json").read_text())
     loop = next(s for s in doc["sessions"] if s["heights"]["source"] == "route")
     assert (loop["heights"]["elevation_m_min"], loop["heights"]["elevation_m_max"]) == (round(low, 1), round(high, 1))

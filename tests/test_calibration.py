@@ -26,16 +26,29 @@ INF = math.inf
 
 def fleet_of(models: dict[str, int], exponent=0.5, strokes=4):
     """A fleet-like object: ``models`` {name: number of bikes}; bike ids ``name-i``."""
-    bikes = [SimpleNamespace(id=f"{m}-{i}", model=m, density_exponent=exponent) for m, k in models.items()
-             for i in range(k)]
+    bikes = [
+        SimpleNamespace(id=f"{m}-{i}", model=m, density_exponent=exponent) for m, k in models.items() for i in range(k)
+    ]
     return SimpleNamespace(bikes=bikes, models={m: SimpleNamespace(strokes=strokes) for m in models})
 
 
-def reading(bike, model, circuit, y, x, session="s1", event="e1", kind="wideband", two_stroke=False, plug=None,
-            time=None):
-    return Reading(bike=bike, model=model, circuit=circuit, kind=kind, log_ratio=y if kind == "wideband" else None,
-                   plug=plug, predicted_log_deviation=0.0 if kind == "wideband" else -y, log_density_ratio=x,
-                   two_stroke=two_stroke, event=event, session=session, time=time)
+def reading(
+    bike, model, circuit, y, x, session="s1", event="e1", kind="wideband", two_stroke=False, plug=None, time=None
+):
+    return Reading(
+        bike=bike,
+        model=model,
+        circuit=circuit,
+        kind=kind,
+        log_ratio=y if kind == "wideband" else None,
+        plug=plug,
+        predicted_log_deviation=0.0 if kind == "wideband" else -y,
+        log_density_ratio=x,
+        two_stroke=two_stroke,
+        event=event,
+        session=session,
+        time=time,
+    )
 
 
 def generated(rng, bikes, truth, sessions=10, per_circuit=3, noise=NOISE, x_range=(-0.30, 0.08), two_stroke=False):
@@ -51,8 +64,19 @@ def generated(rng, bikes, truth, sessions=10, per_circuit=3, noise=NOISE, x_rang
                 effect = rng.normal(0.0, noise.session)
                 for k in range(per_circuit):
                     y = beta[c] + beta[3] * x + effect + rng.normal(0.0, sd)
-                    out.append(reading(bike, bike.rsplit("-", 1)[0], circuit, y, x, session=f"s{s}", event=f"e{s // 3}",
-                                       two_stroke=two_stroke, time=f"{s}-{k}"))
+                    out.append(
+                        reading(
+                            bike,
+                            bike.rsplit("-", 1)[0],
+                            circuit,
+                            y,
+                            x,
+                            session=f"s{s}",
+                            event=f"e{s // 3}",
+                            two_stroke=two_stroke,
+                            time=f"{s}-{k}",
+                        )
+                    )
     return out
 
 
@@ -66,14 +90,17 @@ def design(readings):
 
 # --- (a) against statsmodels --------------------------------------------------------------------------
 
+
 def test_unpooled_fit_is_statsmodels_wls():
     """No pooling (free levels) and no session effect: each bike's estimate is the weighted least-squares
     fit, mixed plug and wideband, two-stroke readings down-weighted (statsmodels WLS, scale fixed at 1)."""
     rng = np.random.default_rng(7)
     fleet = fleet_of({"m": 1})
     rs = generated(rng, ["m-0"], {"m-0": (0.02, -0.03, 0.05, 0.2)}, sessions=6, two_stroke=True)
-    rs += [reading("m-0", "m", "main", 0.08, -0.1, kind="plug", plug="lean", session="p1"),
-           reading("m-0", "m", "pilot", -0.08, 0.02, kind="plug", plug="rich", session="p2")]
+    rs += [
+        reading("m-0", "m", "main", 0.08, -0.1, kind="plug", plug="lean", session="p1"),
+        reading("m-0", "m", "pilot", -0.08, 0.02, kind="plug", plug="rich", session="p2"),
+    ]
     noise = Noise(session=0.0)
     cal = estimate(rs, fleet, noise=noise, priors=Priors(INF, INF, INF, INF))
     X, y = design(rs)
@@ -106,8 +133,13 @@ def test_pooled_estimate_is_gls_with_the_priors_as_observations():
     (and 0 = μ_m), which is the conjugate normal posterior (Gelman et al. 2013, section 14.8)."""
     rng = np.random.default_rng(3)
     fleet = fleet_of({"a": 4, "b": 2, "c": 1})
-    truth = {"a-0": (0.0, 0.02, 0.06, 0.2), "a-1": (0.01, 0.0, 0.04, 0.1), "a-2": (-0.02, 0.01, 0.05, 0.25),
-             "b-0": (0.0, -0.03, -0.04, -0.1), "b-1": (0.02, -0.02, -0.02, 0.0)}
+    truth = {
+        "a-0": (0.0, 0.02, 0.06, 0.2),
+        "a-1": (0.01, 0.0, 0.04, 0.1),
+        "a-2": (-0.02, 0.01, 0.05, 0.25),
+        "b-0": (0.0, -0.03, -0.04, -0.1),
+        "b-1": (0.02, -0.02, -0.02, 0.0),
+    }
     rs = generated(rng, sorted(truth), truth, sessions=3, per_circuit=2)
     rs = [r for r in rs if not (r.bike == "b-1" and r.circuit == "pilot")]
     priors = Priors()
@@ -145,8 +177,8 @@ def test_pooled_estimate_is_gls_with_the_priors_as_observations():
     ref = sm.GLS(np.array(ys), np.array(rows), sigma=V).fit(cov_type="fixed scale", cov_kwds={"scale": 1.0})
     for (kind, name), c in col.items():
         est = (cal.models if kind == "model" else cal.bikes)[name]
-        np.testing.assert_allclose(est.mean, ref.params[c:c + 4], rtol=1e-7, atol=1e-10, err_msg=name)
-        np.testing.assert_allclose(np.sqrt(np.diag(est.covariance)), ref.bse[c:c + 4], rtol=1e-7, err_msg=name)
+        np.testing.assert_allclose(est.mean, ref.params[c : c + 4], rtol=1e-7, atol=1e-10, err_msg=name)
+        np.testing.assert_allclose(np.sqrt(np.diag(est.covariance)), ref.bse[c : c + 4], rtol=1e-7, err_msg=name)
     assert cal.bikes["a-3"].kind == "model" and cal.bikes["a-0"].kind == "calibrated"
     assert cal.bikes["c-0"].kind == "law"
 
@@ -167,8 +199,12 @@ def test_pooled_offsets_match_statsmodels_mixedlm():
     fit = sm.MixedLM(y, np.ones((len(y), 1)), groups=groups).fit(reml=True)
     assert fit.converged and float(np.asarray(fit.cov_re)[0, 0]) > 1e-5  # an interior REML fit to compare with
     sigma, tau = math.sqrt(fit.scale), math.sqrt(float(np.asarray(fit.cov_re)[0, 0]))
-    cal = estimate(rs, fleet, noise=Noise(wideband=sigma, session=0.0),
-                   priors=Priors(bike_offset=tau, bike_exponent=0.1, model_offset=INF, model_exponent=0.2))
+    cal = estimate(
+        rs,
+        fleet,
+        noise=Noise(wideband=sigma, session=0.0),
+        priors=Priors(bike_offset=tau, bike_exponent=0.1, model_offset=INF, model_exponent=0.2),
+    )
     assert cal.models["m"].offset("main") == pytest.approx(float(fit.fe_params[0]), rel=1e-6)
     for bike, effect in fit.random_effects.items():
         deviation = cal.bikes[bike].offset("main") - cal.models["m"].offset("main")
@@ -199,8 +235,12 @@ SEEDS = range(40)
 def recovered(seed):
     """A model of four bikes; bike 0 truly responds with exponent 0.7 (law 0.5) and its main runs 5 % lean."""
     rng = np.random.default_rng(seed)
-    truth = {"m-0": (0.0, 0.0, 0.05, 0.2), "m-1": (0.01, -0.01, 0.02, 0.1), "m-2": (-0.01, 0.0, 0.03, 0.15),
-             "m-3": (0.0, 0.01, 0.01, 0.05)}
+    truth = {
+        "m-0": (0.0, 0.0, 0.05, 0.2),
+        "m-1": (0.01, -0.01, 0.02, 0.1),
+        "m-2": (-0.01, 0.0, 0.03, 0.15),
+        "m-3": (0.0, 0.01, 0.01, 0.05),
+    }
     cal = estimate(generated(rng, sorted(truth), truth), fleet_of({"m": 4}))
     est = cal.bikes["m-0"]
     return (est.offset("main"), est.offset_sd("main"), est.exponent, est.exponent_sd)
@@ -246,6 +286,7 @@ def test_two_stroke_wideband_weighs_less():
 
 
 # --- (c) no readings ----------------------------------------------------------------------------------------
+
 
 def test_bike_without_readings_gets_its_models_estimate():
     rng = np.random.default_rng(4)

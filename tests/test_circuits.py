@@ -13,8 +13,13 @@ from tuning import circuits
 
 # An invented needle (typical magnitudes, from memory): 2.50 mm straight, 2.62 mm needle jet,
 # taper reaching the jet at 9 mm lift in groove 1, 1.5° included taper angle, 1 mm pitch.
-GEOMETRY = dict(needle_jet=2.62e-3, straight_diameter=2.50e-3, taper_start=9.0e-3,
-                taper_angle=math.radians(1.5), groove_pitch=1.0e-3)
+GEOMETRY = dict(
+    needle_jet=2.62e-3,
+    straight_diameter=2.50e-3,
+    taper_start=9.0e-3,
+    taper_angle=math.radians(1.5),
+    groove_pitch=1.0e-3,
+)
 
 
 def test_annulus_on_the_straight_part_is_the_ring_between_two_circles():
@@ -39,8 +44,15 @@ def test_lower_groove_is_richer_at_mid_throttle():
 
 def test_needle_too_thick_for_the_jet_raises():
     with pytest.raises(ValueError, match="needle"):
-        circuits.needle_annulus_area(0.01, needle_jet=2.4e-3, straight_diameter=2.5e-3, taper_start=9e-3,
-                                 taper_angle=0.02, groove_pitch=1e-3, clip=1)
+        circuits.needle_annulus_area(
+            0.01,
+            needle_jet=2.4e-3,
+            straight_diameter=2.5e-3,
+            taper_start=9e-3,
+            taper_angle=0.02,
+            groove_pitch=1e-3,
+            clip=1,
+        )
 
 
 @pytest.mark.parametrize(

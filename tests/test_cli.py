@@ -51,8 +51,9 @@ def test_example_writes_the_demo_and_its_schemas_and_never_overwrites(tmp_path, 
 
 def test_closed_pipe_prints_no_traceback(tmp_path):
     # `carbfleet check ... | head -0`: the reader is gone before carbfleet writes
-    process = subprocess.Popen([*CARBFLEET, "check", str(FLEET), str(EVENT)], stdout=subprocess.PIPE,
-                               stderr=subprocess.PIPE)
+    process = subprocess.Popen(
+        [*CARBFLEET, "check", str(FLEET), str(EVENT)], stdout=subprocess.PIPE, stderr=subprocess.PIPE
+    )
     process.stdout.close()
     err = process.stderr.read().decode()
     process.wait(timeout=120)

@@ -31,15 +31,25 @@ def run_json(capsys, *options):
 
 
 REQUIRED_KEYS = {
-    "station_pressure_hPa", "vapour_pressure_hPa", "dew_point_C", "relative_humidity_pct",
-    "moist_air_density_kg_m3", "dry_air_density_kg_m3", "density_ratio_isa", "pressure_altitude_m",
-    "density_altitude_m", "sae_j1349_cf", "icing_risk", "pressure_kind",
+    "station_pressure_hPa",
+    "vapour_pressure_hPa",
+    "dew_point_C",
+    "relative_humidity_pct",
+    "moist_air_density_kg_m3",
+    "dry_air_density_kg_m3",
+    "density_ratio_isa",
+    "pressure_altitude_m",
+    "density_altitude_m",
+    "sae_j1349_cf",
+    "icing_risk",
+    "pressure_kind",
 }
 
 
 def test_json_keys_present(capsys):
-    result = run_json(capsys, "--elevation", "1340 m", "--temperature", "24 degC", "--qnh", "1016 hPa",
-                      "--relative-humidity", "40 %")
+    result = run_json(
+        capsys, "--elevation", "1340 m", "--temperature", "24 degC", "--qnh", "1016 hPa", "--relative-humidity", "40 %"
+    )
     assert REQUIRED_KEYS <= set(result)
     assert result["pressure_kind"] == "qnh"
     assert result["density_ratio_isa"] == pytest.approx(result["moist_air_density_kg_m3"] / 1.225, abs=1e-5)
@@ -56,8 +66,9 @@ def test_table_output(capsys):
 
 def test_bare_numbers_are_m_degc_hpa_percent(capsys):
     bare = run_json(capsys, "--elevation", "1340", "--temperature", "24", "--qnh", "1016", "--relative-humidity", "40")
-    units = run_json(capsys, "--elevation", "1340 m", "--temperature", "24 degC", "--qnh", "1016 hPa",
-                     "--relative-humidity", "40 %")
+    units = run_json(
+        capsys, "--elevation", "1340 m", "--temperature", "24 degC", "--qnh", "1016 hPa", "--relative-humidity", "40 %"
+    )
     assert bare == units
 
 
@@ -66,8 +77,12 @@ def test_bare_numbers_are_m_degc_hpa_percent(capsys):
 # and computes its own saturation pressure and enhancement factor (fully independent).
 RANDOM = np.random.default_rng(20261202)
 CONDITIONS = [
-    (float(RANDOM.uniform(32.0, 104.0)), float(RANDOM.uniform(18.0, 31.0)), float(RANDOM.uniform(0.0, 100.0)),
-     float(RANDOM.uniform(0.0, 14_000.0)))
+    (
+        float(RANDOM.uniform(32.0, 104.0)),
+        float(RANDOM.uniform(18.0, 31.0)),
+        float(RANDOM.uniform(0.0, 100.0)),
+        float(RANDOM.uniform(0.0, 14_000.0)),
+    )
     for _ in range(6)
 ]
 
@@ -75,8 +90,15 @@ CONDITIONS = [
 @pytest.mark.parametrize("fahrenheit, inches, percent, feet", CONDITIONS)
 def test_moist_density_against_coolprop_in_us_units(capsys, fahrenheit, inches, percent, feet):
     result = run_json(
-        capsys, "--elevation", f"{feet:.1f} ft", "--temperature", f"{fahrenheit:.3f} degF",
-        "--station-pressure", f"{inches:.4f} inHg", "--relative-humidity", f"{percent:.3f} %",
+        capsys,
+        "--elevation",
+        f"{feet:.1f} ft",
+        "--temperature",
+        f"{fahrenheit:.3f} degF",
+        "--station-pressure",
+        f"{inches:.4f} inHg",
+        "--relative-humidity",
+        f"{percent:.3f} %",
     )
     temperature = fahrenheit_to_kelvin(float(f"{fahrenheit:.3f}"))
     pressure = float(f"{inches:.4f}") * INCH_OF_MERCURY
@@ -87,11 +109,16 @@ def test_moist_density_against_coolprop_in_us_units(capsys, fahrenheit, inches, 
 
 def test_qnh_in_inches_against_metpy(capsys):
     # MetPy altimeter_to_station_pressure; 0.05 hPa for the exponent MetPy computes itself.
-    result = run_json(capsys, "--elevation", "4400 ft", "--temperature", "75 degF", "--qnh", "29.92 inHg",
-                      "--dew-point", "50 degF")
-    expected = metpy_calc.altimeter_to_station_pressure(
-        metpy_units.Quantity(29.92, "inHg"), metpy_units.Quantity(4400 * FOOT, "m")
-    ).to("hPa").magnitude
+    result = run_json(
+        capsys, "--elevation", "4400 ft", "--temperature", "75 degF", "--qnh", "29.92 inHg", "--dew-point", "50 degF"
+    )
+    expected = (
+        metpy_calc.altimeter_to_station_pressure(
+            metpy_units.Quantity(29.92, "inHg"), metpy_units.Quantity(4400 * FOOT, "m")
+        )
+        .to("hPa")
+        .magnitude
+    )
     assert result["station_pressure_hPa"] == pytest.approx(expected, abs=0.05)
     assert result["dew_point_C"] == pytest.approx(10.0, abs=0.01)
 
@@ -99,8 +126,17 @@ def test_qnh_in_inches_against_metpy(capsys):
 def test_sea_level_pressure_is_reduced_with_elevation(capsys):
     # Forgetting the elevation would erase the altitude effect: at 1340 m the station
     # pressure must be far below the sea-level value.
-    result = run_json(capsys, "--elevation", "1340 m", "--temperature", "15", "--sea-level-pressure", "1013.25",
-                      "--relative-humidity", "50")
+    result = run_json(
+        capsys,
+        "--elevation",
+        "1340 m",
+        "--temperature",
+        "15",
+        "--sea-level-pressure",
+        "1013.25",
+        "--relative-humidity",
+        "50",
+    )
     assert result["pressure_kind"] == "sea_level"
     assert 860.0 < result["station_pressure_hPa"] < 880.0
 
@@ -115,23 +151,87 @@ def test_help_states_units(capsys):
 
 
 BAD = {
-    "unknown unit": ["--elevation", "1340 m", "--temperature", "24 degK2", "--qnh", "1016", "--relative-humidity", "40"],
+    "unknown unit": [
+        "--elevation",
+        "1340 m",
+        "--temperature",
+        "24 degK2",
+        "--qnh",
+        "1016",
+        "--relative-humidity",
+        "40",
+    ],
     "wrong dimension": ["--elevation", "1340 m", "--temperature", "24 m", "--qnh", "1016", "--relative-humidity", "40"],
     "not a number": ["--elevation", "high", "--temperature", "24", "--qnh", "1016", "--relative-humidity", "40"],
-    "humidity over 100 %": ["--elevation", "1340", "--temperature", "24", "--qnh", "1016", "--relative-humidity", "140 %"],
-    "pressure below 300 hPa": ["--elevation", "1340", "--temperature", "24", "--qnh", "25 kPa", "--relative-humidity", "40"],
-    "pressure above 1100 hPa": ["--elevation", "1340", "--temperature", "24", "--station-pressure", "35 inHg",
-                                "--relative-humidity", "40"],
-    "two pressure kinds": ["--elevation", "1340", "--temperature", "24", "--qnh", "1016", "--station-pressure", "870",
-                           "--relative-humidity", "40"],
+    "humidity over 100 %": [
+        "--elevation",
+        "1340",
+        "--temperature",
+        "24",
+        "--qnh",
+        "1016",
+        "--relative-humidity",
+        "140 %",
+    ],
+    "pressure below 300 hPa": [
+        "--elevation",
+        "1340",
+        "--temperature",
+        "24",
+        "--qnh",
+        "25 kPa",
+        "--relative-humidity",
+        "40",
+    ],
+    "pressure above 1100 hPa": [
+        "--elevation",
+        "1340",
+        "--temperature",
+        "24",
+        "--station-pressure",
+        "35 inHg",
+        "--relative-humidity",
+        "40",
+    ],
+    "two pressure kinds": [
+        "--elevation",
+        "1340",
+        "--temperature",
+        "24",
+        "--qnh",
+        "1016",
+        "--station-pressure",
+        "870",
+        "--relative-humidity",
+        "40",
+    ],
     "no pressure": ["--elevation", "1340", "--temperature", "24", "--relative-humidity", "40"],
-    "two humidity kinds": ["--elevation", "1340", "--temperature", "24", "--qnh", "1016", "--relative-humidity", "40",
-                           "--dew-point", "10"],
+    "two humidity kinds": [
+        "--elevation",
+        "1340",
+        "--temperature",
+        "24",
+        "--qnh",
+        "1016",
+        "--relative-humidity",
+        "40",
+        "--dew-point",
+        "10",
+    ],
     "no humidity": ["--elevation", "1340", "--temperature", "24", "--qnh", "1016"],
     "no temperature": ["--elevation", "1340", "--qnh", "1016", "--relative-humidity", "40"],
     "no elevation with qnh": ["--temperature", "24", "--qnh", "1016", "--relative-humidity", "40"],
     "dew point above temperature": ["--elevation", "1340", "--temperature", "24", "--qnh", "1016", "--dew-point", "27"],
-    "temperature far out": ["--elevation", "1340", "--temperature", "400 K", "--qnh", "1016", "--relative-humidity", "40"],
+    "temperature far out": [
+        "--elevation",
+        "1340",
+        "--temperature",
+        "400 K",
+        "--qnh",
+        "1016",
+        "--relative-humidity",
+        "40",
+    ],
 }
 
 
@@ -149,12 +249,23 @@ def test_bad_value_is_one_line_and_exit_2(capsys, options):
 @pytest.mark.parametrize(
     "option, value, expected",
     [
-        ("--relative-humidity", "50 %%", "carbfleet air: --relative-humidity: '50 %%' is not a plain number or "
-                                          "percentage; write it as '50 %'"),
-        ("--temperature", "20 delta_degC", "carbfleet air: --temperature: '20 delta_degC' is a temperature "
-                                           "difference, not a temperature; give a temperature such as '20 degC'"),
-        ("--dew-point", "5 delta_degF", "carbfleet air: --dew-point: '5 delta_degF' is a temperature difference, "
-                                        "not a temperature; give a temperature such as '5 degC'"),
+        (
+            "--relative-humidity",
+            "50 %%",
+            "carbfleet air: --relative-humidity: '50 %%' is not a plain number or percentage; write it as '50 %'",
+        ),
+        (
+            "--temperature",
+            "20 delta_degC",
+            "carbfleet air: --temperature: '20 delta_degC' is a temperature "
+            "difference, not a temperature; give a temperature such as '20 degC'",
+        ),
+        (
+            "--dew-point",
+            "5 delta_degF",
+            "carbfleet air: --dew-point: '5 delta_degF' is a temperature difference, "
+            "not a temperature; give a temperature such as '5 degC'",
+        ),
     ],
 )
 def test_unit_of_the_wrong_kind_is_one_line(capsys, option, value, expected):
@@ -169,7 +280,9 @@ def test_unit_of_the_wrong_kind_is_one_line(capsys, option, value, expected):
 
 
 def test_bare_relative_humidity_below_one_is_read_as_percent_with_a_note(capsys):
-    result = run_json(capsys, "--elevation", "1340", "--temperature", "24", "--qnh", "1016", "--relative-humidity", "0.4")
+    result = run_json(
+        capsys, "--elevation", "1340", "--temperature", "24", "--qnh", "1016", "--relative-humidity", "0.4"
+    )
     assert result["relative_humidity_pct"] == pytest.approx(0.4)  # read as 0.4 %, as documented
     main(["air", "--elevation", "1340", "--temperature", "24", "--qnh", "1016", "--relative-humidity", "0.4"])
     assert capsys.readouterr().err.splitlines() == [

@@ -43,10 +43,26 @@ def number(text: str) -> float:
 
 
 # ICAO standard atmosphere at sea level, dry air; the elevation 1219.2 m = 4000 ft exactly (NIST SP 811, B.8).
-STANDARD_BARE = ["--elevation", "1219.2", "--temperature", "15", "--station-pressure", "1013.25",
-                 "--relative-humidity", "0"]
-STANDARD_US = ["--elevation", "4000 ft", "--temperature", "59 degF", "--station-pressure", "29.92 inHg",
-               "--relative-humidity", "0 %"]
+STANDARD_BARE = [
+    "--elevation",
+    "1219.2",
+    "--temperature",
+    "15",
+    "--station-pressure",
+    "1013.25",
+    "--relative-humidity",
+    "0",
+]
+STANDARD_US = [
+    "--elevation",
+    "4000 ft",
+    "--temperature",
+    "59 degF",
+    "--station-pressure",
+    "29.92 inHg",
+    "--relative-humidity",
+    "0 %",
+]
 
 
 def test_air_in_us_units_shows_degf_ft_inhg_and_no_metric_unit(capsys):
@@ -59,14 +75,17 @@ def test_air_in_us_units_shows_degf_ft_inhg_and_no_metric_unit(capsys):
     assert rows["station pressure"] == ("29.92", "inHg")  # 1013.25 hPa = 29.92 inHg (ICAO standard)
     assert rows["air temperature"] == ("59.0", "°F")  # 15 °C = 59 °F (ICAO standard sea-level temperature)
     assert rows["site elevation"] == ("4000", "ft")  # 1219.2 m / 0.3048 m (NIST SP 811, B.8)
-    assert rows["pressure altitude"][1] == "ft" and abs(number(rows["pressure altitude"][0])) <= 1  # ISA: 1013.25 hPa is 0 ft
+    assert (
+        rows["pressure altitude"][1] == "ft" and abs(number(rows["pressure altitude"][0])) <= 1
+    )  # ISA: 1013.25 hPa is 0 ft
 
 
 def test_air_pressure_altitude_in_feet_against_the_standard_atmosphere(capsys):
     # ICAO standard atmosphere: 843.1 hPa at 5000 ft (table value, from memory; the ISA formula
     # with NIST's foot gives 843.07 hPa). 0.05 hPa of printed precision is about 2 ft there.
-    rows = air_rows(capsys, "--temperature", "5", "--station-pressure", "843.1", "--relative-humidity", "0",
-                    "--units", "us")
+    rows = air_rows(
+        capsys, "--temperature", "5", "--station-pressure", "843.1", "--relative-humidity", "0", "--units", "us"
+    )
     value, unit = rows["pressure altitude"]
     assert unit == "ft" and number(value) == pytest.approx(5000, abs=3)
 
@@ -154,8 +173,9 @@ def test_plan_takes_the_event_files_units_and_the_command_line_wins(demo, capsys
     assert not re.search(r"(factor|Faktor) \d+,\d+", out)
 
 
-@pytest.mark.parametrize("setting, field, choices", [("units: imperial", "units", "metric, us"),
-                                                      ("language: fr", "language", "en, de")])
+@pytest.mark.parametrize(
+    "setting, field, choices", [("units: imperial", "units", "metric, us"), ("language: fr", "language", "en, de")]
+)
 def test_bad_event_setting_is_one_line_with_file_and_line(demo, capsys, setting, field, choices):
     add_to_event(demo, setting)
     text = (demo / EVENT).read_text(encoding="utf-8")
@@ -175,11 +195,14 @@ class _Built:
         return "built"
 
 
-@pytest.mark.parametrize("options, expected", [
-    ([], (None, None)),
-    (["--units", "us"], ("us", None)),
-    (["--units", "metric", "--language", "de"], ("metric", "de")),
-])
+@pytest.mark.parametrize(
+    "options, expected",
+    [
+        ([], (None, None)),
+        (["--units", "us"], ("us", None)),
+        (["--units", "metric", "--language", "de"], ("metric", "de")),
+    ],
+)
 def test_build_passes_units_and_language_on(monkeypatch, capsys, tmp_path, options, expected):
     calls = []
     monkeypatch.setattr(tuning.report, "build", lambda *args, **kwargs: calls.append(kwargs) or _Built())
@@ -194,7 +217,9 @@ def test_build_takes_the_event_files_units_and_the_command_lines_language(demo, 
     German sheets in feet and inHg, a German closing line, and SI files."""
     add_to_event(demo, "units: us")
     out = demo / "out"
-    code = main(["build", str(demo / FLEET), str(demo / EVENT), "--out", str(out), "--language", "de", "--workers", "1"])
+    code = main(
+        ["build", str(demo / FLEET), str(demo / EVENT), "--out", str(out), "--language", "de", "--workers", "1"]
+    )
     captured = capsys.readouterr()
     assert code == 0, captured.err
     assert "Einstellblätter" in captured.out and "built" not in captured.out  # the closing line in German

@@ -159,7 +159,9 @@ def test_range(demo, old, new, field):
 def test_duplicate_bike_id(demo):
     text = edit(demo / FLEET, "{id: T02,", "{id: T01,")
     p = find(problems(load_fleet, demo / FLEET), "bikes[1].id")
-    assert "duplicate bike id 'T01'" in p.message and p.line == line_of(text, "{id: T01, model: trail-250-2s}\n  - {id: T03")
+    assert "duplicate bike id 'T01'" in p.message and p.line == line_of(
+        text, "{id: T01, model: trail-250-2s}\n  - {id: T03"
+    )
 
 
 def test_unknown_model(demo):
@@ -239,12 +241,15 @@ def test_event_display_setting_outside_its_choices(demo, fleet, key, bad, choice
 
 
 # The rule: the command line, else the event file, else metric and English.
-@pytest.mark.parametrize("in_file, given, expected", [
-    ((None, None), (None, None), ("metric", "en")),
-    (("us", "de"), (None, None), ("us", "de")),
-    (("us", "de"), ("metric", "en"), ("metric", "en")),
-    ((None, "de"), ("us", None), ("us", "de")),
-])
+@pytest.mark.parametrize(
+    "in_file, given, expected",
+    [
+        ((None, None), (None, None), ("metric", "en")),
+        (("us", "de"), (None, None), ("us", "de")),
+        (("us", "de"), ("metric", "en"), ("metric", "en")),
+        ((None, "de"), ("us", None), ("us", "de")),
+    ],
+)
 def test_display_for_command_line_then_event_file_then_default(fleet, in_file, given, expected):
     from dataclasses import replace
 
@@ -292,11 +297,17 @@ def test_yaml_syntax(demo):
     "edits",
     [
         # problems of the structure (keys, units, ranges), all said at once
-        (("elevation: 150 m", "elevation: 12 kg"), ("reference_afr: 12.5", "referense_afr: 12.5"),
-         ("settings: {needle: {clip: 4}}", "settings: {needle: {clip: 12}}")),
+        (
+            ("elevation: 150 m", "elevation: 12 kg"),
+            ("reference_afr: 12.5", "referense_afr: 12.5"),
+            ("settings: {needle: {clip: 4}}", "settings: {needle: {clip: 12}}"),
+        ),
         # problems between the parts (ids, names, needle grooves), all said at once when the structure is sound
-        (("{id: T02,", "{id: T01,"), ("{id: K02, model: trail-125-4s}", "{id: K02, model: trail-125-s4}"),
-         ("settings: {needle: {clip: 4}}", "settings: {needle: {clip: 6}}")),
+        (
+            ("{id: T02,", "{id: T01,"),
+            ("{id: K02, model: trail-125-4s}", "{id: K02, model: trail-125-s4}"),
+            ("settings: {needle: {clip: 4}}", "settings: {needle: {clip: 6}}"),
+        ),
     ],
     ids=["structure", "between-parts"],
 )
@@ -327,7 +338,9 @@ def test_time_without_zone(demo):
     text = edit(demo / EVENT, "  time_zone: Europe/Vienna\n", "")
     found = problems(load_event, demo / EVENT)
     p = find(found, "sessions[0].start")
-    assert "has no UTC offset and the event gives no site.time_zone" in p.message and p.line == line_of(text, "Sat morning")
+    assert "has no UTC offset and the event gives no site.time_zone" in p.message and p.line == line_of(
+        text, "Sat morning"
+    )
 
 
 def test_time_with_offset_needs_no_zone(demo):

@@ -30,10 +30,23 @@ SETTINGS = settings(max_examples=EXAMPLES, deadline=None, suppress_health_check=
 scalars = st.one_of(
     st.none(),
     st.booleans(),
-    st.integers(-10**6, 10**6),
+    st.integers(-(10**6), 10**6),
     st.floats(allow_nan=True, allow_infinity=True),
     st.text(max_size=12),
-    st.sampled_from(["12 kg", "1013 hPa", "-40 degF", "40:1", "2026-06-13 09:00", "2026-13-45 25:00", "e5", "round-main", "1e400", "5 %"]),
+    st.sampled_from(
+        [
+            "12 kg",
+            "1013 hPa",
+            "-40 degF",
+            "40:1",
+            "2026-06-13 09:00",
+            "2026-13-45 25:00",
+            "e5",
+            "round-main",
+            "1e400",
+            "5 %",
+        ]
+    ),
 )
 values = st.one_of(scalars, st.lists(scalars, max_size=3), st.dictionaries(st.text(max_size=8), scalars, max_size=2))
 
@@ -127,7 +140,10 @@ def test_raw_text_edits(data):
     raw = (DEMO / "demo-fleet.yaml").read_bytes()
     at = data.draw(st.integers(0, len(raw) - 1))
     cut = data.draw(st.integers(0, 20))
-    insert = data.draw(st.binary(max_size=4) | st.sampled_from([b":", b"- ", b"{", b"&a ", b"*a", b"\t", b"!!python/object:os.system "]))
+    insert = data.draw(
+        st.binary(max_size=4)
+        | st.sampled_from([b":", b"- ", b"{", b"&a ", b"*a", b"\t", b"!!python/object:os.system "])
+    )
     with tempfile.TemporaryDirectory() as folder:
         target = Path(folder) / "fleet.yaml"
         target.write_bytes(raw[:at] + insert + raw[at + cut :])
@@ -141,7 +157,9 @@ def test_weather_table_edits(data):
     row = data.draw(st.integers(0, len(lines) - 1))
     cells = lines[row].split(",")
     column = data.draw(st.integers(0, len(cells) - 1))
-    cells[column] = data.draw(st.one_of(st.text(max_size=8), st.sampled_from(["", "nan", "1e999", "-500", "time", "qnh [hPa]"])))
+    cells[column] = data.draw(
+        st.one_of(st.text(max_size=8), st.sampled_from(["", "nan", "1e999", "-500", "time", "qnh [hPa]"]))
+    )
     lines[row] = ",".join(cells)
     with tempfile.TemporaryDirectory() as folder:
         shutil.copy(DEMO / "demo-event.yaml", Path(folder) / "event.yaml")

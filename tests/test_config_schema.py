@@ -81,7 +81,10 @@ def test_check_command_problems(tmp_path, capsys):
     captured = capsys.readouterr()
     assert captured.out == ""
     # one problem: tuning.cli.main prefixes the command's name
-    assert captured.err.strip() == f"carbfleet check: {bad}:7: reference.elevation: '12 kg' is not a length (it is a mass); give it in m or a unit of the same kind"
+    assert (
+        captured.err.strip()
+        == f"carbfleet check: {bad}:7: reference.elevation: '12 kg' is not a length (it is a mass); give it in m or a unit of the same kind"
+    )
     assert "Traceback" not in captured.err
 
 
@@ -90,7 +93,9 @@ def test_check_command_missing_file(tmp_path, capsys):
     assert "file not found" in capsys.readouterr().err
 
 
-@pytest.mark.parametrize("args, keys", [([], {"fleet", "event"}), (["fleet"], {"$schema", "properties"}), (["event"], {"$schema"})])
+@pytest.mark.parametrize(
+    "args, keys", [([], {"fleet", "event"}), (["fleet"], {"$schema", "properties"}), (["event"], {"$schema"})]
+)
 def test_schema_command(capsys, args, keys):
     assert main(["schema", *args]) == 0
     printed = json.loads(capsys.readouterr().out)

@@ -17,10 +17,13 @@ ROOT = Path(__file__).resolve().parents[1]
 CATALOGUE = ROOT / "tuning" / "locale" / "de" / "LC_MESSAGES" / "carbfleet.po"
 
 
-@pytest.mark.parametrize("hpa, inhg", [
-    (1013.25, "29.92"),  # ICAO standard atmosphere at sea level: 1013.25 hPa = 29.92 inHg
-    (33.86389, "1.00"),  # NIST SP 811 (2008) B.8: 1 inHg (conventional) = 3.386389e3 Pa
-])
+@pytest.mark.parametrize(
+    "hpa, inhg",
+    [
+        (1013.25, "29.92"),  # ICAO standard atmosphere at sea level: 1013.25 hPa = 29.92 inHg
+        (33.86389, "1.00"),  # NIST SP 811 (2008) B.8: 1 inHg (conventional) = 3.386389e3 Pa
+    ],
+)
 def test_pressure_in_inches_of_mercury(hpa, inhg):
     assert Display("us").pressure(hpa) == f"{inhg} inHg"
 
@@ -52,12 +55,31 @@ def test_every_marked_text_has_a_german_translation(tmp_path):
     """The catalogue is complete: every text marked in the code and templates (extracted afresh
     with Babel, as `make messages` does) has a German translation, with the same placeholders."""
     pot = tmp_path / "carbfleet.pot"
-    CommandLineInterface().run(["pybabel", "-q", "extract", "-F", str(ROOT / "tuning" / "locale" / "babel.cfg"),
-                                "-k", "_", "-k", "N_", "-k", "n_:1,2", "--no-location", "-o", str(pot), str(ROOT)])
+    CommandLineInterface().run(
+        [
+            "pybabel",
+            "-q",
+            "extract",
+            "-F",
+            str(ROOT / "tuning" / "locale" / "babel.cfg"),
+            "-k",
+            "_",
+            "-k",
+            "N_",
+            "-k",
+            "n_:1,2",
+            "--no-location",
+            "-o",
+            str(pot),
+            str(ROOT),
+        ]
+    )
     extracted = {m.id for m in read_po(pot.open("rb")) if m.id}
     with CATALOGUE.open("rb") as handle:
         german = {m.id: m.string for m in read_po(handle, locale="de") if m.id}
-    missing = sorted(str(i) for i in extracted if not german.get(i) or (isinstance(german[i], tuple) and not all(german[i])))
+    missing = sorted(
+        str(i) for i in extracted if not german.get(i) or (isinstance(german[i], tuple) and not all(german[i]))
+    )
     assert not missing, f"{len(missing)} texts without German, e.g. {missing[:3]}; run make messages and translate"
     import re
 
@@ -66,7 +88,7 @@ def test_every_marked_text_has_a_german_translation(tmp_path):
         if key not in extracted:
             continue
         source = key if isinstance(key, str) else key[0]
-        for form in (text if isinstance(text, tuple) else (text,)):
+        for form in text if isinstance(text, tuple) else (text,):
             assert sorted(pattern.findall(form)) == sorted(pattern.findall(source)), (source, form)
 
 
@@ -102,6 +124,18 @@ def test_german_sheet_is_german_with_decimal_commas(demo_plan, tmp_path, which):
     assert "0,9" in text  # the jet-area factor with a decimal comma
     in_english = _sheet_text(demo_plan, bike, Display(), tmp_path)
     assert "smaller" in in_english or "larger" in in_english  # the same sheet in English has them
-    for english in ("In short", "Air at the sessions", "Change again if", "Cautions", "smaller", "larger",
-                    "leaner", "richer", "from the shelf", "off bike", "no change", "sheet"):
+    for english in (
+        "In short",
+        "Air at the sessions",
+        "Change again if",
+        "Cautions",
+        "smaller",
+        "larger",
+        "leaner",
+        "richer",
+        "from the shelf",
+        "off bike",
+        "no change",
+        "sheet",
+    ):
         assert english not in text, english

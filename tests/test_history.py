@@ -82,9 +82,21 @@ def test_the_same_file_twice_records_once(history_place, demo_inputs, tmp_path):
     assert len(recorded) == 3 and len(after) == 4
     assert [r["bike"] for r in recorded] == ["T01", "T01", "K01"]
     assert recorded[0] | {} == {
-        "event_key": event_key(event), "fleet": fleet.name, "bike": "T01", "session": "Sat morning", "time": None,
-        "throttle": 1.0, "wideband_afr": 14.2, "plug": "lean", "remark": "bogs at the top", "main_jet": None,
-        "pilot_jet": None, "clip": None, "mixture_screw_turns": None, "returned_to_proven": None}
+        "event_key": event_key(event),
+        "fleet": fleet.name,
+        "bike": "T01",
+        "session": "Sat morning",
+        "time": None,
+        "throttle": 1.0,
+        "wideband_afr": 14.2,
+        "plug": "lean",
+        "remark": "bogs at the top",
+        "main_jet": None,
+        "pilot_jet": None,
+        "clip": None,
+        "mixture_screw_turns": None,
+        "returned_to_proven": None,
+    }
     assert recorded[1]["throttle"] == pytest.approx(0.5)  # the file is in percent: 50 -> 0.5
 
 
@@ -198,18 +210,21 @@ def test_a_file_that_is_not_a_database_is_refused_and_kept(tmp_path):
 
 
 # --- reading and checking the outcomes file ------------------------------------------------
-@pytest.mark.parametrize(("row", "expected"), [
-    ("X9,Sat morning,,,ok", "2: bike: 'X9' is not a bike of fleet"),
-    ("T01,Sat evening,,,ok", "2: session: 'Sat evening' is not a session of"),
-    ("T01,Sat morning,150,13,", "2: throttle: '150': expected 0 to 100 %"),
-    ("T01,Sat morning,-0.1,13,", "2: throttle: '-0.1': expected 0 to 1 (a fraction"),
-    ("T01,Sat morning,,13,", "2: wideband_afr: a wideband reading needs the throttle"),
-    ("T01,Sat morning,1,21,", "2: wideband_afr: '21': expected 8 to 20"),
-    ("T01,Sat morning,1,0.92,", "2: wideband_afr: '0.92': expected 8 to 20"),  # a lambda value typed
-    ("T01,Sat morning,,,burnt", "2: plug: 'burnt': expected one of lean, ok, rich"),
-    ("T01,Sat morning,,,", "2: the row says nothing"),
-    ("T01,Sat morning,full,13,", "2: throttle: 'full': expected a fraction 0..1 or a percent 0..100"),
-])
+@pytest.mark.parametrize(
+    ("row", "expected"),
+    [
+        ("X9,Sat morning,,,ok", "2: bike: 'X9' is not a bike of fleet"),
+        ("T01,Sat evening,,,ok", "2: session: 'Sat evening' is not a session of"),
+        ("T01,Sat morning,150,13,", "2: throttle: '150': expected 0 to 100 %"),
+        ("T01,Sat morning,-0.1,13,", "2: throttle: '-0.1': expected 0 to 1 (a fraction"),
+        ("T01,Sat morning,,13,", "2: wideband_afr: a wideband reading needs the throttle"),
+        ("T01,Sat morning,1,21,", "2: wideband_afr: '21': expected 8 to 20"),
+        ("T01,Sat morning,1,0.92,", "2: wideband_afr: '0.92': expected 8 to 20"),  # a lambda value typed
+        ("T01,Sat morning,,,burnt", "2: plug: 'burnt': expected one of lean, ok, rich"),
+        ("T01,Sat morning,,,", "2: the row says nothing"),
+        ("T01,Sat morning,full,13,", "2: throttle: 'full': expected a fraction 0..1 or a percent 0..100"),
+    ],
+)
 def test_a_bad_row_is_one_located_line(demo_inputs, tmp_path, row, expected):
     _fp, _ep, fleet, event = demo_inputs
     path = _outcomes_file(tmp_path, "bike,session,throttle,wideband_afr,plug\n" + row + "\n")
@@ -219,21 +234,25 @@ def test_a_bad_row_is_one_located_line(demo_inputs, tmp_path, row, expected):
     assert str(caught.value).startswith(f"{path}:{expected}")
 
 
-@pytest.mark.parametrize(("column", "value", "expected"), [
-    ("main_jet", "171", "'171' is not a size of jet family 'round-main'"),  # sizes step 2.5 from 140
-    ("pilot_jet", "43", "'43' is not a size of jet family 'pilot-a'"),
-    ("clip", "6", "'6': expected a groove 1 to 5 (needle needle-a"),
-    ("clip", "0", "'0': expected a groove 1 to 5"),
-    ("mixture_screw_turns", "-1", "'-1': expected 0 to 10 turns out"),
-    ("returned_to_proven", "maybe", "'maybe': expected yes or no"),
-])
+@pytest.mark.parametrize(
+    ("column", "value", "expected"),
+    [
+        ("main_jet", "171", "'171' is not a size of jet family 'round-main'"),  # sizes step 2.5 from 140
+        ("pilot_jet", "43", "'43' is not a size of jet family 'pilot-a'"),
+        ("clip", "6", "'6': expected a groove 1 to 5 (needle needle-a"),
+        ("clip", "0", "'0': expected a groove 1 to 5"),
+        ("mixture_screw_turns", "-1", "'-1': expected 0 to 10 turns out"),
+        ("returned_to_proven", "maybe", "'maybe': expected yes or no"),
+    ],
+)
 def test_a_fitted_setting_must_exist_for_the_bike(demo_inputs, tmp_path, column, value, expected):
     _fp, _ep, fleet, event = demo_inputs
     path = _outcomes_file(tmp_path, f"bike,session,{column}\nT01,after,{value}\n")
     with pytest.raises(ConfigError) as caught:
         read_outcomes(path, fleet, event)
     assert str(caught.value) == f"{path}:2: {column}: {expected}" or str(caught.value).startswith(
-        f"{path}:2: {column}: {expected}")
+        f"{path}:2: {column}: {expected}"
+    )
 
 
 def test_a_clip_for_a_bike_without_needle_is_refused(demo_inputs, tmp_path):
@@ -245,7 +264,7 @@ def test_a_clip_for_a_bike_without_needle_is_refused(demo_inputs, tmp_path):
 
 def test_every_bad_row_is_reported_with_its_own_line(demo_inputs, tmp_path):
     _fp, _ep, fleet, event = demo_inputs
-    text = "bike,session,plug,remark\nT01,Sat morning,ok,\"two\nlines\"\nT02,Sat morning,bad,\nX1,after,ok,\n"
+    text = 'bike,session,plug,remark\nT01,Sat morning,ok,"two\nlines"\nT02,Sat morning,bad,\nX1,after,ok,\n'
     path = _outcomes_file(tmp_path, text)
     with pytest.raises(ConfigError) as caught:
         read_outcomes(path, fleet, event)
@@ -260,22 +279,30 @@ def test_the_header_is_checked(demo_inputs, tmp_path):
     assert [str(p) for p in caught.value.problems] == [
         f"{path}:1: sesion: unknown column; known: bike, session, time, throttle, wideband_afr, plug, remark, "
         "main_jet, pilot_jet, clip, mixture_screw_turns, returned_to_proven",
-        f"{path}:1: session: missing; every row names its bike and session"]
+        f"{path}:1: session: missing; every row names its bike and session",
+    ]
 
 
 def test_a_fraction_among_percent_is_refused_as_ambiguous(demo_inputs, tmp_path):
     """A fraction slipped into a file in percent would otherwise be read as almost closed."""
     _fp, _ep, fleet, event = demo_inputs
-    path = _outcomes_file(tmp_path, "bike,session,throttle,wideband_afr\nT01,Sat morning,0.5,13\nT01,Sat morning,80,13\n")
+    path = _outcomes_file(
+        tmp_path, "bike,session,throttle,wideband_afr\nT01,Sat morning,0.5,13\nT01,Sat morning,80,13\n"
+    )
     with pytest.raises(ConfigError) as caught:
         read_outcomes(path, fleet, event)
-    assert str(caught.value).startswith(f"{path}:2: throttle: '0.5' is a fraction, but other rows of this file give percent")
+    assert str(caught.value).startswith(
+        f"{path}:2: throttle: '0.5' is a fraction, but other rows of this file give percent"
+    )
 
 
 def test_throttle_in_fractions_stays_fractions(demo_inputs, tmp_path):
     _fp, _ep, fleet, event = demo_inputs
-    path = _outcomes_file(tmp_path, "bike,session,time,throttle,wideband_afr\n"
-                                    "T01,Sat morning,0.5,1,13.0\nT01,Sat morning,2026-06-13T10:15:00,0.25,12.4\n")
+    path = _outcomes_file(
+        tmp_path,
+        "bike,session,time,throttle,wideband_afr\n"
+        "T01,Sat morning,0.5,1,13.0\nT01,Sat morning,2026-06-13T10:15:00,0.25,12.4\n",
+    )
     _sha, rows = read_outcomes(path, fleet, event)
     assert [(r["time"], r["throttle"]) for r in rows] == [("0.5", 1.0), ("2026-06-13T10:15:00", 0.25)]
 

@@ -31,8 +31,12 @@ OUTCOMES = (
     "T01,Sun afternoon,,,,,165,2\n"
     "F01,Sat morning,80,12.6,ok,,,\n"
 )
-CIRCUITS = (("main_jet", "recommended"), ("pilot_jet", "recommended"), ("clip", "recommended"),
-            ("mixture_screw", "recommended_turns"))
+CIRCUITS = (
+    ("main_jet", "recommended"),
+    ("pilot_jet", "recommended"),
+    ("clip", "recommended"),
+    ("mixture_screw", "recommended_turns"),
+)
 
 
 def _plan(capsys, fleet, event, out, *options):
@@ -68,8 +72,11 @@ def test_a_bad_outcomes_file_changes_nothing(capsys, tmp_path, history_place):
     bad.write_text("bike,session,plug,main_jet\nT02,Sat morning,ok,\nT03,Sat morning,lean,171\n", encoding="utf-8")
     assert main(["record", str(fleet), str(event), str(bad), "--history", history_place]) == 2
     err = capsys.readouterr().err.splitlines()
-    assert err == [f"carbfleet record: {bad}:3: main_jet: '171' is not a size of jet family 'round-main' (" + ", ".join(
-        f"{140 + 2.5 * i:g}" for i in range(25)) + ")"]
+    assert err == [
+        f"carbfleet record: {bad}:3: main_jet: '171' is not a size of jet family 'round-main' ("
+        + ", ".join(f"{140 + 2.5 * i:g}" for i in range(25))
+        + ")"
+    ]
     with open_history(history_place) as history:
         assert history.outcomes() == rows_before  # T02's good row was not recorded either
     after, _lines = _plan(capsys, fleet, event, tmp_path / "p2", "--history", history_place)
@@ -92,8 +99,10 @@ def test_recording_a_file_twice_gives_the_plan_of_once(capsys, tmp_path):
     t01 = next(e for e in once["entries"] if e["bike"] == "T01")
     assert (t01["settings"]["main_jet"]["current"], t01["settings"]["clip"]["current"]) == (165, 2)
     # F01 rode the event too (its row has readings only): it wears what the plan recommended
-    assert "2 bikes start from the settings they still wear, not their proven ones (the event they wore them at " \
-           "in brackets): T01 (Ridge Camp Weekend), F01 (Ridge Camp Weekend)" in lines
+    assert (
+        "2 bikes start from the settings they still wear, not their proven ones (the event they wore them at "
+        "in brackets): T01 (Ridge Camp Weekend), F01 (Ridge Camp Weekend)" in lines
+    )
 
 
 def _recommended(plan: dict) -> dict:
@@ -114,13 +123,19 @@ def test_the_morning_rerun_names_the_bikes_that_changed(capsys, tmp_path, histor
     if language == "en":
         assert re.fullmatch(rf"{len(changed)} bikes? changed since the plan of \d\d:\d\d: .*", line), line
     else:
-        assert re.fullmatch(rf"{len(changed)} (Motorrad|Motorräder) seit dem Plan von \d\d:\d\d geändert: .*", line), line
+        assert re.fullmatch(rf"{len(changed)} (Motorrad|Motorräder) seit dem Plan von \d\d:\d\d geändert: .*", line), (
+            line
+        )
     named = [part.split(" ")[0] for part in line.split(": ", 1)[1].split(", ")]
     assert sorted(named) == changed
     again, lines = _plan(capsys, fleet, event, tmp_path / "p2", "--history", history_place, "--language", language)
     assert again == morning
-    assert re.fullmatch(r"no bike changed since the plan of \d\d:\d\d" if language == "en"
-                        else r"kein Motorrad seit dem Plan von \d\d:\d\d geändert", lines[-1]), lines[-1]
+    assert re.fullmatch(
+        r"no bike changed since the plan of \d\d:\d\d"
+        if language == "en"
+        else r"kein Motorrad seit dem Plan von \d\d:\d\d geändert",
+        lines[-1],
+    ), lines[-1]
 
 
 def test_the_default_history_lies_beside_the_fleet_file(capsys, tmp_path, monkeypatch):
@@ -135,12 +150,15 @@ def test_the_default_history_lies_beside_the_fleet_file(capsys, tmp_path, monkey
 
 def test_a_history_in_a_missing_folder_is_one_line(capsys, tmp_path):
     fleet, event = uphill(tmp_path / "demo")
-    code = main(["plan", str(fleet), str(event), "--out", str(tmp_path / "out"),
-                 "--history", str(tmp_path / "no" / "h.sqlite")])
+    code = main(
+        ["plan", str(fleet), str(event), "--out", str(tmp_path / "out"), "--history", str(tmp_path / "no" / "h.sqlite")]
+    )
     err = capsys.readouterr().err.splitlines()
     assert code == 2
-    assert err == [f"carbfleet plan: --history: {tmp_path / 'no' / 'h.sqlite'}: the folder {tmp_path / 'no'} "
-                   "does not exist; create it or name another"]
+    assert err == [
+        f"carbfleet plan: --history: {tmp_path / 'no' / 'h.sqlite'}: the folder {tmp_path / 'no'} "
+        "does not exist; create it or name another"
+    ]
     assert not (tmp_path / "out").exists()  # refused before the work
 
 
@@ -155,8 +173,17 @@ def test_history_shows_what_a_bike_ran_and_what_was_seen(capsys, tmp_path, histo
     assert main(["history", "T01", "--history", history_place]) == 0
     shown = capsys.readouterr().out
     text = " ".join(shown.replace("│", " ").split())
-    for words in ("T01", "Ridge Camp", "Kesselalm", "main 167.5", "main 165", "clip 2", "plug: lean 1",
-                  "1 wideband reading, air-fuel 14.2–14.2", "bogs at the top"):
+    for words in (
+        "T01",
+        "Ridge Camp",
+        "Kesselalm",
+        "main 167.5",
+        "main 165",
+        "clip 2",
+        "plug: lean 1",
+        "1 wideband reading, air-fuel 14.2–14.2",
+        "bogs at the top",
+    ):
         assert words in text, words
     assert "F01" not in text
 
@@ -173,8 +200,9 @@ def _low_cold(tmp_path) -> tuple[Path, Path]:
     """The demo fleet (proven at 150 m, 20 °C) at a site at its own height on a day 30 °F colder:
     denser air than proven, the direction that hurts engines."""
     fleet, event = uphill(tmp_path / "cold")
-    event.write_text(event.read_text(encoding="utf-8").replace("  elevation: 1650 m\n", "  elevation: 150 m\n", 1),
-                     encoding="utf-8")
+    event.write_text(
+        event.read_text(encoding="utf-8").replace("  elevation: 1650 m\n", "  elevation: 150 m\n", 1), encoding="utf-8"
+    )
     _colder(event, 30.0)
     return fleet, event
 
@@ -192,7 +220,9 @@ def test_fitted_jets_do_not_move_the_law_off_the_proven_ones(tmp_path):
         proven = make_plan(fleet, event)
         started = start_from_fitted(proven, fleet, state)
         fitted = fitted_settings(fleet, state)
-        naive_fleet = replace(fleet, bikes=tuple(replace(b, settings=fitted.get(b.id, b.settings)) for b in fleet.bikes))
+        naive_fleet = replace(
+            fleet, bikes=tuple(replace(b, settings=fitted.get(b.id, b.settings)) for b in fleet.bikes)
+        )
         naive = make_plan(naive_fleet, event)
     assert _recommended(started) == _recommended(proven)
     t01 = [e for e in started["entries"] if e["bike"] == "T01"]
@@ -206,7 +236,8 @@ def test_fitted_jets_do_not_move_the_law_off_the_proven_ones(tmp_path):
     notices = next(b for b in started["bikes"] if b["bike"] == "T01")["notices"]
     assert [n["code"] for n in notices if n["code"] == "fitted-not-proven"] == ["fitted-not-proven"]
     assert started["warnings_count"] == proven["warnings_count"] + 1 + sum(
-        len(e["warnings"]) - len(p["warnings"]) for e, p in zip(started["entries"], proven["entries"]))
+        len(e["warnings"]) - len(p["warnings"]) for e, p in zip(started["entries"], proven["entries"])
+    )
 
 
 def test_a_shortage_is_not_called_safe_when_the_fitted_jet_is_lean(tmp_path):
@@ -218,14 +249,23 @@ def test_a_shortage_is_not_called_safe_when_the_fitted_jet_is_lean(tmp_path):
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")
         proven = make_plan(fleet, event)
-    short = [(e["bike"], w) for e in proven["entries"] for w in e["warnings"] if w["code"] == "stock-shortage"
-             and w["params"]["part"] == "main_jet"]
+    short = [
+        (e["bike"], w)
+        for e in proven["entries"]
+        for w in e["warnings"]
+        if w["code"] == "stock-shortage" and w["params"]["part"] == "main_jet"
+    ]
     assert short, "the scenario must have a main jet to order, or this test checks nothing"
     bike = short[0][0]
     small = fleet.jet_families["round-main"].sizes[0]  # the smallest main: far leaner than proven
     started = start_from_fitted(proven, fleet, {bike: Fitted(bike, "key", "Mountain Days", small, None, None, None)})
-    found = [w for e in started["entries"] if e["bike"] == bike for w in e["warnings"]
-             if w["params"].get("part") == "main_jet"]
+    found = [
+        w
+        for e in started["entries"]
+        if e["bike"] == bike
+        for w in e["warnings"]
+        if w["params"].get("part") == "main_jet"
+    ]
     assert not [w for w in found if w["code"] == "stock-shortage"]
     danger = [w for w in found if w["code"] == "no-safe-jet"]
     assert danger and all(w["params"]["fitted"] == f"{small:g}" for w in danger)
@@ -241,7 +281,7 @@ def test_a_bike_returned_to_proven_starts_from_proven(capsys, tmp_path):
     place = str(tmp_path / "h.sqlite")
     fresh, _lines = _plan(capsys, fleet, event, tmp_path / "p0", "--history", place)
     outcomes = tmp_path / "o.csv"
-    outcomes.write_text(OUTCOMES + "T01,after,,,,,,\n".replace(",,,,,,", ",,,,,,") , encoding="utf-8")
+    outcomes.write_text(OUTCOMES + "T01,after,,,,,,\n".replace(",,,,,,", ",,,,,,"), encoding="utf-8")
     returned = tmp_path / "r.csv"
     returned.write_text("bike,session,returned_to_proven\nT01,after,yes\n", encoding="utf-8")
     assert main(["record", str(fleet), str(event), str(outcomes), "--history", place]) == 2  # the empty row

@@ -46,10 +46,13 @@ def _mains(plan: dict) -> dict:
 
 
 def _settings(plan: dict, keep) -> dict:
-    keys = (("main_jet", "recommended"), ("pilot_jet", "recommended"), ("clip", "recommended"),
-            ("mixture_screw", "recommended_turns"))
-    return {(e["bike"], e["session"]): tuple(e["settings"][a][b] for a, b in keys)
-            for e in plan["entries"] if keep(e)}
+    keys = (
+        ("main_jet", "recommended"),
+        ("pilot_jet", "recommended"),
+        ("clip", "recommended"),
+        ("mixture_screw", "recommended_turns"),
+    )
+    return {(e["bike"], e["session"]): tuple(e["settings"][a][b] for a, b in keys) for e in plan["entries"] if keep(e)}
 
 
 def test_a_lean_bike_gets_a_richer_main_and_other_models_stay(capsys, tmp_path):

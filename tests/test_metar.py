@@ -23,7 +23,9 @@ def read(reports, near=NEAR):
 
 def test_values_from_the_report_groups():
     # WMO No. 306 FM 15: "07/05" = air temperature 7 °C, dew point 5 °C; "Q1021" = QNH 1021 hPa
-    weather, found = read(["XKSL 130650Z 27004KT 9999 FEW030 07/05 Q1021", "XKSL 130720Z 27005KT 9999 FEW030 M02/M05 Q0998"])
+    weather, found = read(
+        ["XKSL 130650Z 27004KT 9999 FEW030 07/05 Q1021", "XKSL 130720Z 27005KT 9999 FEW030 M02/M05 Q0998"]
+    )
     assert not found
     assert weather.air_temperature == pytest.approx([280.15, 271.15])
     assert weather.humidity == pytest.approx([278.15, 268.15]) and weather.humidity_kind == "dew_point"

@@ -49,8 +49,9 @@ def test_notebook_is_thin(path):
         tree = ast.parse(cell.source)
         assert len(cell.source.strip().splitlines()) <= 5
         for node in ast.walk(tree):
-            assert not isinstance(node, (ast.FunctionDef, ast.ClassDef, ast.For, ast.While, ast.Lambda,
-                                         ast.ListComp, ast.BinOp)), ast.dump(node)
+            assert not isinstance(
+                node, (ast.FunctionDef, ast.ClassDef, ast.For, ast.While, ast.Lambda, ast.ListComp, ast.BinOp)
+            ), ast.dump(node)
             if isinstance(node, (ast.Import, ast.ImportFrom)):
                 assert getattr(node, "module", None) in ("tuning", "tuning.report")
 
@@ -61,10 +62,19 @@ def test_setup_sheet_notebook_plans_from_the_files_in_kernel(demo_plan, tmp_path
     first = demo_plan["entries"][0]["bike"]
     output = tmp_path / "setup-sheets.ipynb"
     papermill.execute_notebook(
-        str(ROOT / "tuning" / "notebooks" / "setup-sheets.ipynb"), str(output), kernel_name="python3",
-        parameters={"fleet_path": str(DEMO_FLEET), "event_path": str(DEMO_EVENT), "out_dir": str(tmp_path),
-                    "paper": "letter", "bikes": [first]},
-        progress_bar=False, kernel_manager_class=pipeline._manager_in(tmp_path))
+        str(ROOT / "tuning" / "notebooks" / "setup-sheets.ipynb"),
+        str(output),
+        kernel_name="python3",
+        parameters={
+            "fleet_path": str(DEMO_FLEET),
+            "event_path": str(DEMO_EVENT),
+            "out_dir": str(tmp_path),
+            "paper": "letter",
+            "bikes": [first],
+        },
+        progress_bar=False,
+        kernel_manager_class=pipeline._manager_in(tmp_path),
+    )
     name = safe_file_names([e["bike"] for e in demo_plan["entries"]])[first]
     pdf = pypdf.PdfReader(tmp_path / "sheets" / f"{name}.pdf")
     assert len(pdf.pages) == 1
@@ -91,7 +101,10 @@ def test_carbfleet_build_on_the_demo(demo_build, demo_plan):
     assert code == 0
     bikes = list(dict.fromkeys(e["bike"] for e in demo_plan["entries"]))
     summary = printed.strip().splitlines()[-1]  # the one-line summary: sheets, warnings, time
-    assert summary.startswith(f"built {len(bikes)} setup sheets") and f"({demo_plan['warnings_count']} warnings," in summary
+    assert (
+        summary.startswith(f"built {len(bikes)} setup sheets")
+        and f"({demo_plan['warnings_count']} warnings," in summary
+    )
     names = safe_file_names(bikes)
     for bike in bikes:
         assert len(pypdf.PdfReader(out / "sheets" / f"{names[bike]}.pdf").pages) == 1, bike
@@ -135,10 +148,20 @@ def test_executed_notebooks_run_again_from_the_output(demo_build):
     sheet = out / "sheets" / f"{safe_file_names(bikes)[bikes[0]]}.pdf"  # the first bike: shard 1
     sheet.unlink()
     rerun = out.parent / "rerun.ipynb"
-    papermill.execute_notebook(str(out / "notebooks" / "setup-sheets-1.ipynb"), str(rerun),
-                               cwd=str(out / "notebooks"), progress_bar=False, kernel_name="python3")
-    papermill.execute_notebook(str(out / "notebooks" / "fleet-report.ipynb"), str(rerun),
-                               cwd=str(out / "notebooks"), progress_bar=False, kernel_name="python3")
+    papermill.execute_notebook(
+        str(out / "notebooks" / "setup-sheets-1.ipynb"),
+        str(rerun),
+        cwd=str(out / "notebooks"),
+        progress_bar=False,
+        kernel_name="python3",
+    )
+    papermill.execute_notebook(
+        str(out / "notebooks" / "fleet-report.ipynb"),
+        str(rerun),
+        cwd=str(out / "notebooks"),
+        progress_bar=False,
+        kernel_name="python3",
+    )
     assert sheet.exists() and len(list((out / "sheets").glob("*.pdf"))) == len(bikes)
 
 
@@ -151,8 +174,9 @@ def test_notebooks_run_alone_with_their_defaults_and_write_only_below_their_fold
     work = tmp_path / "work"
     work.mkdir()
     for name in ("fleet-report.ipynb", "setup-sheets.ipynb"):
-        papermill.execute_notebook(str(notebook(name)), str(tmp_path / name), cwd=str(work),
-                                   progress_bar=False, kernel_name="python3")
+        papermill.execute_notebook(
+            str(notebook(name)), str(tmp_path / name), cwd=str(work), progress_bar=False, kernel_name="python3"
+        )
     written = sorted(str(p.relative_to(work)) for p in work.rglob("*") if p.is_file())
     assert written and all(name.startswith("carbfleet-out/") for name in written)
     assert "carbfleet-out/fleet-summary.pdf" in written and any(n.endswith(".pdf") and "/sheets/" in n for n in written)

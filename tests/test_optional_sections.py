@@ -210,14 +210,28 @@ def weather_default_units(fleet, event, header, rows):
 
 
 def reference_in_other_units(fleet, event, header, rows):
-    fleet["reference"] = {"elevation": "490 ft", "air_temperature": "68 degF", "sea_level_pressure": "29.92 inHg",
-                          "dew_point": "48 degF", "fuel": fleet["reference"]["fuel"]}
+    fleet["reference"] = {
+        "elevation": "490 ft",
+        "air_temperature": "68 degF",
+        "sea_level_pressure": "29.92 inHg",
+        "dew_point": "48 degF",
+        "fuel": fleet["reference"]["fuel"],
+    }
 
 
 def everything_optional_absent(fleet, event, header, rows):
     """Every optional part at once, on one two-stroke and one four-stroke."""
-    for edit in (no_stock, no_needles, plain_gasoline, no_own_reference, no_overrides_or_notes,
-                 no_accelerator_pump, no_premix, no_optional_model_fields, no_site_time_zone):
+    for edit in (
+        no_stock,
+        no_needles,
+        plain_gasoline,
+        no_own_reference,
+        no_overrides_or_notes,
+        no_accelerator_pump,
+        no_premix,
+        no_optional_model_fields,
+        no_site_time_zone,
+    ):
         edit(fleet, event, header, rows)
     keep = {"trail-250-2s", "trail-450-4s"}
     fleet["models"] = {k: m for k, m in fleet["models"].items() if k in keep}
@@ -229,11 +243,29 @@ def everything_optional_absent(fleet, event, header, rows):
 
 
 PLAN_CASES = [
-    no_stock, empty_stock, no_needles, needles_without_geometry, reference_fuel_only, plain_gasoline,
-    no_own_reference, no_overrides_or_notes, no_accelerator_pump, no_premix, four_strokes_only,
-    single_bike_single_session, no_event_fuel, no_site_time_zone, no_optional_model_fields,
-    weather_fahrenheit_inhg, weather_dew_point, weather_station_pressure_hpa, weather_station_pressure_inhg,
-    weather_sea_level_pressure, weather_celsius_hpa, weather_default_units, reference_in_other_units,
+    no_stock,
+    empty_stock,
+    no_needles,
+    needles_without_geometry,
+    reference_fuel_only,
+    plain_gasoline,
+    no_own_reference,
+    no_overrides_or_notes,
+    no_accelerator_pump,
+    no_premix,
+    four_strokes_only,
+    single_bike_single_session,
+    no_event_fuel,
+    no_site_time_zone,
+    no_optional_model_fields,
+    weather_fahrenheit_inhg,
+    weather_dew_point,
+    weather_station_pressure_hpa,
+    weather_station_pressure_inhg,
+    weather_sea_level_pressure,
+    weather_celsius_hpa,
+    weather_default_units,
+    reference_in_other_units,
     everything_optional_absent,
 ]
 
@@ -269,12 +301,18 @@ def test_plan_runs_without_the_optional_part(edit, tmp_path, capsys):
 # --- end-to-end builds (a few: each takes several seconds) -----------------------------------
 def one_bike_per_model(fleet, event, header, rows):
     """Keep one bike of each model: one with overrides or its own reference where there is one."""
+
     def special(bike):
         return "settings" in bike or "reference" in bike
 
     models = {bike["model"] for bike in fleet["bikes"]}
-    chosen = [next((b for b in fleet["bikes"] if b["model"] == m and special(b)),
-                   next(b for b in fleet["bikes"] if b["model"] == m)) for m in models]
+    chosen = [
+        next(
+            (b for b in fleet["bikes"] if b["model"] == m and special(b)),
+            next(b for b in fleet["bikes"] if b["model"] == m),
+        )
+        for m in models
+    ]
     fleet["bikes"] = [b for b in fleet["bikes"] if any(b is c for c in chosen)]
 
 
@@ -282,6 +320,7 @@ def both(*edits):
     def edit(fleet, event, header, rows):
         for e in edits:
             e(fleet, event, header, rows)
+
     edit.__name__ = "+".join(e.__name__ for e in edits)
     return edit
 
@@ -321,7 +360,11 @@ def test_build_runs_without_the_optional_part(edit, tmp_path, capsys):
         # and so does every sheet where a jet changes.
         assert "no stock list kept" in summary and "SHORT" not in summary
         assert "jet sizes short" not in summary
-        changed = {e["bike"] for e in doc["entries"] if e["settings"]["main_jet"]["steps"] or e["settings"]["pilot_jet"]["steps"]}
+        changed = {
+            e["bike"]
+            for e in doc["entries"]
+            if e["settings"]["main_jet"]["steps"] or e["settings"]["pilot_jet"]["steps"]
+        }
         assert changed  # the demo site is high: every case changes some jet
         for bike in changed:
             sheet = visible_text((out / "sheets" / f"{names[bike]}.html").read_text(encoding="utf-8"))

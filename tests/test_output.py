@@ -57,8 +57,15 @@ def test_dangerous_out_folders_are_refused_and_kept(where, inputs, monkeypatch, 
     if where == "~":
         monkeypatch.chdir(inputs)  # the home folder is not the current folder's parent here
         before = tree(inputs.parent)
-    code = main(["build", "work/demo-fleet.yaml" if where != "~" else "demo-fleet.yaml",
-                 "work/demo-event.yaml" if where != "~" else "demo-event.yaml", "--out", where])
+    code = main(
+        [
+            "build",
+            "work/demo-fleet.yaml" if where != "~" else "demo-fleet.yaml",
+            "work/demo-event.yaml" if where != "~" else "demo-event.yaml",
+            "--out",
+            where,
+        ]
+    )
     err = capsys.readouterr().err.strip()
     assert code == 2, err
     assert len(err.splitlines()) == 1 and err.startswith("carbfleet build: --out:")
@@ -139,8 +146,12 @@ def test_manifest_lists_every_file_and_the_version(tmp_path):
     (tmp_path / "a" / "b" / "c.txt").write_text("1")
     (tmp_path / "d.csv").write_text("2")
     doc = json.loads(output.write_manifest(tmp_path, "E").read_text())
-    assert doc == {"format": output.MANIFEST_FORMAT, "carbfleet_version": __version__, "event": "E",
-                   "files": ["a/b/c.txt", "d.csv"]}
+    assert doc == {
+        "format": output.MANIFEST_FORMAT,
+        "carbfleet_version": __version__,
+        "event": "E",
+        "files": ["a/b/c.txt", "d.csv"],
+    }
 
 
 # --- carbfleet plan --out: one set, only its own files ---------------------------------------

@@ -85,10 +85,23 @@ def measure(page: Path, work: Path) -> dict:
     holder = work / f"holder-{page.name}"
     holder.write_text(HOLDER.format(width=PHONE_WIDTH, src=html.escape(copy.as_uri())), encoding="utf-8")
     profile = work / f"profile-{page.stem}"
-    command = [str(CHROMIUM), "--headless", "--no-sandbox", "--disable-gpu", "--disable-quic", "--no-first-run",
-               "--disable-background-networking", "--disable-component-update", "--disable-sync",
-               "--hide-scrollbars", f"--user-data-dir={profile}", "--window-size=800,2200",
-               "--virtual-time-budget=3000", "--dump-dom", holder.as_uri()]
+    command = [
+        str(CHROMIUM),
+        "--headless",
+        "--no-sandbox",
+        "--disable-gpu",
+        "--disable-quic",
+        "--no-first-run",
+        "--disable-background-networking",
+        "--disable-component-update",
+        "--disable-sync",
+        "--hide-scrollbars",
+        f"--user-data-dir={profile}",
+        "--window-size=800,2200",
+        "--virtual-time-budget=3000",
+        "--dump-dom",
+        holder.as_uri(),
+    ]
     try:
         done = subprocess.run(command, capture_output=True, text=True, timeout=120, check=False)
     finally:

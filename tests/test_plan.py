@@ -132,8 +132,9 @@ def test_more_premix_oil_needs_a_larger_jet():
 def test_between_two_sizes_the_richer():
     # the reference's own conditions: factor 1, so the ideal is the fitted 151 exactly halfway
     # between the family's 150 and 152
-    doc = one_bike_plan(bike_kwargs={"main_jet": 151.0}, elevation=0.0, celsius=20.0, relative_humidity=0.5,
-                        pressure=101325.0)
+    doc = one_bike_plan(
+        bike_kwargs={"main_jet": 151.0}, elevation=0.0, celsius=20.0, relative_humidity=0.5, pressure=101325.0
+    )
     main = doc["entries"][0]["settings"]["main_jet"]
     assert main["ideal"] == pytest.approx(151.0, abs=0.05)
     assert main["recommended"] == 152
@@ -143,8 +144,12 @@ def test_between_two_sizes_the_richer():
 def test_air_and_fuel_screws_turn_opposite_ways_for_the_same_need():
     moved = 0
     for elevation in (600.0, 900.0, 1200.0, 1700.0, 2300.0):
-        air_bike = pf.bike("A", "TS-250", pf.conditions(), mixture_screw=pf.settings(screw_kind="air", turns=2.0).mixture_screw)
-        fuel_bike = pf.bike("F", "TS-250", pf.conditions(), mixture_screw=pf.settings(screw_kind="fuel", turns=2.0).mixture_screw)
+        air_bike = pf.bike(
+            "A", "TS-250", pf.conditions(), mixture_screw=pf.settings(screw_kind="air", turns=2.0).mixture_screw
+        )
+        fuel_bike = pf.bike(
+            "F", "TS-250", pf.conditions(), mixture_screw=pf.settings(screw_kind="fuel", turns=2.0).mixture_screw
+        )
         doc = plan.make_plan(pf.fleet((air_bike, fuel_bike)), pf.event(elevation=elevation))
         a, f = (e["settings"]["mixture_screw"] for e in doc["entries"])
         assert a["change_turns"] == -f["change_turns"]
@@ -177,7 +182,9 @@ def test_recommended_main_is_monotone_in_elevation(low, step, celsius):
 @given(celsius=st.floats(-15.0, 35.0), warmer=st.floats(1.0, 20.0), elevation=st.floats(0.0, 3000.0))
 def test_recommended_main_is_monotone_in_temperature(celsius, warmer, elevation):
     a = one_bike_plan(elevation=elevation, celsius=celsius)["entries"][0]["settings"]["main_jet"]["recommended"]
-    b = one_bike_plan(elevation=elevation, celsius=celsius + warmer)["entries"][0]["settings"]["main_jet"]["recommended"]
+    b = one_bike_plan(elevation=elevation, celsius=celsius + warmer)["entries"][0]["settings"]["main_jet"][
+        "recommended"
+    ]
     assert b <= a
 
 
@@ -223,8 +230,14 @@ def test_stock_shortage_warns_and_fills_the_pick_list():
     assert "stock-shortage" in codes(doc) or "no-safe-jet" in codes(doc)
     assert main["in_stock"] is False and main["source"]["kind"] == "order"
     row = next(p for p in doc["pick_list"] if p["family"] == "main-round" and p["size"] == main["recommended"])
-    assert row == {"family": "main-round", "size": main["recommended"], "fitted_now": 0, "in_stock": 0, "needed": 1,
-                   "to_order": 1}
+    assert row == {
+        "family": "main-round",
+        "size": main["recommended"],
+        "fitted_now": 0,
+        "in_stock": 0,
+        "needed": 1,
+        "to_order": 1,
+    }
     assert doc["pick_list"][0]["to_order"] >= 1  # to order first
 
 
@@ -311,7 +324,8 @@ def test_document_validates_against_the_schema():
     assert doc["format"] == "carbfleet-plan/3"
     assert [e["bike"] for e in doc["entries"]] == ["R01", "R02", "R03"]
     assert doc["warnings_count"] == sum(len(e["warnings"]) for e in doc["entries"]) + sum(
-        len(b["notices"]) for b in doc["bikes"])
+        len(b["notices"]) for b in doc["bikes"]
+    )
     assert doc["entries"][0]["start"].endswith("-06:00")  # site local time with offset
 
 
@@ -362,9 +376,7 @@ def test_sessions_of_different_lengths_keep_their_own_hours():
 )
 def test_sorted_window_loss_equals_the_sum_over_hours(factors, delivered):
     # the loss written out: sum of w * (f/D - 1)^2, w = 4 lean (f > D), 1 rich
-    expected = [
-        sum((4.0 if f > d else 1.0) * (f / d - 1.0) ** 2 for f in factors) for d in delivered
-    ]
+    expected = [sum((4.0 if f > d else 1.0) * (f / d - 1.0) ** 2 for f in factors) for d in delivered]
     required = np.array([factors + [0.9, 1.1]])  # two padding hours
     valid = np.array([[True] * len(factors) + [False, False]])
     got = plan.WindowLoss(required, valid)(np.array([delivered]))[0]
@@ -459,7 +471,6 @@ def test_power_against_the_j1349_standard_is_one_base_for_every_bike():
     got = _j1349_power(high, slice(0, 1))
     assert got["sae_j1349_within_range"] is False
     assert got["power_vs_sae_j1349_pct"] < 90.0
-
 
 
 def test_a_plan_of_no_bikes_or_no_sessions_is_refused_in_one_place():

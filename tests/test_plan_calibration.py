@@ -54,15 +54,35 @@ def lean_at_full_throttle(plan, bike, factor=LEAN_FACTOR):
         curve = e["mixture_curve"]
         for t in (0.8, 0.9, 1.0):
             afr = curve["recommended_afr"][curve["throttle"].index(t)] * factor
-            out.append({"event": "ridge-2026", "bike": bike, "session": e["session"], "time": curve["time"],
-                        "throttle": t, "wideband_afr": afr, "plug": None, "remark": None, "main_jet": None,
-                        "pilot_jet": None, "clip": None, "mixture_screw_turns": None, "returned_to_proven": False})
+            out.append(
+                {
+                    "event": "ridge-2026",
+                    "bike": bike,
+                    "session": e["session"],
+                    "time": curve["time"],
+                    "throttle": t,
+                    "wideband_afr": afr,
+                    "plug": None,
+                    "remark": None,
+                    "main_jet": None,
+                    "pilot_jet": None,
+                    "clip": None,
+                    "mixture_screw_turns": None,
+                    "returned_to_proven": False,
+                }
+            )
     return out
 
 
 def settings_of(plan, bike):
-    return [{k: (e["settings"][k].get("recommended"), e["settings"][k].get("recommended_turns"))
-             for k in ("main_jet", "pilot_jet", "clip", "mixture_screw")} for e in plan["entries"] if e["bike"] == bike]
+    return [
+        {
+            k: (e["settings"][k].get("recommended"), e["settings"][k].get("recommended_turns"))
+            for k in ("main_jet", "pilot_jet", "clip", "mixture_screw")
+        }
+        for e in plan["entries"]
+        if e["bike"] == bike
+    ]
 
 
 def test_an_empty_calibration_plans_exactly_as_the_law(uphill):
@@ -92,7 +112,10 @@ def test_lean_bike_gets_a_richer_main_and_other_models_stay(uphill):
             assert settings_of(plan, bike) == settings_of(law, bike), bike
             for a, b in zip(law["entries"], plan["entries"]):
                 if a["bike"] == bike:
-                    assert (a["mixture_curve"], a["rejet_temperatures_C"]) == (b["mixture_curve"], b["rejet_temperatures_C"])
+                    assert (a["mixture_curve"], a["rejet_temperatures_C"]) == (
+                        b["mixture_curve"],
+                        b["rejet_temperatures_C"],
+                    )
     basis = {b["bike"]: b["basis"] for b in plan["bikes"]}
     assert basis["F01"]["kind"] == "calibrated" and basis["F02"]["kind"] == "model"
     assert basis["T01"]["kind"] == "law" and basis["T01"]["text"] == "no readings yet: the law"
@@ -110,8 +133,10 @@ def test_calibration_not_used_plans_the_law_and_says_so(uphill):
     off = make_plan(fleet, event, calibration=NOT_USED)
     assert [e["settings"] for e in off["entries"]] == [e["settings"] for e in law["entries"]]
     assert {b["basis"]["id"] for b in off["bikes"]} == {"basis/not-used"}
-    assert tables.basis_words(off["bikes"][0], Display("metric", "de")) == \
-        "das Zumessgesetz: Kalibrierung für diesen Plan nicht verwendet"
+    assert (
+        tables.basis_words(off["bikes"][0], Display("metric", "de"))
+        == "das Zumessgesetz: Kalibrierung für diesen Plan nicht verwendet"
+    )
 
 
 def test_recording_the_same_outcomes_twice_gives_the_same_plan(uphill):
@@ -131,22 +156,31 @@ def test_fitted_settings_that_differ_from_the_plan_change_the_prediction(uphill)
     o = lean_at_full_throttle(law, "F01")[0]
     entry = next(e for e in law["entries"] if e["bike"] == "F01" and e["session"] == o["session"])
     planned = entry["settings"]["main_jet"]
-    bigger = dict(o, main_jet=planned["recommended"] * 1.05 if planned["coding"] == "flow" else planned["recommended"] + 5)
+    bigger = dict(
+        o, main_jet=planned["recommended"] * 1.05 if planned["coding"] == "flow" else planned["recommended"] + 5
+    )
     base, fitted = readings_from(law, [o])[0], readings_from(law, [bigger])[0]
     ratio = float(metering.area_factor_between_jets(planned["recommended"], bigger["main_jet"], planned["coding"]))
     w_main = float(circuits.circuit_weights(np.array([o["throttle"]]))[0, 2])
     assert fitted.log_ratio > base.log_ratio
     assert fitted.log_ratio - base.log_ratio == pytest.approx(math.log(1 + w_main * (ratio - 1)), rel=0.3)
     back = readings_from(law, [dict(o, returned_to_proven=True)])[0]
-    assert back.predicted_log_deviation == pytest.approx(math.log(max(h["area_factor"] for h in entry["hours"])),
-                                                         abs=1e-3)
+    assert back.predicted_log_deviation == pytest.approx(
+        math.log(max(h["area_factor"] for h in entry["hours"])), abs=1e-3
+    )
 
 
 def confident(fleet, mean, sd=0.001):
     """Every bike calibrated with ``mean`` (pilot, needle, main offsets, exponent shift) and a small spread."""
     cov = np.eye(4) * sd**2
-    return Calibration({b.id: Estimate(np.asarray(mean, float), cov, "calibrated", (True, True, True),
-                                       float(b.density_exponent), 10, 5, 2) for b in fleet.bikes})
+    return Calibration(
+        {
+            b.id: Estimate(
+                np.asarray(mean, float), cov, "calibrated", (True, True, True), float(b.density_exponent), 10, 5, 2
+            )
+            for b in fleet.bikes
+        }
+    )
 
 
 def law_leanness(entry):
@@ -158,8 +192,11 @@ def law_leanness(entry):
     main_delivered = float(metering.area_factor_between_jets(main["current"], main["recommended"], main["coding"]))
     d = entry["mixture_curve"]["delivered_area_factor"]
     needle = np.interp(MID_RANGE_OPENINGS, entry["mixture_curve"]["throttle"], d["needle"])
-    return {"main": largest / main_delivered - 1.0, "pilot": largest / d["pilot"] - 1.0,
-            "needle": float(np.max(largest / needle - 1.0))}
+    return {
+        "main": largest / main_delivered - 1.0,
+        "pilot": largest / d["pilot"] - 1.0,
+        "needle": float(np.max(largest / needle - 1.0)),
+    }
 
 
 def assert_never_past_the_guard_by_the_law(law, plan):
@@ -182,8 +219,12 @@ def test_rich_calibration_proven_high_ridden_low_and_cold_never_past_the_guard(d
     law = make_plan(fleet, event)
     plan = make_plan(fleet, event, calibration=confident(fleet, [-0.10, -0.10, -0.10, -0.2]))
     assert_never_past_the_guard_by_the_law(law, plan)
-    leaner = [(a["bike"], a["session"], c) for a, b in zip(law["entries"], plan["entries"])
-              for c, v in law_leanness(b).items() if v > law_leanness(a)[c] + 5e-4]
+    leaner = [
+        (a["bike"], a["session"], c)
+        for a, b in zip(law["entries"], plan["entries"])
+        for c, v in law_leanness(b).items()
+        if v > law_leanness(a)[c] + 5e-4
+    ]
     assert leaner, "the rich calibration leaned nothing: the test would prove nothing"
     kept = {b["bike"] for b in plan["bikes"] if b["basis"]["law_kept"]}
     for a, b in zip(law["entries"], plan["entries"]):  # a bike whose calibration would go past keeps the law
@@ -199,8 +240,10 @@ def test_lean_calibration_downhill_goes_richer_than_the_law(downhill):
     plan = make_plan(fleet, event, calibration=confident(fleet, [0.06, 0.06, 0.06, 0.2]))
     for a, b in zip(law["entries"], plan["entries"]):
         assert b["settings"]["main_jet"]["recommended"] >= a["settings"]["main_jet"]["recommended"]
-    assert any(b["settings"]["main_jet"]["recommended"] > a["settings"]["main_jet"]["recommended"]
-               for a, b in zip(law["entries"], plan["entries"]))
+    assert any(
+        b["settings"]["main_jet"]["recommended"] > a["settings"]["main_jet"]["recommended"]
+        for a, b in zip(law["entries"], plan["entries"])
+    )
 
 
 @settings(max_examples=12, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
@@ -219,10 +262,14 @@ def test_calibrated_plans_keep_the_documents_schema(uphill, downhill):
 
     from tuning import plan as plan_package
 
-    schema = json.loads((Path(plan_package.__file__).parents[1] / "schemas" / "recommendations.schema.json").read_text())
+    schema = json.loads(
+        (Path(plan_package.__file__).parents[1] / "schemas" / "recommendations.schema.json").read_text()
+    )
     fleet, event = uphill
     law = make_plan(fleet, event)
-    calibrated = make_plan(fleet, event, calibration=estimate(readings_from(law, lean_at_full_throttle(law, "F01")), fleet))
+    calibrated = make_plan(
+        fleet, event, calibration=estimate(readings_from(law, lean_at_full_throttle(law, "F01")), fleet)
+    )
     jsonschema.Draft202012Validator(schema).validate(calibrated)
     fleet, event = downhill
     rich = make_plan(fleet, event, calibration=confident(fleet, [-0.10, -0.10, -0.10, -0.2]))
@@ -237,9 +284,13 @@ def test_bad_outcomes_are_one_clear_line(uphill):
     fleet, event = uphill
     law = make_plan(fleet, event)
     good = lean_at_full_throttle(law, "F01")[0]
-    cases = [(dict(good, bike="X99"), "not in the plan"), (dict(good, throttle=None), "needs the throttle"),
-             (dict(good, wideband_afr=None, plug="white"), "plug: 'white'"), (dict(good, time="noon"), "time: 'noon'"),
-             (dict(good, throttle=1.4), "throttle: 1.4")]
+    cases = [
+        (dict(good, bike="X99"), "not in the plan"),
+        (dict(good, throttle=None), "needs the throttle"),
+        (dict(good, wideband_afr=None, plug="white"), "plug: 'white'"),
+        (dict(good, time="noon"), "time: 'noon'"),
+        (dict(good, throttle=1.4), "throttle: 1.4"),
+    ]
     for outcome, words in cases:
         with pytest.raises(UserError, match=words) as caught:
             readings_from(law, [good, outcome])

@@ -84,8 +84,14 @@ def test_csv_cells_of_user_text_are_not_formulas(tmp_path):
     # OWASP "CSV Injection": a cell beginning with = + - @ tab or CR is prefixed with ' so that a
     # spreadsheet shows it as text; numbers, negative ones included, stay numbers.
     ids = ['=HYPERLINK("x")', "@SUM(1)", "+T03", "-T04", "\tT05", "\rT07"]
-    args = _renamed_demo(tmp_path, ids, model=("trail-450-4s", "-trail-450-4s"), session="=1+1",
-                         family=("round-main", "@round-main"), needle=("needle-f", "+needle-f"))
+    args = _renamed_demo(
+        tmp_path,
+        ids,
+        model=("trail-450-4s", "-trail-450-4s"),
+        session="=1+1",
+        family=("round-main", "@round-main"),
+        needle=("needle-f", "+needle-f"),
+    )
     assert main(["plan", *args, "--out", str(tmp_path / "out")]) == 0
     with open(tmp_path / "out" / "recommendations.csv", encoding="utf-8", newline="") as handle:
         rows = list(csv.DictReader(handle))
@@ -113,9 +119,14 @@ def test_control_characters_in_names_do_not_reach_the_terminal(tmp_path, capsys)
     import yaml
 
     ids = ["\x1b[31mT01", "T0\r2", "T03\x07"]
-    fleet_path, event_path = _renamed_demo(tmp_path, ids, model=("trail-450-4s", "trail\x1b]0;x\x07450"),
-                                           session="Sat\rmorning", family=("round-main", "round\x1b[2Jmain"),
-                                           needle=("needle-f", "needle\x07f"))
+    fleet_path, event_path = _renamed_demo(
+        tmp_path,
+        ids,
+        model=("trail-450-4s", "trail\x1b]0;x\x07450"),
+        session="Sat\rmorning",
+        family=("round-main", "round\x1b[2Jmain"),
+        needle=("needle-f", "needle\x07f"),
+    )
     for path, key, name in ((fleet_path, "fleet", "Fleet\x1b[1m"), (event_path, "event", "Event\r\x07")):
         doc = yaml.safe_load(Path(path).read_text(encoding="utf-8"))
         doc[key] = name

@@ -51,7 +51,9 @@ def delivered(fleet, entry):
     """Area factor [1] of the recommended main jet against the fitted one (tuning.metering's jet law)."""
     main = entry["settings"]["main_jet"]
     family = fleet.bikes[[b.id for b in fleet.bikes].index(entry["bike"])].settings.main_jet_family
-    return float(metering.area_factor_between_jets(main["current"], main["recommended"], fleet.jet_families[family].coding))
+    return float(
+        metering.area_factor_between_jets(main["current"], main["recommended"], fleet.jet_families[family].coding)
+    )
 
 
 @pytest.mark.parametrize(("low", "high"), [(1150.0, 2150.0), (1650.0, 2450.0), (850.0, 1650.0)])
@@ -98,13 +100,16 @@ def test_a_station_in_the_valley_carries_the_forecast_up(demo):
         assert entry["heights"]["source"] == "site"
         other = by_key(here)[key]
         assert entry["summary"]["area_factor_max"] > other["summary"]["area_factor_max"], key
-        assert entry["summary"]["air_temperature_C_max"] == pytest.approx(other["summary"]["air_temperature_C_max"] - 5.2, abs=0.02)
+        assert entry["summary"]["air_temperature_C_max"] == pytest.approx(
+            other["summary"]["air_temperature_C_max"] - 5.2, abs=0.02
+        )
         assert entry["settings"]["main_jet"]["recommended"] >= other["settings"]["main_jet"]["recommended"], key
     assert all("heights" not in e for e in here["entries"])  # the old document, unchanged
 
 
 def test_the_document_with_heights_follows_its_schema(demo):
     import json
+
     doc = plan_over(demo, 1150.0, 2150.0)
     jsonschema.validate(doc, json.loads(SCHEMA_PATH.read_text()), format_checker=jsonschema.FormatChecker())
     heights = doc["entries"][0]["heights"]

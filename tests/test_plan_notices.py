@@ -109,8 +109,11 @@ def said_objects(value):
 def documents(tmp_path_factory):
     """The demo plan and the scenarios' plans, through JSON as the report reads them."""
     out = {}
-    for name, make in (("uphill", scenarios.uphill), ("downhill", scenarios.downhill),
-                       ("downhill-no-stock", lambda f: scenarios.downhill(f, stock=False))):
+    for name, make in (
+        ("uphill", scenarios.uphill),
+        ("downhill", scenarios.downhill),
+        ("downhill-no-stock", lambda f: scenarios.downhill(f, stock=False)),
+    ):
         fleet, event = make(tmp_path_factory.mktemp(name))
         with warnings.catch_warnings():
             warnings.simplefilter("ignore")
@@ -173,8 +176,10 @@ def test_temperatures_in_us_words_agree_with_pint(celsius, fahrenheit):
 
 def test_float_level_in_inches_agrees_with_pint():
     inches = UREG.Quantity(8.0, UREG.mm).to(UREG.inch).magnitude  # 0.31496 in
-    assert say("check/float-level", {"float_level_mm": 8.0}, Display("us")) == \
-        f"Float level: check {inches:.3f} in (value from the settings)."
+    assert (
+        say("check/float-level", {"float_level_mm": 8.0}, Display("us"))
+        == f"Float level: check {inches:.3f} in (value from the settings)."
+    )
     assert say("check/float-level", {"float_level_mm": 8.0}) == "Float level: check 8.0 mm (value from the settings)."
 
 
@@ -184,8 +189,9 @@ def test_german_numbers_have_a_decimal_comma_and_a_true_minus():
     assert "-3.4 °C" in say("check/choke", {"t_min_C": -3.4})  # the document's own words: ASCII, as before
 
 
-@pytest.mark.parametrize("turns, words", [(0.25, "¼ turn"), (0.75, "¾ turn"), (1.0, "1 turn"), (1.5, "1½ turns"),
-                                          (2.0, "2 turns")])
+@pytest.mark.parametrize(
+    "turns, words", [(0.25, "¼ turn"), (0.75, "¾ turn"), (1.0, "1 turn"), (1.5, "1½ turns"), (2.0, "2 turns")]
+)
 def test_quarter_turns(turns, words):
     params = {"screw": "air", "by_quarter_turns": turns, "direction": "leaner"}
     assert say("setting/screw-out", params) == f"air screw {words} out: leaner"
@@ -194,11 +200,14 @@ def test_quarter_turns(turns, words):
 def test_stored_numbers_print_as_the_english_text_did():
     assert notices.printed(3.249, ".1f") == 3.2 and isinstance(notices.printed(12.5, ".0f"), int)
     assert notices.printed(3.0, "g") == 3 and isinstance(notices.printed(3.0, "g"), int)
-    assert say("check/choke", {"t_min_C": notices.printed(-0.04, ".1f")}) == \
-        f"Choke: cold air ({-0.04:.1f} °C minimum): choke for the first start."
-    assert say("assumed-screw-range", {"usable_low_turns": notices.printed(1.0, "g"),
-                                       "usable_high_turns": notices.printed(2.5, "g")}).startswith(
-        "The screw's usable range is the default 1..2.5 turns out")
+    assert (
+        say("check/choke", {"t_min_C": notices.printed(-0.04, ".1f")})
+        == f"Choke: cold air ({-0.04:.1f} °C minimum): choke for the first start."
+    )
+    assert say(
+        "assumed-screw-range",
+        {"usable_low_turns": notices.printed(1.0, "g"), "usable_high_turns": notices.printed(2.5, "g")},
+    ).startswith("The screw's usable range is the default 1..2.5 turns out")
 
 
 def test_say_item_falls_back_to_the_english_text():
@@ -210,8 +219,11 @@ def test_say_item_falls_back_to_the_english_text():
 
 
 def test_a_warning_takes_only_the_words_of_its_code():
-    w = notices.warning("no-safe-jet", "no-safe-jet/order", {"part": "main_jet", "size": "150", "family": "f",
-                                                             "fitted": "155", "lean_pct": 4})
+    w = notices.warning(
+        "no-safe-jet",
+        "no-safe-jet/order",
+        {"part": "main_jet", "size": "150", "family": "f", "fitted": "155", "lean_pct": 4},
+    )
     assert list(w) == ["code", "severity", "message", "id", "params"] and w["severity"] == "danger"
     with pytest.raises(ValueError):
         notices.warning("stock-shortage", "no-safe-jet/order", {})
@@ -220,7 +232,8 @@ def test_a_warning_takes_only_the_words_of_its_code():
 def test_document_words_are_the_default_display():
     assert DOCUMENT.units == "metric" and DOCUMENT.language == "en"
     assert say("stock-shortage", {"part": "main_jet", "size": "150", "family": "f", "fitted": "155"}).startswith(
-        "Main jet 150 (f)")
+        "Main jet 150 (f)"
+    )
 
 
 def test_remembered_document_words_keep_apart_values_that_compare_equal():
@@ -228,8 +241,9 @@ def test_remembered_document_words_keep_apart_values_that_compare_equal():
     assert say("check/choke", {"t_min_C": 0.0}).startswith("Choke: cold air (0.0 °C")
     assert say("check/choke", {"t_min_C": -0.0}).startswith("Choke: cold air (-0.0 °C")
     assert "(1..3 turns)" in say("screw-out-of-range", {"screw": "air", "usable_low_turns": 1, "usable_high_turns": 3})
-    assert "(1.0..3.0 turns)" in say("screw-out-of-range", {"screw": "air", "usable_low_turns": 1.0,
-                                                           "usable_high_turns": 3.0})
+    assert "(1.0..3.0 turns)" in say(
+        "screw-out-of-range", {"screw": "air", "usable_low_turns": 1.0, "usable_high_turns": 3.0}
+    )
 
 
 def _enums(node, key, found):

@@ -107,14 +107,21 @@ def test_the_dangerous_direction_says_so_and_leads(tmp_path):
 
 
 @settings(max_examples=30, deadline=None)
-@given(reference_m=st.floats(0.0, 3000.0), event_m=st.floats(0.0, 3000.0), ref_c=st.floats(-10.0, 35.0),
-       event_c=st.floats(-15.0, 35.0), spread=st.floats(0.0, 20.0), stocked=st.booleans())
+@given(
+    reference_m=st.floats(0.0, 3000.0),
+    event_m=st.floats(0.0, 3000.0),
+    ref_c=st.floats(-10.0, 35.0),
+    event_c=st.floats(-15.0, 35.0),
+    spread=st.floats(0.0, 20.0),
+    stocked=st.booleans(),
+)
 def test_never_lean_over_random_sites_both_ways(reference_m, event_m, ref_c, event_c, spread, stocked):
     reference = pf.conditions(elevation=reference_m, celsius=ref_c, pressure=101325.0 * math.exp(-reference_m / 8434.0))
     bike = pf.bike("R01", "TS-250", reference)
     stock = {("main-round", 160.0): 1} if stocked else None
-    doc = make_plan(pf.fleet((bike,), reference=reference, stock=stock), pf.event(elevation=event_m, celsius=event_c,
-                                                                                spread=spread))
+    doc = make_plan(
+        pf.fleet((bike,), reference=reference, stock=stock), pf.event(elevation=event_m, celsius=event_c, spread=spread)
+    )
     for e in doc["entries"]:
         jet = e["settings"]["main_jet"]
         worst = max((jet["current"] * math.sqrt(h["area_factor"]) / jet["recommended"]) ** 2 for h in e["hours"])
@@ -221,11 +228,21 @@ def alternating_event(warm_c=24.0, cold_c=8.0, sessions=4, elevation=1500.0):
     spans = [(start + timedelta(hours=3 * i), start + timedelta(hours=3 * i + 2)) for i in range(sessions)]
     hours = [start - timedelta(hours=1) + timedelta(hours=h) for h in range(3 * sessions + 2)]
     temps = [273.15 + (warm_c if ((t - start).total_seconds() // 3600) // 3 % 2 == 0 else cold_c) for t in hours]
-    weather = m.Weather(np.array([np.datetime64(t.astimezone(UTC).replace(tzinfo=None), "s") for t in hours]),
-                        np.array(temps), np.full(len(hours), 101325.0 * (1 - 2.25577e-5 * elevation) ** 5.25588),
-                        "station", np.full(len(hours), 0.5), "relative", "test")
-    return m.Event("alternating", m.Site("Test Ridge", elevation, pf.ZONE),
-                   tuple(m.Session(f"s{i + 1}", a, b) for i, (a, b) in enumerate(spans)), weather)
+    weather = m.Weather(
+        np.array([np.datetime64(t.astimezone(UTC).replace(tzinfo=None), "s") for t in hours]),
+        np.array(temps),
+        np.full(len(hours), 101325.0 * (1 - 2.25577e-5 * elevation) ** 5.25588),
+        "station",
+        np.full(len(hours), 0.5),
+        "relative",
+        "test",
+    )
+    return m.Event(
+        "alternating",
+        m.Site("Test Ridge", elevation, pf.ZONE),
+        tuple(m.Session(f"s{i + 1}", a, b) for i, (a, b) in enumerate(spans)),
+        weather,
+    )
 
 
 @pytest.mark.parametrize("warm_c, cold_c", [(24.0, 14.0), (24.0, 10.0), (30.0, 5.0), (12.0, -8.0)])
@@ -273,9 +290,15 @@ def test_screw_moves_are_none_or_at_least_half_a_turn_and_land_inside(case):
 def test_work_orders_bring_every_bike_back_to_its_proven_settings(case):
     name, doc, _ = case
     proven = {e["bike"]: e["settings"] for e in doc["entries"]}
-    state = {bike: {"main_jet": s["main_jet"]["current"], "pilot_jet": s["pilot_jet"]["current"],
-                    "clip": s["clip"]["current"], "mixture_screw": s["mixture_screw"]["current_turns"]}
-             for bike, s in proven.items()}
+    state = {
+        bike: {
+            "main_jet": s["main_jet"]["current"],
+            "pilot_jet": s["pilot_jet"]["current"],
+            "clip": s["clip"]["current"],
+            "mixture_screw": s["mixture_screw"]["current_turns"],
+        }
+        for bike, s in proven.items()
+    }
     start = {bike: dict(v) for bike, v in state.items()}
     sessions = [s["name"] for s in doc["sessions"]]
     assert [o["label"] for o in doc["work_orders"]][-1] == "after the event: back to the proven settings"
@@ -303,12 +326,15 @@ def test_change_again_thresholds_lie_outside_the_forecast_of_the_sessions_they_c
         i = 0
         while i < len(entries):  # a run: consecutive sessions sharing the main jet
             j = i
-            while j + 1 < len(entries) and entries[j + 1]["settings"]["main_jet"]["recommended"] == \
-                    entries[i]["settings"]["main_jet"]["recommended"]:
+            while (
+                j + 1 < len(entries)
+                and entries[j + 1]["settings"]["main_jet"]["recommended"]
+                == entries[i]["settings"]["main_jet"]["recommended"]
+            ):
                 j += 1
-            low = min(e["summary"]["air_temperature_C_min"] for e in entries[i:j + 1])
-            high = max(e["summary"]["air_temperature_C_max"] for e in entries[i:j + 1])
-            for e in entries[i:j + 1]:
+            low = min(e["summary"]["air_temperature_C_min"] for e in entries[i : j + 1])
+            high = max(e["summary"]["air_temperature_C_max"] for e in entries[i : j + 1])
+            for e in entries[i : j + 1]:
                 rj = e["rejet_temperatures_C"]
                 if rj["below"] is not None:
                     assert rj["below"] < low, (name, bike, rj, low)
@@ -341,8 +367,10 @@ def test_idle_with_nothing_rich_enough_takes_the_richest_real_candidate(screw_ki
     reference = pf.conditions(elevation=3000.0, celsius=30.0, pressure=70000.0)
     narrow = pf.settings(pilot=60.0, screw_kind=screw_kind, turns=1.5, usable=(1.0, 2.0))
     wide = pf.settings(pilot=60.0, screw_kind=screw_kind, turns=2.5, usable=(0.5, 5.0))
-    bikes = (pf.bike("N1", "TS-250", reference, **{f: getattr(narrow, f) for f in ("pilot_jet", "mixture_screw")}),
-             pf.bike("W1", "TS-250", reference, **{f: getattr(wide, f) for f in ("pilot_jet", "mixture_screw")}))
+    bikes = (
+        pf.bike("N1", "TS-250", reference, **{f: getattr(narrow, f) for f in ("pilot_jet", "mixture_screw")}),
+        pf.bike("W1", "TS-250", reference, **{f: getattr(wide, f) for f in ("pilot_jet", "mixture_screw")}),
+    )
     doc = make_plan(pf.fleet(bikes, reference=reference), pf.event(elevation=0.0, celsius=-10.0))
     for e in doc["entries"]:
         s = e["settings"]["mixture_screw"]

@@ -61,8 +61,24 @@ def read_cells(page: str) -> dict[tuple[str, str], str]:
     return reader.cells
 
 
-@pytest.mark.parametrize("bike_id", ["../x", "..", "a/b\\c", "<b>T1</b>", "CON", "nul.txt", "T:1?*|\"", " .hidden", "Ærø-7", "",
-                                     "\x1b[31mT01", "T0\r2\x07", "\x1b"])
+@pytest.mark.parametrize(
+    "bike_id",
+    [
+        "../x",
+        "..",
+        "a/b\\c",
+        "<b>T1</b>",
+        "CON",
+        "nul.txt",
+        'T:1?*|"',
+        " .hidden",
+        "Ærø-7",
+        "",
+        "\x1b[31mT01",
+        "T0\r2\x07",
+        "\x1b",
+    ],
+)
 def test_safe_stem_is_a_plain_file_name(bike_id):
     stem = safe_stem(bike_id)
     assert stem and stem not in (".", "..") and ".." not in stem
@@ -81,9 +97,18 @@ def test_safe_file_names_resolve_collisions_case_insensitively():
     assert safe_file_names(list(reversed(ids))) == names
 
 
-@pytest.mark.parametrize("value, text", [
-    (1.5, "1½"), (2.0, "2"), (0.25, "¼"), (2.75, "2¾"), (-0.5, "−½"), (1.3, "1.30"), (None, "–"),
-])
+@pytest.mark.parametrize(
+    "value, text",
+    [
+        (1.5, "1½"),
+        (2.0, "2"),
+        (0.25, "¼"),
+        (2.75, "2¾"),
+        (-0.5, "−½"),
+        (1.3, "1.30"),
+        (None, "–"),
+    ],
+)
 def test_turns_in_quarters(value, text):  # common practice: screws are set in quarter turns
     assert tables.turns(value) == text
 
@@ -98,10 +123,13 @@ def plan4():
     return report_fixtures.make_plan(n_bikes=4, n_sessions=4)
 
 
-@pytest.mark.parametrize("paper, size_pt", [
-    ("a4", (595.28, 841.89)),  # ISO 216 A4: 210 x 297 mm = 595.28 x 841.89 pt (1 pt = 1/72 in)
-    ("letter", (612.0, 792.0)),  # ANSI/ASME Y14.1 letter: 8.5 x 11 in = 612 x 792 pt
-])
+@pytest.mark.parametrize(
+    "paper, size_pt",
+    [
+        ("a4", (595.28, 841.89)),  # ISO 216 A4: 210 x 297 mm = 595.28 x 841.89 pt (1 pt = 1/72 in)
+        ("letter", (612.0, 792.0)),  # ANSI/ASME Y14.1 letter: 8.5 x 11 in = 612 x 792 pt
+    ],
+)
 def test_sheet_is_one_page_of_the_paper_with_four_sessions(plan4, tmp_path, paper, size_pt):
     entries = tables.entries_by_bike(plan4)["T002"]
     pages = render.write_sheet(plan4, entries, tmp_path / "s.html", tmp_path / "s.pdf", paper)
@@ -116,8 +144,10 @@ def test_crowded_sheet_still_fits_one_page(plan4, tmp_path):
     entries = [dict(e) for e in tables.entries_by_bike(plan4)["T001"]]
     session_codes = [(code, severity, text) for code, (severity, text) in CODES.items() if code not in BIKE_CODES]
     for i, e in enumerate(entries):  # every session warning code, long messages, two differing by session
-        e["warnings"] = [{"code": code, "severity": severity, "message": f"{text}; " * 2 + (f"session {i}" if k < 2 else "")}
-                         for k, (code, severity, text) in enumerate(session_codes)]
+        e["warnings"] = [
+            {"code": code, "severity": severity, "message": f"{text}; " * 2 + (f"session {i}" if k < 2 else "")}
+            for k, (code, severity, text) in enumerate(session_codes)
+        ]
     pages = render.write_sheet(plan4, entries, tmp_path / "s.html", tmp_path / "s.pdf", "letter")
     reader = pypdf.PdfReader(tmp_path / "s.pdf")
     assert pages == len(reader.pages) in (1, 2)
@@ -141,7 +171,10 @@ def test_sheet_html_shows_every_setting_of_the_plan(plan4):
             assert str(s["pilot_jet"]["recommended"]) in cells[("pilot_jet", e["session"])]
             assert str(s["clip"]["recommended"]) in cells[("clip", e["session"])]
             assert tables.turns(s["mixture_screw"]["recommended_turns"]) in cells[("mixture_screw", e["session"])]
-            if before is None or before["mixture_screw"]["recommended_turns"] != s["mixture_screw"]["recommended_turns"]:
+            if (
+                before is None
+                or before["mixture_screw"]["recommended_turns"] != s["mixture_screw"]["recommended_turns"]
+            ):
                 assert s["mixture_screw"]["change"] in cells[("mixture_screw", e["session"])]
         assert str(entries[0]["settings"]["main_jet"]["current"]) in cells[("main_jet", "fitted")]
 
@@ -169,11 +202,19 @@ def _renamed_plan(bike_ids: list[str], names: dict[str, str]) -> dict:
 
 
 def test_every_name_is_escaped_on_sheet_and_summary():
-    names = {"fleet": "<i>F</i>", "event": "<b>E&amp;</b>", "site": "<u>S</u>", "model": "<s>M</s>",
-             "session": " <em>x</em>"}
+    names = {
+        "fleet": "<i>F</i>",
+        "event": "<b>E&amp;</b>",
+        "site": "<u>S</u>",
+        "model": "<s>M</s>",
+        "session": " <em>x</em>",
+    }
     plan = _renamed_plan(["<b>T1</b>"], names)
-    pages = {"sheet": render.sheet_html(plan, plan["entries"]), "summary": render.summary_html(plan),
-             "index": render.index_html(plan, [])}
+    pages = {
+        "sheet": render.sheet_html(plan, plan["entries"]),
+        "summary": render.summary_html(plan),
+        "index": render.index_html(plan, []),
+    }
     for which, page in pages.items():
         for key, name in names.items():
             if which == "index" and key == "session":
@@ -199,8 +240,16 @@ def test_control_characters_in_names_leave_the_chart_and_page_whole(tmp_path):
 def test_cautions_are_on_sheet_and_summary(plan4):
     entries = tables.entries_by_bike(plan4)["T001"]
     # DESIGN.md section 6, in substance: the key phrases must be there.
-    for phrase in ("Estimates only", "plug reading", "choose the richer", "seize", "cold engine",
-                   "service manual", "qualified mechanic", "baseline settings"):
+    for phrase in (
+        "Estimates only",
+        "plug reading",
+        "choose the richer",
+        "seize",
+        "cold engine",
+        "service manual",
+        "qualified mechanic",
+        "baseline settings",
+    ):
         assert phrase in CAUTIONS
     assert html.escape(CAUTIONS, quote=False).replace("'", "&#39;") in render.sheet_html(plan4, entries)
     assert html.escape(CAUTIONS, quote=False).replace("'", "&#39;") in render.summary_html(plan4)
@@ -253,8 +302,14 @@ def test_the_report_keeps_no_warning_vocabulary_of_its_own():
 def test_values_not_on_record_show_as_dashes(plan4):
     entries = [json_copy(e) for e in tables.entries_by_bike(plan4)["T001"]]
     for e in entries:  # the plan's shape for a bike without a needle on record (tuning.plan, no-needle)
-        e["settings"]["clip"].update(needle=None, current=None, recommended=None, grooves=None, steps=0,
-                                     change="no needle or clip on record: not planned")
+        e["settings"]["clip"].update(
+            needle=None,
+            current=None,
+            recommended=None,
+            grooves=None,
+            steps=0,
+            change="no needle or clip on record: not planned",
+        )
     rows = tables.sheet_rows(entries)
     clip = next(c for c in rows["circuits"] if c["key"] == "clip")
     assert clip["current"] == "–" and "None" not in clip["detail"]
@@ -330,10 +385,14 @@ def test_sheets_laid_out_as_one_document_give_each_bike_its_own_page(tmp_path):
     grouped = {bike: [dict(e) for e in entries] for bike, entries in tables.entries_by_bike(plan).items()}
     session_codes = [(code, severity, text) for code, (severity, text) in CODES.items() if code not in BIKE_CODES]
     for i, e in enumerate(grouped["T003"]):
-        e["warnings"] = [{"code": code, "severity": severity, "message": f"{text}; " * 2 + f"session {i}"}
-                         for code, severity, text in session_codes]
-    jobs = [render.SheetJob(entries, tmp_path / f"{bike}.html", tmp_path / f"{bike}.pdf", f"sheet-{bike}")
-            for bike, entries in grouped.items()]
+        e["warnings"] = [
+            {"code": code, "severity": severity, "message": f"{text}; " * 2 + f"session {i}"}
+            for code, severity, text in session_codes
+        ]
+    jobs = [
+        render.SheetJob(entries, tmp_path / f"{bike}.html", tmp_path / f"{bike}.pdf", f"sheet-{bike}")
+        for bike, entries in grouped.items()
+    ]
     assert render.write_sheets(plan, jobs, "a4") == [1] * len(jobs)
     for bike, entries in grouped.items():
         reader = pypdf.PdfReader(tmp_path / f"{bike}.pdf")
@@ -355,8 +414,11 @@ def test_sheets_laid_out_as_one_document_give_each_bike_its_own_page(tmp_path):
             main = e["settings"]["main_jet"]
             assert str(main["recommended"]) in cells[("main_jet", e["session"])], bike
         assert page == (alone / "s.html").read_text(encoding="utf-8"), bike  # as if rendered alone
+
     def density(bike):
-        return re.search(r'<div class="sheet ([a-z ]+)"', (tmp_path / f"{bike}.html").read_text(encoding="utf-8")).group(1)
+        return re.search(
+            r'<div class="sheet ([a-z ]+)"', (tmp_path / f"{bike}.html").read_text(encoding="utf-8")
+        ).group(1)
 
     order = [d for d, _ in render.LAYOUTS]
     assert order.index(density("T003")) >= order.index(density("T001"))  # a layout no earlier than the others'
@@ -373,10 +435,14 @@ def test_remembered_layouts_give_the_sheets_they_would_get_anyway(tmp_path):
     for memory in (None, {}):
         folder = tmp_path / ("with" if memory is not None else "without")
         folder.mkdir()
-        jobs = [render.SheetJob(entries, folder / f"{bike}.html", folder / f"{bike}.pdf", f"sheet-{bike}")
-                for bike, entries in grouped.items()]
+        jobs = [
+            render.SheetJob(entries, folder / f"{bike}.html", folder / f"{bike}.pdf", f"sheet-{bike}")
+            for bike, entries in grouped.items()
+        ]
         for k in range(0, len(jobs), 3):
-            assert render.write_sheets(plan, jobs[k:k + 3], "a4", fitted=memory) == [1] * len(jobs[k:k + 3])
-        densities[memory is not None] = [re.search(r'<div class="sheet ([a-z ]+)"', job.html_path.read_text(
-            encoding="utf-8")).group(1) for job in jobs]
+            assert render.write_sheets(plan, jobs[k : k + 3], "a4", fitted=memory) == [1] * len(jobs[k : k + 3])
+        densities[memory is not None] = [
+            re.search(r'<div class="sheet ([a-z ]+)"', job.html_path.read_text(encoding="utf-8")).group(1)
+            for job in jobs
+        ]
     assert densities[True] == densities[False]

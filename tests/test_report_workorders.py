@@ -69,14 +69,17 @@ def test_summary_leads_with_the_bikes_in_danger_downhill_without_stock(downhill_
     assert in_danger and safe  # the scenario has both (else this test could not fail)
     page = render.summary_html(plan)
     text = visible(page)
-    box = visible(page[page.index('<div class="danger">'): page.index("<h2>Sessions</h2>")])
+    box = visible(page[page.index('<div class="danger">') : page.index("<h2>Sessions</h2>")])
     assert text.index("DANGER") < text.index("Pick list") < text.index("Work orders")
     for bike in in_danger:
         assert re.search(rf"(^| ){re.escape(bike)} ", box), bike
     for bike in safe:
         assert not re.search(rf"(^| ){re.escape(bike)} ", box), bike
-    first = next(e for e in plan["entries"] if e["bike"] == in_danger[0] and
-                 any(w["severity"] == "danger" for w in e["warnings"]))
+    first = next(
+        e
+        for e in plan["entries"]
+        if e["bike"] == in_danger[0] and any(w["severity"] == "danger" for w in e["warnings"])
+    )
     for w in (w for w in first["warnings"] if w["severity"] == "danger"):
         assert " ".join(say_item(w, Display()).split()) in box  # the first session's danger in full, as shown
     # on paper too: the first page of the summary's PDF starts with the danger box
@@ -124,7 +127,11 @@ def test_summary_work_orders_one_row_per_bike_per_transition(demo):
         head = visible(table.split("</thead>")[0])
         assert head.lower().startswith(order["label"].lower())
         assert (tables.minutes(order["minutes"]) in head) == bool(order["bikes"])
-        rows = [visible(r) for r in re.findall(r"<tr>(.*?)</tr>", table.split("</thead>")[1], re.S)] if order["bikes"] else []
+        rows = (
+            [visible(r) for r in re.findall(r"<tr>(.*?)</tr>", table.split("</thead>")[1], re.S)]
+            if order["bikes"]
+            else []
+        )
         assert len(rows) == len(order["bikes"])
         for row, b in zip(rows, order["bikes"]):
             assert row.startswith(b["bike"])
@@ -136,15 +143,19 @@ def test_sheet_pdf_shows_the_bikes_work_order_and_jet_sources(demo, tmp_path):
     work = tables.plan_index(demo)["work"]
     by_bike = tables.entries_by_bike(demo)
     # a bike whose jet comes off another bike, and one whose jet must be ordered
-    picked = {e["bike"] for e in demo["entries"] for k in ("main_jet", "pilot_jet")
-              if e["settings"][k]["source"]["kind"] in ("bike", "order")}
+    picked = {
+        e["bike"]
+        for e in demo["entries"]
+        for k in ("main_jet", "pilot_jet")
+        if e["settings"][k]["source"]["kind"] in ("bike", "order")
+    }
     assert picked
     for bike in picked:
         entries = by_bike[bike]
         render.write_sheet(demo, entries, tmp_path / "s.html", tmp_path / "s.pdf", "a4")
         text = squeezed(pypdf.PdfReader(tmp_path / "s.pdf").pages[0].extract_text())
         page = (tmp_path / "s.html").read_text(encoding="utf-8")
-        form = page[page.index('<table class="form">'):]
+        form = page[page.index('<table class="form">') :]
         rows = form.split("<tr>")
         for order, row in work[bike]:  # in the form: the row of the session it comes before, or the last
             where = order["before_session"] or "After the event"
@@ -171,7 +182,7 @@ def test_sheet_says_danger_first_in_words(downhill, tmp_path):
     text = " ".join(pypdf.PdfReader(tmp_path / "d.pdf").pages[0].extract_text().split())
     assert "DANGER" in text and text.index("DANGER") < text.index("AIR AT THE SESSIONS")
     page = (tmp_path / "d.html").read_text(encoding="utf-8")
-    box = visible(page[page.index('<div class="danger">'): page.index("<h2>Air at the sessions</h2>")])
+    box = visible(page[page.index('<div class="danger">') : page.index("<h2>Air at the sessions</h2>")])
     for e in by_bike[danger["bike"]]:  # every session with a danger is named in the box, with its codes
         for w in e["warnings"]:
             if w["severity"] == "danger":
@@ -201,8 +212,10 @@ def test_every_sheet_of_the_scenarios_is_one_page(scenario, paper, request, tmp_
 
 
 def test_condensed_sheet_names_every_session_of_a_warning():
-    rows = [{"severity": "danger", "code": "no-safe-jet", "message": m, "session_list": s, "sessions": ", ".join(s)}
-            for m, s in (("main, A", ["A"]), ("pilot, A", ["A"]), ("main, B", ["B"]), ("pilot, C", ["C"]))]
+    rows = [
+        {"severity": "danger", "code": "no-safe-jet", "message": m, "session_list": s, "sessions": ", ".join(s)}
+        for m, s in (("main, A", ["A"]), ("pilot, A", ["A"]), ("main, B", ["B"]), ("pilot, C", ["C"]))
+    ]
     rows.append({"severity": "note", "code": "icing-risk", "message": "n", "session_list": ["A"], "sessions": "A"})
     kept = tables.condensed(rows, {"danger"})
     assert [r["message"] for r in kept] == ["main, A", "pilot, A", "n"]  # both jets of the first session in full

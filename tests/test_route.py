@@ -24,9 +24,11 @@ HEAD = '<?xml version="1.0" encoding="UTF-8"?>\n<gpx version="1.1" creator="hand
 
 def gpx(points, tag="trk"):
     """A GPX text of (lat, lon, ele or None, ISO time or None) points in one track segment or route."""
+
     def one(lat, lon, ele, time, name):
         inner = (f"<ele>{ele}</ele>" if ele is not None else "") + (f"<time>{time}</time>" if time else "")
         return f'<{name} lat="{lat}" lon="{lon}">{inner}</{name}>\n'
+
     if tag == "trk":
         body = "<trk><trkseg>\n" + "".join(one(*p, "trkpt") for p in points) + "</trkseg></trk>\n"
     else:
@@ -43,8 +45,16 @@ def write(tmp_path, text, name="route.gpx") -> Path:
 def test_shares_by_the_tracks_times(tmp_path):
     """10 min at 1000 m, then 20 min climbing to 1200 m: the climb's time goes half to each end,
     so 1000 m holds 10 + 10 = 20 of 30 min (2/3) and 1200 m 10 of 30 (1/3). Worked by hand."""
-    path = write(tmp_path, gpx([(47.00, 11.0, 1000, "2026-06-13T07:00:00Z"), (47.01, 11.0, 1000, "2026-06-13T07:10:00Z"),
-                                (47.02, 11.0, 1200, "2026-06-13T07:30:00Z")]))
+    path = write(
+        tmp_path,
+        gpx(
+            [
+                (47.00, 11.0, 1000, "2026-06-13T07:00:00Z"),
+                (47.01, 11.0, 1000, "2026-06-13T07:10:00Z"),
+                (47.02, 11.0, 1200, "2026-06-13T07:30:00Z"),
+            ]
+        ),
+    )
     profile = read_route(path)
     assert profile.source == "route" and profile.route == "route.gpx"
     assert profile.elevations == (1000.0, 1200.0)
@@ -54,7 +64,9 @@ def test_shares_by_the_tracks_times(tmp_path):
 def test_shares_by_distance_without_times(tmp_path):
     """Points 0.01° of latitude apart along a meridian (equal distances): the flat stretch gives
     1000 m one stretch, the climb half a stretch to each end: 1.5 : 0.5 = 3/4 and 1/4. Worked by hand."""
-    path = write(tmp_path, gpx([(47.00, 11.0, 1000, None), (47.01, 11.0, 1000, None), (47.02, 11.0, 1200, None)], "rte"))
+    path = write(
+        tmp_path, gpx([(47.00, 11.0, 1000, None), (47.01, 11.0, 1000, None), (47.02, 11.0, 1200, None)], "rte")
+    )
     profile = read_route(path)
     assert profile.elevations == (1000.0, 1200.0)
     assert profile.shares == pytest.approx((0.75, 0.25), abs=1e-6)
@@ -62,8 +74,16 @@ def test_shares_by_distance_without_times(tmp_path):
 
 def test_times_on_only_some_points_fall_back_to_distance(tmp_path):
     """As above: one point without a time, so distances count (3/4, 1/4 by hand), not the times (2/3, 1/3)."""
-    path = write(tmp_path, gpx([(47.00, 11.0, 1000, "2026-06-13T07:00:00Z"), (47.01, 11.0, 1000, None),
-                                (47.02, 11.0, 1200, "2026-06-13T07:30:00Z")]))
+    path = write(
+        tmp_path,
+        gpx(
+            [
+                (47.00, 11.0, 1000, "2026-06-13T07:00:00Z"),
+                (47.01, 11.0, 1000, None),
+                (47.02, 11.0, 1200, "2026-06-13T07:30:00Z"),
+            ]
+        ),
+    )
     assert read_route(path).shares == pytest.approx((0.75, 0.25), abs=1e-6)
 
 
@@ -81,12 +101,18 @@ def test_many_heights_are_banded_never_above_what_they_stand_for(tmp_path):
     assert all(0.05 < s < 0.11 for s in profile.shares[:-1])
 
 
-@pytest.mark.parametrize(("points", "problem"), [
-    ([(47.0, 11.0, 1000, None)], "has 1 track or route point(s); a route needs at least 2"),
-    ([(47.0, 11.0, None, None), (47.01, 11.0, 1000, None)], "1 of 2 points have no elevation"),
-    ([(47.0, 11.0, 1000, None), (47.0, 11.0, 1100, None)], "all lie at one place"),
-    ([(47.0, 11.0, 1000, "2026-06-13T08:00:00Z"), (47.01, 11.0, 1100, "2026-06-13T07:00:00Z")], "times go backwards"),
-])
+@pytest.mark.parametrize(
+    ("points", "problem"),
+    [
+        ([(47.0, 11.0, 1000, None)], "has 1 track or route point(s); a route needs at least 2"),
+        ([(47.0, 11.0, None, None), (47.01, 11.0, 1000, None)], "1 of 2 points have no elevation"),
+        ([(47.0, 11.0, 1000, None), (47.0, 11.0, 1100, None)], "all lie at one place"),
+        (
+            [(47.0, 11.0, 1000, "2026-06-13T08:00:00Z"), (47.01, 11.0, 1100, "2026-06-13T07:00:00Z")],
+            "times go backwards",
+        ),
+    ],
+)
 def test_routes_that_cannot_give_heights_are_refused(tmp_path, points, problem):
     with pytest.raises(RouteProblem, match=problem.replace("(", r"\(").replace(")", r"\)")):
         read_route(write(tmp_path, gpx(points)))
@@ -112,8 +138,11 @@ def _event(demo, extra_top="", session_extra=""):
 
 def test_event_and_session_heights_are_read(demo):
     write(demo, gpx([(47.00, 11.0, 1000, None), (47.01, 11.0, 1000, None), (47.02, 11.0, 1200, None)]), "loop.gpx")
-    path, _ = _event(demo, "route: loop.gpx\nweather_elevation: 1500 m\nlapse_rate: 5.5 K/km\n",
-                     ", elevation: {min: 1200 m, max: 2100 m}")
+    path, _ = _event(
+        demo,
+        "route: loop.gpx\nweather_elevation: 1500 m\nlapse_rate: 5.5 K/km\n",
+        ", elevation: {min: 1200 m, max: 2100 m}",
+    )
     event = load_event(path)
     first, *others = event.sessions
     assert first.heights.source == "range" and first.heights.elevations[0] == 1200.0
@@ -121,12 +150,15 @@ def test_event_and_session_heights_are_read(demo):
     assert event.weather_elevation == 1500.0 and event.lapse_rate == pytest.approx(5.5e-3)
 
 
-@pytest.mark.parametrize(("top", "session", "field", "problem"), [
-    ("route: nothing.gpx\n", "", "route", "route file nothing.gpx"),
-    ("", ", elevation: {min: 2100 m, max: 1200 m}", "sessions[0].elevation.max", "is below min"),
-    ("", ", elevation: {min: 1200 m, max: 2100 m}, route: x.gpx", "sessions[0].route", "not both"),
-    ("lapse_rate: 30 K/km\n", "", "lapse_rate", "outside the accepted range"),
-])
+@pytest.mark.parametrize(
+    ("top", "session", "field", "problem"),
+    [
+        ("route: nothing.gpx\n", "", "route", "route file nothing.gpx"),
+        ("", ", elevation: {min: 2100 m, max: 1200 m}", "sessions[0].elevation.max", "is below min"),
+        ("", ", elevation: {min: 1200 m, max: 2100 m}, route: x.gpx", "sessions[0].route", "not both"),
+        ("lapse_rate: 30 K/km\n", "", "lapse_rate", "outside the accepted range"),
+    ],
+)
 def test_bad_heights_are_one_located_line(demo, capsys, top, session, field, problem):
     path, text = _event(demo, top, session)
     with pytest.raises(ConfigError) as info:
@@ -135,8 +167,11 @@ def test_bad_heights_are_one_located_line(demo, capsys, top, session, field, pro
     p = info.value.problems[0]
     assert p.field == field and problem in p.message
     key = field.rsplit(".", 1)[-1].split("[")[0]
-    assert p.line == next(i for i, line in enumerate(text.splitlines(), 1)
-                          if (key + ":") in line and (field.startswith("sessions") == line.startswith("  - ")))
+    assert p.line == next(
+        i
+        for i, line in enumerate(text.splitlines(), 1)
+        if (key + ":") in line and (field.startswith("sessions") == line.startswith("  - "))
+    )
 
 
 def test_a_gpx_without_elevations_stops_the_plan_with_exit_2(demo, capsys):

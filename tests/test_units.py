@@ -39,7 +39,9 @@ def test_exact_factors(value, default_unit, expected):
     assert parse_quantity(value, default_unit) == pytest.approx(expected, rel=tolerance)
 
 
-@pytest.mark.parametrize("unit, si", [("ft", "m"), ("inHg", "Pa"), ("degF", "K"), ("mile", "m"), ("psi", "Pa"), ("mmHg", "Pa")])
+@pytest.mark.parametrize(
+    "unit, si", [("ft", "m"), ("inHg", "Pa"), ("degF", "K"), ("mile", "m"), ("psi", "Pa"), ("mmHg", "Pa")]
+)
 def test_agrees_with_pint_definitions(unit, si):
     # pint's own definition file is the independent reference here
     expected = registry().Quantity(3.5, unit).to(si).magnitude
@@ -73,8 +75,15 @@ def test_problems(value, default_unit, message):
 
 
 # Consistency checks (not validation): the JSON Schema's unit pattern lists only spellings the loader reads.
-DIMENSIONS = {"[length]": "m", "[temperature]": "degC", "[mass] / [length] / [time] ** 2": "hPa",
-              "[mass] / [length] ** 3": "kg/L", "[length] ** 3": "cc", "percent": "percent", "angle": "deg"}
+DIMENSIONS = {
+    "[length]": "m",
+    "[temperature]": "degC",
+    "[mass] / [length] / [time] ** 2": "hPa",
+    "[mass] / [length] ** 3": "kg/L",
+    "[length] ** 3": "cc",
+    "percent": "percent",
+    "angle": "deg",
+}
 
 
 @pytest.mark.parametrize("dimension, default_unit", DIMENSIONS.items(), ids=list(DIMENSIONS.values()))
@@ -89,7 +98,9 @@ def test_every_unit_the_schema_names_is_read(dimension, default_unit):
         assert math.isfinite(parse_quantity(f"12.5 {spelling}", default_unit)), spelling
 
 
-@pytest.mark.parametrize("value, default_unit", [("150 degC", "m"), ("20 m", "degC"), ("1013 kg", "hPa"), ("50 m", "percent")])
+@pytest.mark.parametrize(
+    "value, default_unit", [("150 degC", "m"), ("20 m", "degC"), ("1013 kg", "hPa"), ("50 m", "percent")]
+)
 def test_the_schema_pattern_refuses_another_kind_of_unit(value, default_unit):
     import re
 

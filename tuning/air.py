@@ -138,8 +138,12 @@ def geopotential_altitude(elevation):
 
 def _check_isa_altitude(geopotential_altitude, stacklevel=4):
     _warn_outside(
-        geopotential_altitude, c.ISA_LOWEST_ALTITUDE, c.ISA_TROPOPAUSE,
-        "US Standard Atmosphere 1976, first layer", "m geopotential", stacklevel=stacklevel,
+        geopotential_altitude,
+        c.ISA_LOWEST_ALTITUDE,
+        c.ISA_TROPOPAUSE,
+        "US Standard Atmosphere 1976, first layer",
+        "m geopotential",
+        stacklevel=stacklevel,
     )
 
 
@@ -448,8 +452,9 @@ def saturation_vapour_pressure(air_temperature):
     """
     temperature = _array(air_temperature, "air_temperature")
     _require_positive(temperature, "air_temperature", "K")
-    _warn_outside(temperature, *DENSITY_TEMPERATURE_RANGE, "saturation vapour pressure (CIPM-2007)", "degC",
-                  offset=c.ZERO_CELSIUS)
+    _warn_outside(
+        temperature, *DENSITY_TEMPERATURE_RANGE, "saturation vapour pressure (CIPM-2007)", "degC", offset=c.ZERO_CELSIUS
+    )
     return _result(_psv(temperature))
 
 
@@ -507,9 +512,7 @@ def vapour_pressure_from_relative_humidity(relative_humidity, air_temperature):
     relative_humidity = _array(relative_humidity, "relative_humidity")
     if np.any((relative_humidity < 0.0) | (relative_humidity > 1.0)):
         bad = relative_humidity[(relative_humidity < 0.0) | (relative_humidity > 1.0)]
-        raise ValueError(
-            f"relative_humidity must be a fraction 0..1, got {np.ravel(bad)[0]:g} (give 40 % as 0.40)"
-        )
+        raise ValueError(f"relative_humidity must be a fraction 0..1, got {np.ravel(bad)[0]:g} (give 40 % as 0.40)")
     return _result(relative_humidity * saturation_vapour_pressure(air_temperature))
 
 
@@ -567,8 +570,13 @@ def dew_point_from_vapour_pressure(vapour_pressure):
             slope = 2.0 * c.PSV_A * temperature + c.PSV_B - c.PSV_D / temperature**2
             temperature = temperature - residual / slope
         temperature = np.where(pressure == 0.0, -np.inf, temperature)
-    _warn_outside(temperature[np.isfinite(temperature)], *DENSITY_TEMPERATURE_RANGE,
-                  "dew point (CIPM-2007 p_sv)", "degC", offset=c.ZERO_CELSIUS)
+    _warn_outside(
+        temperature[np.isfinite(temperature)],
+        *DENSITY_TEMPERATURE_RANGE,
+        "dew point (CIPM-2007 p_sv)",
+        "degC",
+        offset=c.ZERO_CELSIUS,
+    )
     return _result(temperature)
 
 
@@ -661,7 +669,9 @@ def compressibility_factor(station_pressure, air_temperature, vapour_mole_fracti
 def _compressibility(pressure, temperature, x_v):
     t = temperature - c.ZERO_CELSIUS
     bracket = (
-        c.COMPRESSIBILITY_A0 + c.COMPRESSIBILITY_A1 * t + c.COMPRESSIBILITY_A2 * t**2
+        c.COMPRESSIBILITY_A0
+        + c.COMPRESSIBILITY_A1 * t
+        + c.COMPRESSIBILITY_A2 * t**2
         + (c.COMPRESSIBILITY_B0 + c.COMPRESSIBILITY_B1 * t) * x_v
         + (c.COMPRESSIBILITY_C0 + c.COMPRESSIBILITY_C1 * t) * x_v**2
     )
@@ -677,10 +687,17 @@ def _density_parts(station_pressure, air_temperature, vapour_pressure, stackleve
     _require_positive(pressure, "station_pressure", "Pa")
     _require_positive(temperature, "air_temperature", "K")
     _require_non_negative(vapour, "vapour_pressure", "Pa")
-    _warn_outside(temperature, *DENSITY_TEMPERATURE_RANGE, "moist-air density (CIPM-2007)", "degC",
-                  offset=c.ZERO_CELSIUS, stacklevel=stacklevel)
-    _warn_outside(pressure, *DENSITY_PRESSURE_RANGE, "moist-air density (CIPM-2007)", "hPa", scale=100.0,
-                  stacklevel=stacklevel)
+    _warn_outside(
+        temperature,
+        *DENSITY_TEMPERATURE_RANGE,
+        "moist-air density (CIPM-2007)",
+        "degC",
+        offset=c.ZERO_CELSIUS,
+        stacklevel=stacklevel,
+    )
+    _warn_outside(
+        pressure, *DENSITY_PRESSURE_RANGE, "moist-air density (CIPM-2007)", "hPa", scale=100.0, stacklevel=stacklevel
+    )
     celsius = temperature - c.ZERO_CELSIUS
     enhancement = c.ENHANCEMENT_ALPHA + c.ENHANCEMENT_BETA * pressure + c.ENHANCEMENT_GAMMA * celsius**2
     x_v = enhancement * vapour / pressure
@@ -802,12 +819,15 @@ def sae_j1349_correction_factor(dry_air_pressure, air_temperature):
     temperature = _array(air_temperature, "air_temperature")
     _require_positive(pressure, "dry_air_pressure", "Pa")
     _require_positive(temperature, "air_temperature", "K")
-    _warn_outside(temperature, *c.SAE_J1349_AIR_TEMPERATURE_RANGE, "SAE J1349 correction factor", "degC",
-                  offset=c.ZERO_CELSIUS)
-    _warn_outside(pressure, *c.SAE_J1349_DRY_AIR_PRESSURE_RANGE, "SAE J1349 correction factor", "kPa dry air",
-                  scale=1000.0)
+    _warn_outside(
+        temperature, *c.SAE_J1349_AIR_TEMPERATURE_RANGE, "SAE J1349 correction factor", "degC", offset=c.ZERO_CELSIUS
+    )
+    _warn_outside(
+        pressure, *c.SAE_J1349_DRY_AIR_PRESSURE_RANGE, "SAE J1349 correction factor", "kPa dry air", scale=1000.0
+    )
     return _result(
-        c.SAE_J1349_SLOPE * (c.SAE_J1349_DRY_AIR_PRESSURE / pressure)
+        c.SAE_J1349_SLOPE
+        * (c.SAE_J1349_DRY_AIR_PRESSURE / pressure)
         * np.sqrt(temperature / c.SAE_J1349_FORMULA_TEMPERATURE)
         - c.SAE_J1349_OFFSET
     )
@@ -922,8 +942,9 @@ def temperature_at_height(air_temperature, from_elevation, to_elevation, lapse_r
     return _result(result)
 
 
-def pressure_at_height(station_pressure, air_temperature, from_elevation, to_elevation,
-                       lapse_rate=c.STANDARD_LAPSE_RATE):
+def pressure_at_height(
+    station_pressure, air_temperature, from_elevation, to_elevation, lapse_rate=c.STANDARD_LAPSE_RATE
+):
     r"""Pressure carried from one height to another (hypsometric equation, linear temperature).
 
     Parameters
@@ -1006,7 +1027,9 @@ def vapour_pressure_at_height(vapour_pressure, station_pressure, pressure_at_new
     """
     vapour = _array(vapour_pressure, "vapour_pressure")
     _require_non_negative(vapour, "vapour_pressure", "Pa")
-    carried = vapour * _array(pressure_at_new_height, "pressure_at_new_height") / _array(station_pressure, "station_pressure")
+    carried = (
+        vapour * _array(pressure_at_new_height, "pressure_at_new_height") / _array(station_pressure, "station_pressure")
+    )
     return _result(np.minimum(carried, saturation_vapour_pressure(temperature_at_new_height)))
 
 

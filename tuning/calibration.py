@@ -67,8 +67,22 @@ from tuning import circuits, metering
 from tuning.errors import UserError
 
 __all__ = [
-    "CIRCUITS", "CIRCUIT_BANDS", "PLUG_CLASSES", "PLUG_VALUE", "LEAN_SIDE_SD", "Noise", "Priors", "NOISE", "PRIORS",
-    "Reading", "Estimate", "Calibration", "NOT_USED", "circuit_of", "readings_from", "estimate",
+    "CIRCUITS",
+    "CIRCUIT_BANDS",
+    "PLUG_CLASSES",
+    "PLUG_VALUE",
+    "LEAN_SIDE_SD",
+    "Noise",
+    "Priors",
+    "NOISE",
+    "PRIORS",
+    "Reading",
+    "Estimate",
+    "Calibration",
+    "NOT_USED",
+    "circuit_of",
+    "readings_from",
+    "estimate",
 ]
 
 CIRCUITS = ("pilot", "needle", "main")
@@ -162,6 +176,7 @@ def circuit_of(throttle: float) -> str:
 
 # --- readings from a plan document and its outcomes ----------------------------------------------------
 
+
 def _seconds(value) -> float:
     moment = value if isinstance(value, datetime) else datetime.fromisoformat(str(value))
     if moment.tzinfo is None:
@@ -185,18 +200,26 @@ def _delivered(entry: dict, outcome: dict, throttle: float) -> float:
         planned["turns"] = entry["settings"]["mixture_screw"]["recommended_turns"]
     s = entry["settings"]
     if outcome.get("main_jet") is not None and planned["main_jet"]:
-        ratio = float(metering.area_factor_between_jets(planned["main_jet"], outcome["main_jet"], s["main_jet"]["coding"]))
+        ratio = float(
+            metering.area_factor_between_jets(planned["main_jet"], outcome["main_jet"], s["main_jet"]["coding"])
+        )
         base["main"] *= ratio
         base["needle"] *= math.sqrt(ratio)  # the needle meters in series with the main (as the plan assumes)
     if outcome.get("pilot_jet") is not None and planned["pilot_jet"]:
-        base["pilot"] *= float(metering.area_factor_between_jets(planned["pilot_jet"], outcome["pilot_jet"],
-                                                             s["pilot_jet"]["coding"]))
+        base["pilot"] *= float(
+            metering.area_factor_between_jets(planned["pilot_jet"], outcome["pilot_jet"], s["pilot_jet"]["coding"])
+        )
     if outcome.get("mixture_screw_turns") is not None:
-        base["pilot"] *= float(circuits.mixture_screw_area_factor(float(outcome["mixture_screw_turns"]) - planned["turns"],
-                                                              s["mixture_screw"]["kind"]))
+        base["pilot"] *= float(
+            circuits.mixture_screw_area_factor(
+                float(outcome["mixture_screw_turns"]) - planned["turns"], s["mixture_screw"]["kind"]
+            )
+        )
     if outcome.get("clip") is not None and planned["clip"] is not None:
         # the assumed step per groove, as the plan uses where the needle's geometry is unknown
-        base["needle"] *= (1.0 + circuits.ASSUMED_GROOVE_AREA_STEP) ** (0.5 * (int(outcome["clip"]) - int(planned["clip"])))
+        base["needle"] *= (1.0 + circuits.ASSUMED_GROOVE_AREA_STEP) ** (
+            0.5 * (int(outcome["clip"]) - int(planned["clip"]))
+        )
     w = circuits.circuit_weights(np.array([throttle]))[0]
     return float(w[0] * base["pilot"] + w[1] * base["needle"] + w[2] * base["main"])
 
@@ -253,31 +276,53 @@ def readings_from(plan_document: dict, outcomes: Iterable[dict]) -> list[Reading
         except (TypeError, ValueError):
             raise UserError(f"{where}: time: {o.get('time')!r} is not a date and time with its offset") from None
         ref_rho = float(entry["reference"]["moist_air_density_kg_m3"])
-        common = {"bike": entry["bike"], "model": entry["model"], "two_stroke": int(entry["strokes"]) == 2,
-                  "event": str(o.get("event") or plan_document.get("event")), "session": entry["session"],
-                  "time": None if o.get("time") is None else str(o.get("time")),
-                  "log_density_ratio": math.log(rho / ref_rho)}
+        common = {
+            "bike": entry["bike"],
+            "model": entry["model"],
+            "two_stroke": int(entry["strokes"]) == 2,
+            "event": str(o.get("event") or plan_document.get("event")),
+            "session": entry["session"],
+            "time": None if o.get("time") is None else str(o.get("time")),
+            "log_density_ratio": math.log(rho / ref_rho),
+        }
         ref_afr = float(entry["mixture_curve"]["reference_afr"])
         if o.get("wideband_afr") is not None:
             if throttle is None:
                 raise UserError(f"{where}: wideband_afr needs the throttle opening it was read at")
             t = float(throttle)
             predicted = ref_afr * required / _delivered(entry, o, t)
-            out.append(Reading(circuit=circuit_of(t), kind="wideband", plug=None, throttle=t,
-                               log_ratio=math.log(float(o["wideband_afr"]) / predicted),
-                               predicted_log_deviation=math.log(predicted / ref_afr), **common))
+            out.append(
+                Reading(
+                    circuit=circuit_of(t),
+                    kind="wideband",
+                    plug=None,
+                    throttle=t,
+                    log_ratio=math.log(float(o["wideband_afr"]) / predicted),
+                    predicted_log_deviation=math.log(predicted / ref_afr),
+                    **common,
+                )
+            )
         if o.get("plug") is not None:
             if o["plug"] not in PLUG_CLASSES:
                 raise UserError(f"{where}: plug: {o['plug']!r} is not one of {', '.join(PLUG_CLASSES)}")
             t = 1.0 if throttle is None else float(throttle)
             predicted = ref_afr * required / _delivered(entry, o, t)
-            out.append(Reading(circuit=PLUG_DEFAULT_CIRCUIT if throttle is None else circuit_of(t), kind="plug",
-                               log_ratio=None, plug=o["plug"], throttle=None if throttle is None else t,
-                               predicted_log_deviation=math.log(predicted / ref_afr), **common))
+            out.append(
+                Reading(
+                    circuit=PLUG_DEFAULT_CIRCUIT if throttle is None else circuit_of(t),
+                    kind="plug",
+                    log_ratio=None,
+                    plug=o["plug"],
+                    throttle=None if throttle is None else t,
+                    predicted_log_deviation=math.log(predicted / ref_afr),
+                    **common,
+                )
+            )
     return out
 
 
 # --- the estimate ---------------------------------------------------------------------------------------
+
 
 @dataclass(frozen=True, eq=False)
 class Estimate:
@@ -356,8 +401,13 @@ NOT_USED = Calibration(used=False)
 
 
 def _law_estimate(exponent: float, covariance=None) -> Estimate:
-    return Estimate(np.zeros(4), np.zeros((4, 4)) if covariance is None else covariance, "law",
-                    (False, False, False), float(exponent))
+    return Estimate(
+        np.zeros(4),
+        np.zeros((4, 4)) if covariance is None else covariance,
+        "law",
+        (False, False, False),
+        float(exponent),
+    )
 
 
 def _precision(sds) -> np.ndarray:
@@ -380,7 +430,7 @@ def _statistics(readings: list, noise: Noise):
     for r in readings:
         groups.setdefault((r.bike, r.event, r.session, r.circuit), []).append(r)
     stats: dict = {}
-    s2 = noise.session ** 2
+    s2 = noise.session**2
     for (bike, *_rest), members in groups.items():
         X = np.zeros((len(members), 4))
         X[np.arange(len(members)), [CIRCUITS.index(r.circuit) for r in members]] = 1.0

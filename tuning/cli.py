@@ -24,12 +24,20 @@ def add_display_options(p, event_file: bool = True) -> None:
     from tuning.display import LANGUAGES, UNIT_SYSTEMS
 
     wins = "; wins over units in the event file" if event_file else ""
-    p.add_argument("--units", choices=UNIT_SYSTEMS, default=None,
-                   help="units of what is shown: metric (degC, m, hPa; the default) or us (degF, ft, inHg)"
-                   f"{wins}. JSON and CSV files stay SI, with the unit in each column name")
+    p.add_argument(
+        "--units",
+        choices=UNIT_SYSTEMS,
+        default=None,
+        help="units of what is shown: metric (degC, m, hPa; the default) or us (degF, ft, inHg)"
+        f"{wins}. JSON and CSV files stay SI, with the unit in each column name",
+    )
     wins = "; wins over language in the event file" if event_file else ""
-    p.add_argument("--language", choices=LANGUAGES, default=None,
-                   help=f"language of what is shown: en (the default) or de (German, decimal comma){wins}")
+    p.add_argument(
+        "--language",
+        choices=LANGUAGES,
+        default=None,
+        help=f"language of what is shown: en (the default) or de (German, decimal comma){wins}",
+    )
 
 
 def _plain(display, value) -> str:
@@ -56,12 +64,18 @@ def add_air_parser(sub) -> None:
     p.add_argument("--temperature", metavar="VALUE", help="air temperature (bare number: degC)")
     p.add_argument("--qnh", metavar="VALUE", help="altimeter setting QNH (bare number: hPa)")
     p.add_argument("--station-pressure", metavar="VALUE", help="pressure at the site itself (bare number: hPa)")
-    p.add_argument("--sea-level-pressure", metavar="VALUE",
-                   help="pressure reduced to mean sea level, as forecasts give it (bare number: hPa)")
+    p.add_argument(
+        "--sea-level-pressure",
+        metavar="VALUE",
+        help="pressure reduced to mean sea level, as forecasts give it (bare number: hPa)",
+    )
     p.add_argument("--relative-humidity", metavar="VALUE", help="relative humidity over water (bare number: %%)")
     p.add_argument("--dew-point", metavar="VALUE", help="dew point (bare number: degC)")
-    p.add_argument("--json", action="store_true",
-                   help="print one JSON object instead of a table (SI, the unit in each key, whatever --units says)")
+    p.add_argument(
+        "--json",
+        action="store_true",
+        help="print one JSON object instead of a table (SI, the unit in each key, whatever --units says)",
+    )
     add_display_options(p, event_file=False)
     p.set_defaults(func=cmd_air)
 
@@ -91,12 +105,17 @@ def _air_option(args, dest, quantity=None):
         hint = "" if told else f"; give a number and a unit, e.g. '{example.get(dest, '1016 hPa')}'"
         raise UserError(f"{option}: {problem}{hint}") from None
     if not accepted.low <= shown <= accepted.high:
-        raise UserError(f"{option}: expected {accepted.low:g} to {accepted.high:g} {unit_label(default_unit)}, got {text!r}; "
-                        "check the value and its unit")
+        raise UserError(
+            f"{option}: expected {accepted.low:g} to {accepted.high:g} {unit_label(default_unit)}, got {text!r}; "
+            "check the value and its unit"
+        )
     bare = text.strip().lstrip("+-").replace(".", "", 1).isdigit()  # a number without unit
     if dest == "relative_humidity" and 0.0 < shown < 1.0 and bare:
-        print(f"carbfleet air: note: {option} {text.strip()} was read as {shown:g} %; "
-              f"for a fraction of {shown:g} write {shown * 100:g}", file=sys.stderr)
+        print(
+            f"carbfleet air: note: {option} {text.strip()} was read as {shown:g} %; "
+            f"for a fraction of {shown:g} write {shown * 100:g}",
+            file=sys.stderr,
+        )
     return value
 
 
@@ -111,8 +130,10 @@ def cmd_air(args) -> int:
     from tuning.plan.notices import ICING_RISK_NAMES
 
     # the options are the files' keys written as options (QNH named first, the usual case here)
-    pressure_options = {kind: "--" + key.replace("_", "-")
-                        for key, kind in sorted(PRESSURE_KEYS.items(), key=lambda item: item[0] != "qnh")}
+    pressure_options = {
+        kind: "--" + key.replace("_", "-")
+        for key, kind in sorted(PRESSURE_KEYS.items(), key=lambda item: item[0] != "qnh")
+    }
     humidity_options = {key: "--" + key.replace("_", "-") for key in HUMIDITY_KEYS}
 
     def exactly_one(options, what):
@@ -132,10 +153,15 @@ def cmd_air(args) -> int:
         raise UserError("--temperature is needed (e.g. --temperature '24 degC')")
     dest = pressure_options[pressure_kind][2:].replace("-", "_")
     pressure = _air_option(args, dest, "pressure")
-    humidity = {"relative_humidity": _air_option(args, "relative_humidity"), "dew_point": _air_option(args, "dew_point")}
+    humidity = {
+        "relative_humidity": _air_option(args, "relative_humidity"),
+        "dew_point": _air_option(args, "dew_point"),
+    }
     if humidity_kind == "dew_point" and humidity["dew_point"] > temperature + air.DEW_POINT_ROUNDING_TOLERANCE:
-        raise UserError(f"--dew-point: {args.dew_point!r} is above --temperature {args.temperature!r}; "
-                        "a dew point cannot exceed the air temperature, check both values")
+        raise UserError(
+            f"--dew-point: {args.dew_point!r} is above --temperature {args.temperature!r}; "
+            "a dew point cannot exceed the air temperature, check both values"
+        )
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
         try:
@@ -189,12 +215,21 @@ def _air_table(result: dict, display=None) -> str:
 
     rows = [
         (_("pressure given as"), _(result["pressure_kind"].replace("_", " ")), ""),
-        (_("station pressure"), number(d.pressure_value(result["station_pressure_hPa"]), 2 if us else 1), d.pressure_unit),
+        (
+            _("station pressure"),
+            number(d.pressure_value(result["station_pressure_hPa"]), 2 if us else 1),
+            d.pressure_unit,
+        ),
         (_("air temperature"), number(d.temperature_value(result["air_temperature_C"]), 1), d.temperature_unit),
-        (_("dew point"), _("n/a"), "") if result["dew_point_C"] is None
+        (_("dew point"), _("n/a"), "")
+        if result["dew_point_C"] is None
         else (_("dew point"), number(d.temperature_value(result["dew_point_C"]), 1), d.temperature_unit),
         (_("relative humidity"), number(result["relative_humidity_pct"], 0), "%"),
-        (_("vapour pressure"), number(d.pressure_value(result["vapour_pressure_hPa"]), 3 if us else 2), d.pressure_unit),
+        (
+            _("vapour pressure"),
+            number(d.pressure_value(result["vapour_pressure_hPa"]), 3 if us else 2),
+            d.pressure_unit,
+        ),
         (_("moist-air density"), number(result["moist_air_density_kg_m3"], 4), "kg/m³"),
         (_("dry-air density (oxygen-carrying part)"), number(result["dry_air_density_kg_m3"], 4), "kg/m³"),
         (_("density against ISA sea level (1.225)"), number(result["density_ratio_isa"] * 100, 1), "%"),
@@ -282,9 +317,13 @@ def add_plan_parser(sub) -> None:
     )
     p.add_argument("fleet", metavar="FLEET", help="fleet file (YAML)")
     p.add_argument("event", metavar="EVENT", help="event file (YAML) naming its weather table")
-    p.add_argument("--out", metavar="DIR", required=True,
-                   help="output folder (created when missing); only the three plan files are written in it, "
-                   "all new or all old, and an existing file of those names only when carbfleet wrote it")
+    p.add_argument(
+        "--out",
+        metavar="DIR",
+        required=True,
+        help="output folder (created when missing); only the three plan files are written in it, "
+        "all new or all old, and an existing file of those names only when carbfleet wrote it",
+    )
     add_policy_option(p)
     add_display_options(p)
     add_history_options(p)
@@ -294,9 +333,13 @@ def add_plan_parser(sub) -> None:
 def add_policy_option(p) -> None:
     from tuning.config.model import CHANGE_POLICIES
 
-    p.add_argument("--policy", choices=CHANGE_POLICIES, default=None,
-                   help="event: one setting per bike for the event unless a change pays for its work (default); "
-                   "session: the best setting for each session (race teams). Wins over change_policy in the files.")
+    p.add_argument(
+        "--policy",
+        choices=CHANGE_POLICIES,
+        default=None,
+        help="event: one setting per bike for the event unless a change pays for its work (default); "
+        "session: the best setting for each session (race teams). Wins over change_policy in the files.",
+    )
 
 
 def cmd_plan(args) -> int:
@@ -325,7 +368,9 @@ def cmd_plan(args) -> int:
         with warnings.catch_warnings(record=True) as caught:
             warnings.simplefilter("always")
             calibration = history.calibration(fleet, use=not args.no_calibration)
-            plan = history.adjust(fleet, event, make_plan(fleet, event, policy_name=args.policy, calibration=calibration))
+            plan = history.adjust(
+                fleet, event, make_plan(fleet, event, policy_name=args.policy, calibration=calibration)
+            )
         paths = write_plan_files(plan, args.out)  # SI, whatever the display
         history.record()
         history_lines = history.lines(display)
@@ -335,26 +380,46 @@ def cmd_plan(args) -> int:
         say("carbfleet plan: " + _("note: {note}").format(note=note), file=sys.stderr)
     entries = plan["entries"]
     changed = sum(
-        1 for e in entries if any(e["settings"][k]["steps"] for k in ("main_jet", "pilot_jet", "clip"))
+        1
+        for e in entries
+        if any(e["settings"][k]["steps"] for k in ("main_jet", "pilot_jet", "clip"))
         or e["settings"]["mixture_screw"]["change_turns"]
     )
     to_order = sum(p["to_order"] or 0 for p in plan["pick_list"])
     stock = tables.to_order_text(to_order, display) if tables.stock_kept(plan) else display._(tables.NO_STOCK_LIST)
     bikes, sessions = len({e["bike"] for e in entries}), len(plan["sessions"])
-    say(_("{fleet} at {event} ({site}, {elevation}): {bikes} bikes x {sessions} sessions, {changed} with changes, "
-          "{warnings} warnings, {stock}").format(
-        fleet=plan["fleet"], event=plan["event"], site=plan["site"]["name"],
-        elevation=display.elevation(plan["site"]["elevation_m"]), bikes=bikes, sessions=sessions,
-        changed=changed, warnings=plan["warnings_count"], stock=stock))
+    say(
+        _(
+            "{fleet} at {event} ({site}, {elevation}): {bikes} bikes x {sessions} sessions, {changed} with changes, "
+            "{warnings} warnings, {stock}"
+        ).format(
+            fleet=plan["fleet"],
+            event=plan["event"],
+            site=plan["site"]["name"],
+            elevation=display.elevation(plan["site"]["elevation_m"]),
+            bikes=bikes,
+            sessions=sessions,
+            changed=changed,
+            warnings=plan["warnings_count"],
+            stock=stock,
+        )
+    )
     row = _("main {main}  pilot {pilot}  clip {clip}  factor {factor}")
     for e in entries[:40]:
         m, pj, c = e["settings"]["main_jet"], e["settings"]["pilot_jet"], e["settings"]["clip"]
-        clip = display.number(None) if c["current"] is None else f"{c['current']}->{c['recommended']}"  # no needle on record
-        moves = row.format(main=f"{_plain(display, m['current'])}->{_plain(display, m['recommended'])}",
-                           pilot=f"{_plain(display, pj['current'])}->{_plain(display, pj['recommended'])}",
-                           clip=clip, factor=_plain(display, e["summary"]["area_factor_mean"]))
-        say(f"  {one_line(e['bike']):<10} {one_line(e['session']):<14} {moves}"
-            + (f"  [{', '.join(sorted({w['code'] for w in e['warnings']}))}]" if e["warnings"] else ""))
+        clip = (
+            display.number(None) if c["current"] is None else f"{c['current']}->{c['recommended']}"
+        )  # no needle on record
+        moves = row.format(
+            main=f"{_plain(display, m['current'])}->{_plain(display, m['recommended'])}",
+            pilot=f"{_plain(display, pj['current'])}->{_plain(display, pj['recommended'])}",
+            clip=clip,
+            factor=_plain(display, e["summary"]["area_factor_mean"]),
+        )
+        say(
+            f"  {one_line(e['bike']):<10} {one_line(e['session']):<14} {moves}"
+            + (f"  [{', '.join(sorted({w['code'] for w in e['warnings']}))}]" if e["warnings"] else "")
+        )
     if len(entries) > 40:
         say(_("  ... and {count} more rows in recommendations.csv").format(count=len(entries) - 40))
     for path in paths:
@@ -367,22 +432,33 @@ def cmd_plan(args) -> int:
 # --- build -----------------------------------------------------------------------------
 def add_build_parser(sub) -> None:
     p = sub.add_parser(
-        "build", help="build setup sheets and the fleet report",
+        "build",
+        help="build setup sheets and the fleet report",
         description="Plan every bike for every session and build the output folder: index.html, "
         "sheets/<bike>.html and .pdf (one printed page per bike), fleet-summary.html and .pdf, "
         "print-pack.pdf, recommendations.json/.csv, pick-list.csv, the executed notebooks and "
         "carbfleet-manifest.json (the list of what was written). The folder is built beside DIR and "
         "moved into place at the end: a failed or interrupted build leaves the previous output as it "
         "was (exit 1). DIR must be new, empty or an earlier build's output holding nothing else; the "
-        "current folder, the home folder and the folders of the input files are refused (exit 2).")
+        "current folder, the home folder and the folders of the input files are refused (exit 2).",
+    )
     p.add_argument("fleet", metavar="FLEET", help="fleet file (YAML)")
     p.add_argument("event", metavar="EVENT", help="event file (YAML)")
-    p.add_argument("--out", metavar="DIR", required=True,
-                   help="output folder: new, empty, or an earlier build's (replaced when the build succeeds)")
+    p.add_argument(
+        "--out",
+        metavar="DIR",
+        required=True,
+        help="output folder: new, empty, or an earlier build's (replaced when the build succeeds)",
+    )
     p.add_argument("--paper", choices=("a4", "letter"), default="a4", help="paper size of the PDFs (default a4)")
     p.add_argument("--quiet", action="store_true", help="no progress bar and no summary line")
-    p.add_argument("--workers", type=int, default=2, metavar="N",
-                   help="notebook kernels rendering sheets in parallel, 1 to 8 (default 2)")
+    p.add_argument(
+        "--workers",
+        type=int,
+        default=2,
+        metavar="N",
+        help="notebook kernels rendering sheets in parallel, 1 to 8 (default 2)",
+    )
     add_policy_option(p)
     add_display_options(p)
     add_history_options(p)
@@ -401,16 +477,26 @@ def cmd_build(args) -> int:
         with warnings.catch_warnings(record=True) as caught:
             warnings.simplefilter("always")
             # units/language None: the event file's setting, else metric/en (tuning.config.display_for)
-            result = build(args.fleet, args.event, args.out, paper=args.paper, quiet=args.quiet,
-                           workers=args.workers, policy=args.policy, units=args.units, language=args.language,
-                           adjust=history.adjust,
-                           calibrate=lambda fleet: history.calibration(fleet, use=not args.no_calibration))
+            result = build(
+                args.fleet,
+                args.event,
+                args.out,
+                paper=args.paper,
+                quiet=args.quiet,
+                workers=args.workers,
+                policy=args.policy,
+                units=args.units,
+                language=args.language,
+                adjust=history.adjust,
+                calibrate=lambda fleet: history.calibration(fleet, use=not args.no_calibration),
+            )
         history.record()  # the output is in place: the plan it shows is the one recorded
         history_lines = history.lines(Display(result.units, result.language)) if history.plan is not None else []
     finally:
         history.close()
-    for note in dict.fromkeys(str(w.message) for w in caught
-                              if not issubclass(w.category, (DeprecationWarning, ResourceWarning))):
+    for note in dict.fromkeys(
+        str(w.message) for w in caught if not issubclass(w.category, (DeprecationWarning, ResourceWarning))
+    ):
         print(one_line(f"carbfleet build: note: {note}"), file=sys.stderr)  # one line each, no source echo
     if not args.quiet:
         print(one_line(result.summary_line()))
@@ -422,10 +508,12 @@ def cmd_build(args) -> int:
 # --- example ---------------------------------------------------------------------------
 def add_example_parser(sub) -> None:
     p = sub.add_parser(
-        "example", help="copy the demo scenario's files into a folder, to try carbfleet or start from",
+        "example",
+        help="copy the demo scenario's files into a folder, to try carbfleet or start from",
         description="Write the invented demo scenario (a fleet file, an event file with its weather "
         "table, an event with METAR reports) and the JSON Schemas of the two file kinds into DIR. "
-        "Existing files are never overwritten: the command stops, writing nothing, if any is there.")
+        "Existing files are never overwritten: the command stops, writing nothing, if any is there.",
+    )
     p.add_argument("dir", metavar="DIR", help="folder to write the files into (created when missing)")
     p.set_defaults(func=cmd_example)
 
@@ -444,8 +532,9 @@ def cmd_example(args) -> int:
         files[name] = json.dumps(schema, indent=2, ensure_ascii=False) + "\n"
     there = [name for name in files if (folder / name).exists() or (folder / name).is_symlink()]
     if there:
-        raise UserError(f"{folder / there[0]} exists; carbfleet example never overwrites a file: "
-                        "name a new or empty folder")
+        raise UserError(
+            f"{folder / there[0]} exists; carbfleet example never overwrites a file: name a new or empty folder"
+        )
     try:
         folder.mkdir(parents=True, exist_ok=True)
         for name, text in files.items():
@@ -467,15 +556,25 @@ HISTORY_FILE = "history.sqlite"  #: the default history's name, beside the fleet
 
 def add_history_options(p, can_skip: bool = True) -> None:
     """``--history`` (and ``--no-history`` for the verbs that would only record a plan)."""
-    p.add_argument("--history", metavar="PATH_OR_URL", default=None,
-                   help=f"the history: a SQLite file (its folder must exist) or a postgresql:// URL shared by "
-                   f"several branches; default: ${HISTORY_ENV} if set, else {HISTORY_FILE} beside the fleet file")
+    p.add_argument(
+        "--history",
+        metavar="PATH_OR_URL",
+        default=None,
+        help=f"the history: a SQLite file (its folder must exist) or a postgresql:// URL shared by "
+        f"several branches; default: ${HISTORY_ENV} if set, else {HISTORY_FILE} beside the fleet file",
+    )
     if can_skip:
-        p.add_argument("--no-history", action="store_true",
-                       help="neither read nor write the history: plan on the proven settings, record nothing")
-        p.add_argument("--no-calibration", action="store_true",
-                       help="plan on the metering law alone, not on what the history's recorded readings say "
-                       "(the sheets say so); the plan is still recorded")
+        p.add_argument(
+            "--no-history",
+            action="store_true",
+            help="neither read nor write the history: plan on the proven settings, record nothing",
+        )
+        p.add_argument(
+            "--no-calibration",
+            action="store_true",
+            help="plan on the metering law alone, not on what the history's recorded readings say "
+            "(the sheets say so); the plan is still recorded",
+        )
 
 
 def _history_place(args, fleet_path) -> str | None:
@@ -543,11 +642,15 @@ class _PlanHistory:
         lines = []
         if self.fitted:
             bikes = ", ".join(f"{b} ({f.event})" for b, f in self.fitted.items())
-            lines.append(display.n_("{count} bike starts from the settings it still wears, not its proven ones "
-                                    "(the event it wore them at in brackets): {bikes}",
-                                    "{count} bikes start from the settings they still wear, not their proven ones "
-                                    "(the event they wore them at in brackets): {bikes}",
-                                    len(self.fitted)).format(count=len(self.fitted), bikes=bikes))
+            lines.append(
+                display.n_(
+                    "{count} bike starts from the settings it still wears, not its proven ones "
+                    "(the event it wore them at in brackets): {bikes}",
+                    "{count} bikes start from the settings they still wear, not their proven ones "
+                    "(the event they wore them at in brackets): {bikes}",
+                    len(self.fitted),
+                ).format(count=len(self.fitted), bikes=bikes)
+            )
         if self.before is not None:
             lines.append(_changes_line(self.before[0], self.before[1], self.plan, display))
         return lines
@@ -581,23 +684,27 @@ def _changes_line(made_at: str, before: dict, after: dict, display) -> str:
             if pair not in pairs.setdefault(key, []):
                 pairs[key].append(pair)
         parts.append(" ".join([bike] + [f"{display._(_SHORT[k])} {'/'.join(v)}" for k, v in pairs.items()]))
-    return display.n_("{count} bike changed since the plan of {when}: {changes}",
-                      "{count} bikes changed since the plan of {when}: {changes}", len(changed)).format(
-        count=len(changed), when=when, changes=", ".join(parts))
+    return display.n_(
+        "{count} bike changed since the plan of {when}: {changes}",
+        "{count} bikes changed since the plan of {when}: {changes}",
+        len(changed),
+    ).format(count=len(changed), when=when, changes=", ".join(parts))
 
 
 def add_record_parser(sub) -> None:
     from tuning.history.outcomes import AFR_RANGE, COLUMNS
 
     p = sub.add_parser(
-        "record", help="record what was fitted and seen at an event (an outcomes CSV) in the history",
+        "record",
+        help="record what was fitted and seen at an event (an outcomes CSV) in the history",
         description="Record an outcomes file in the history: one row per bike and session (or 'after' for "
         "after the event) with the columns bike and session and any of " + ", ".join(COLUMNS[2:]) + ". "
         f"throttle is a fraction 0..1 or a percent 0..100; wideband_afr an air-fuel ratio {AFR_RANGE[0]:g}..{AFR_RANGE[1]:g}; "
         "plug lean, ok or rich; main_jet, pilot_jet, clip and mixture_screw_turns what was fitted where it "
         "differs from the plan; returned_to_proven yes or no. Every row is checked first: any bad row is "
         "reported as file:line: column: problem (exit 2) and nothing of the file is recorded. Recording the "
-        "same file again changes nothing.")
+        "same file again changes nothing.",
+    )
     p.add_argument("fleet", metavar="FLEET", help="fleet file (YAML)")
     p.add_argument("event", metavar="EVENT", help="event file (YAML) the outcomes are from")
     p.add_argument("outcomes", metavar="OUTCOMES", help="outcomes file (CSV, UTF-8, a header line)")
@@ -620,8 +727,9 @@ def cmd_record(args) -> int:
     if done.again:
         text = d._("{file} was recorded before: nothing changed in {history}")
     else:
-        text = d.n_("recorded {rows} row of {file} in {history}", "recorded {rows} rows of {file} in {history}",
-                    done.rows)
+        text = d.n_(
+            "recorded {rows} row of {file} in {history}", "recorded {rows} rows of {file} in {history}", done.rows
+        )
     print(one_line(text.format(rows=done.rows, file=args.outcomes, history=_shown_place(place))))
     return EXIT_OK
 
@@ -634,13 +742,19 @@ def _shown_place(place: str) -> str:
 
 def add_history_parser(sub) -> None:
     p = sub.add_parser(
-        "history", help="show what each bike ran, where, in what air, and what was seen",
+        "history",
+        help="show what each bike ran, where, in what air, and what was seen",
         description="Show the history: per bike, every event with a plan or outcomes: site and days, "
         "density altitude and temperature of the plan, the settings planned and fitted, plug readings, "
-        "wideband readings (count, leanest and richest) and remarks. Reads only; creates nothing.")
+        "wideband readings (count, leanest and richest) and remarks. Reads only; creates nothing.",
+    )
     p.add_argument("bike", metavar="BIKE", nargs="?", help="only this bike")
-    p.add_argument("--fleet", metavar="FLEET", default=None,
-                   help=f"only this fleet's bikes; its folder holds the default history ({HISTORY_FILE})")
+    p.add_argument(
+        "--fleet",
+        metavar="FLEET",
+        default=None,
+        help=f"only this fleet's bikes; its folder holds the default history ({HISTORY_FILE})",
+    )
     add_history_options(p, can_skip=False)
     add_display_options(p, event_file=False)
     p.set_defaults(func=cmd_history)

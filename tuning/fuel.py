@@ -67,12 +67,15 @@ def stoichiometric_afr(carbon, hydrogen, oxygen=0.0):
 def _fraction(value, name):
     value = np.asarray(value, float)
     if np.any((value < 0.0) | (value > 1.0)):
-        raise ValueError(f"{name} must be a fraction 0..1 (10 % as 0.10), got {np.ravel(value[(value < 0) | (value > 1)])[0]:g}")
+        raise ValueError(
+            f"{name} must be a fraction 0..1 (10 % as 0.10), got {np.ravel(value[(value < 0) | (value > 1)])[0]:g}"
+        )
     return value
 
 
-def blend(ethanol_volume_fraction=0.0, methanol_volume_fraction=0.0, base_afr=c.GASOLINE_AFR,
-          base_density=c.GASOLINE_DENSITY):
+def blend(
+    ethanol_volume_fraction=0.0, methanol_volume_fraction=0.0, base_afr=c.GASOLINE_AFR, base_density=c.GASOLINE_DENSITY
+):
     r"""Stoichiometric air–fuel ratio and density of gasoline blended with alcohols by volume.
 
     Parameters
@@ -122,8 +125,15 @@ def blend(ethanol_volume_fraction=0.0, methanol_volume_fraction=0.0, base_afr=c.
     return _result(afr), _result(np.asarray(total_mass))
 
 
-def premix(stoichiometric_afr, fuel_density, premix_ratio, *, oil_density=c.PREMIX_OIL_DENSITY,
-           oil_counts_as_fuel=False, oil_stoichiometric_afr=None):
+def premix(
+    stoichiometric_afr,
+    fuel_density,
+    premix_ratio,
+    *,
+    oil_density=c.PREMIX_OIL_DENSITY,
+    oil_counts_as_fuel=False,
+    oil_stoichiometric_afr=None,
+):
     r"""Stoichiometric ratio and density of the liquid a two-stroke carburetor meters.
 
     Parameters

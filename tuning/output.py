@@ -26,8 +26,15 @@ from tuning import __version__
 from tuning.errors import BuildError, UserError
 
 __all__ = [
-    "MANIFEST", "MANIFEST_FORMAT", "umask", "apply_umask", "safe_out_dir", "check_replaceable",
-    "write_manifest", "write_file_set", "os_problem",
+    "MANIFEST",
+    "MANIFEST_FORMAT",
+    "umask",
+    "apply_umask",
+    "safe_out_dir",
+    "check_replaceable",
+    "write_manifest",
+    "write_file_set",
+    "os_problem",
 ]
 
 #: The marker file of an output folder written by ``carbfleet build`` (a list of what it wrote).
@@ -90,15 +97,19 @@ def safe_out_dir(text: str, inputs: Sequence[str | Path] = (), option: str = "--
     for folder, what in ((Path.cwd().resolve(), "the current folder"), (Path.home().resolve(), "your home folder")):
         if _inside_or_same(out, folder):
             holds = "is" if out == folder else "holds"
-            raise UserError(f"{option}: {shown} {holds} {what}; the build replaces its whole output folder, "
-                            f"so name a new folder, e.g. {option} out")
+            raise UserError(
+                f"{option}: {shown} {holds} {what}; the build replaces its whole output folder, "
+                f"so name a new folder, e.g. {option} out"
+            )
     for given in inputs:
         if not given:
             continue
         source = Path(given).resolve()
         if _inside_or_same(out, source.parent):
-            raise UserError(f"{option}: {shown} holds the input file {given}; the build replaces its whole "
-                            f"output folder, so name a new folder, e.g. {option} {source.parent.name or 'out'}-out")
+            raise UserError(
+                f"{option}: {shown} holds the input file {given}; the build replaces its whole "
+                f"output folder, so name a new folder, e.g. {option} {source.parent.name or 'out'}-out"
+            )
     return out
 
 
@@ -127,14 +138,18 @@ def check_replaceable(out: Path, option: str = "--out") -> None:
     listed = _manifest_files(out / MANIFEST)
     if listed is None:
         example = sorted(present)[0]
-        raise UserError(f"{option}: {out} already holds files that carbfleet did not write (e.g. {example}) "
-                        f"and no {MANIFEST}; name a new or empty folder, or move those files away")
+        raise UserError(
+            f"{option}: {out} already holds files that carbfleet did not write (e.g. {example}) "
+            f"and no {MANIFEST}; name a new or empty folder, or move those files away"
+        )
     allowed = set(listed) | {MANIFEST}
     allowed |= {parent.as_posix() + "/" for name in listed for parent in Path(name).parents if str(parent) != "."}
     foreign = sorted(present - allowed)
     if foreign:
-        raise UserError(f"{option}: {out} holds {foreign[0]}, which carbfleet did not write; "
-                        "move it out of the output folder (the build replaces the whole folder) or name another folder")
+        raise UserError(
+            f"{option}: {out} holds {foreign[0]}, which carbfleet did not write; "
+            "move it out of the output folder (the build replaces the whole folder) or name another folder"
+        )
 
 
 def _manifest_files(path: Path) -> list[str] | None:
@@ -180,12 +195,16 @@ def check_file_set(folder: Path, signatures: dict[str, str], option: str = "--ou
     for name, signature in signatures.items():
         target = folder / name
         if (target.exists() or target.is_symlink()) and (
-                target.is_symlink() or not target.is_file() or not _looks_like(target, signature)):
-            raise UserError(f"{option}: {target} exists and was not written by carbfleet; "
-                            "move it away or name another folder")
+            target.is_symlink() or not target.is_file() or not _looks_like(target, signature)
+        ):
+            raise UserError(
+                f"{option}: {target} exists and was not written by carbfleet; move it away or name another folder"
+            )
 
 
-def write_file_set(folder: Path, texts: dict[str, str], signatures: dict[str, str], option: str = "--out") -> list[Path]:
+def write_file_set(
+    folder: Path, texts: dict[str, str], signatures: dict[str, str], option: str = "--out"
+) -> list[Path]:
     """Write several text files into ``folder`` as one set: all new, or (on any failure) all old.
 
     Each text goes to a temporary file in the same folder first; only when every one is written
@@ -216,4 +235,3 @@ def write_file_set(folder: Path, texts: dict[str, str], signatures: dict[str, st
             with contextlib.suppress(OSError):
                 tmp.unlink()
     return [folder / name for name in texts]
-

@@ -12,8 +12,15 @@ from pathlib import Path
 __all__ = ["notebook", "demo_file", "DEMO_FILES", "FLEET_REPORT", "SETUP_SHEETS", "NOTEBOOK_NAMES"]
 
 #: The demo scenario's files (an invented fleet, site and weather), in ``tuning/demo/``.
-DEMO_FILES = ("demo-fleet.yaml", "demo-event.yaml", "demo-event-metar.yaml", "demo-weather.csv",
-              "demo-trail-event.yaml", "demo-trail-weather.csv", "demo-trail-route.gpx")
+DEMO_FILES = (
+    "demo-fleet.yaml",
+    "demo-event.yaml",
+    "demo-event-metar.yaml",
+    "demo-weather.csv",
+    "demo-trail-event.yaml",
+    "demo-trail-weather.csv",
+    "demo-trail-route.gpx",
+)
 #: The parameterised notebooks the build runs, in ``tuning/notebooks/``: the fleet report and the
 #: setup sheets (run once per shard of bikes).
 FLEET_REPORT = "fleet-report.ipynb"

@@ -91,7 +91,9 @@ def summarize(fleet: model.Fleet, event: model.Event | None = None) -> str:
         extras.append(f"{m.settings.mixture_screw.kind} screw")
         if m.premix_ratio:
             extras.append(f"premix {m.premix_ratio:g}:1")
-        lines.append(f"  {name}: {per_model.get(name, 0)} bikes, {m.strokes}-stroke {m.displacement * 1e6:.0f} cc, {', '.join(extras)}")
+        lines.append(
+            f"  {name}: {per_model.get(name, 0)} bikes, {m.strokes}-stroke {m.displacement * 1e6:.0f} cc, {', '.join(extras)}"
+        )
     own = [b.id for b in fleet.bikes if b.own_reference]
     deviating = [b.id for b in fleet.bikes if b.settings != fleet.models[b.model].settings]
     if deviating:
@@ -108,8 +110,10 @@ def summarize(fleet: model.Fleet, event: model.Event | None = None) -> str:
         on_shelf = {size: count for (f, size), count in fleet.stock.items() if f == name}
         sizes = f"{len(family.sizes)} sizes {family.sizes[0]:g}..{family.sizes[-1]:g}"
         stock = ", ".join(f"{s:g}×{c}" for s, c in sorted(on_shelf.items())) or "none listed"
-        lines.append(f"  jets {name} ({family.coding}-coded, {sizes}): "
-                     + (f"in stock {stock}" if fleet.stock else "no stock list kept"))
+        lines.append(
+            f"  jets {name} ({family.coding}-coded, {sizes}): "
+            + (f"in stock {stock}" if fleet.stock else "no stock list kept")
+        )
     if event is None:
         return "\n".join(one_line(line) for line in lines)
 

@@ -34,8 +34,12 @@ def _rows(schema: dict, path: str, required: bool, out: list[str]) -> None:
 
 
 def _is_structure(schema: dict) -> bool:
-    return "properties" in schema or isinstance(schema.get("additionalProperties"), dict) or \
-        schema.get("type") == "array" or any(_is_structure(f) for f in schema.get("anyOf", []))
+    return (
+        "properties" in schema
+        or isinstance(schema.get("additionalProperties"), dict)
+        or schema.get("type") == "array"
+        or any(_is_structure(f) for f in schema.get("anyOf", []))
+    )
 
 
 def field_reference() -> str:
@@ -51,7 +55,12 @@ def field_reference() -> str:
         out += [f"## {title}", "", "| field | required | meaning |", "|---|---|---|"]
         _rows(schema, "", True, out)
         out.append("")
-    out += ["## Weather table (CSV)", "", weather.__doc__.split("CSV table\n---------\n", 1)[1].split("METAR\n-----")[0].strip(), ""]
+    out += [
+        "## Weather table (CSV)",
+        "",
+        weather.__doc__.split("CSV table\n---------\n", 1)[1].split("METAR\n-----")[0].strip(),
+        "",
+    ]
     out += ["## METAR list", "", weather.__doc__.split("METAR\n-----\n", 1)[1].strip(), ""]
     out += ["## Limits", "", " ".join(limits.__doc__.split("\n\n", 1)[1].split()), "", limits.limits_text(), ""]
     return "\n".join(out)

@@ -74,17 +74,26 @@ class Site(FileModel):
 class Metar(FileModel):
     """METAR reports instead of a table."""
 
-    metar: Annotated[list[Text("One METAR report (WMO FM 15).")], Field(min_length=1, description="METAR reports of the nearest station.")]
+    metar: Annotated[
+        list[Text("One METAR report (WMO FM 15).")],
+        Field(min_length=1, description="METAR reports of the nearest station."),
+    ]
 
 
 def _weather_form(value) -> str | None:
     return "metar" if isinstance(value, (dict, Metar)) else None if isinstance(value, list) else "path"
 
 
-UNITS = Choice(UNIT_SYSTEMS, "Units of what people read (sheets, summary, index, terminal): metric (degC, m, hPa; "
-               "the default) or us (degF, ft, inHg). The JSON and CSV files stay SI. The command line's --units wins.")
-LANGUAGE = Choice(LANGUAGES, "Language of what people read: en (English, the default) or de (German, with a "
-                  "decimal comma). The command line's --language wins.")
+UNITS = Choice(
+    UNIT_SYSTEMS,
+    "Units of what people read (sheets, summary, index, terminal): metric (degC, m, hPa; "
+    "the default) or us (degF, ft, inHg). The JSON and CSV files stay SI. The command line's --units wins.",
+)
+LANGUAGE = Choice(
+    LANGUAGES,
+    "Language of what people read: en (English, the default) or de (German, with a "
+    "decimal comma). The command line's --language wins.",
+)
 
 
 class EventFile(FileModel):
@@ -96,9 +105,12 @@ class EventFile(FileModel):
     fuel: Text("Fuel used at the event (a name under the fleet's `fuels`); the reference fuel when left out.") = None
     change_policy: CHANGE_POLICY = None
     change_threshold: CHANGE_THRESHOLD = None
-    weather: Either({"path": Text("Path of the weather CSV table, relative to this file."), "metar": Metar},
-                    _weather_form, "expected a CSV path or a mapping {metar: [reports]}",
-                    "Weather: a CSV path, or {metar: [reports]}.")
+    weather: Either(
+        {"path": Text("Path of the weather CSV table, relative to this file."), "metar": Metar},
+        _weather_form,
+        "expected a CSV path or a mapping {metar: [reports]}",
+        "Weather: a CSV path, or {metar: [reports]}.",
+    )
     units: UNITS = None
     language: LANGUAGE = None
     elevation: ElevationSpan = None
@@ -192,7 +204,9 @@ def _sessions(raw: list[dict], zone, ctx: Context, path, event_heights) -> list[
     names: dict[str, int] = {}
     for i, s in enumerate(raw):
         if s["name"] in names:
-            ctx.at_path(f"sessions[{i}].name", f"session name '{s['name']}' is used twice (also sessions[{names[s['name']]}])")
+            ctx.at_path(
+                f"sessions[{i}].name", f"session name '{s['name']}' is used twice (also sessions[{names[s['name']]}])"
+            )
         names.setdefault(s["name"], i)
         times = {}
         for key in ("start", "end"):
@@ -212,7 +226,10 @@ def _sessions(raw: list[dict], zone, ctx: Context, path, event_heights) -> list[
     for (i0, a), (i1, b) in zip(ordered, ordered[1:]):
         if b.start < a.end:
             later = max(i0, i1)
-            ctx.at_path(f"sessions[{later}].start", f"sessions '{a.name}' and '{b.name}' overlap ({_fmt(b.start)} is before {_fmt(a.end)})")
+            ctx.at_path(
+                f"sessions[{later}].start",
+                f"sessions '{a.name}' and '{b.name}' overlap ({_fmt(b.start)} is before {_fmt(a.end)})",
+            )
     return sessions
 
 
@@ -228,8 +245,11 @@ def _weather(source, path: Path, zone, elevation: float, sessions, ctx: Context)
             return None, [p for p in exc.problems if p.line is not None]
     reports = source["metar"]
     if len(reports) > MAX_METAR_REPORTS:
-        ctx.at_path(f"weather.metar[{MAX_METAR_REPORTS}]", f"more than {MAX_METAR_REPORTS:,} METAR reports (the limit, "
-                    "see FORMATS.md); give the reports around the event's sessions only")
+        ctx.at_path(
+            f"weather.metar[{MAX_METAR_REPORTS}]",
+            f"more than {MAX_METAR_REPORTS:,} METAR reports (the limit, "
+            "see FORMATS.md); give the reports around the event's sessions only",
+        )
     elif sessions:
         return read_metar(reports, min(s.start for _, s in sessions), ctx, "weather.metar", elevation), []
     elif not ctx.problems:
@@ -247,13 +267,19 @@ def _check_size(bikes: int, sessions: list[model.Session], ctx: Context) -> None
     """The plan's size limits (tuning.config.limits), said at the ``sessions`` line."""
     entries = bikes * len(sessions)
     if entries > MAX_BIKE_SESSIONS:
-        ctx.at_path("sessions", f"{bikes:,} bikes × {len(sessions):,} sessions is {entries:,} bike-sessions, more than "
-                    f"the limit of {MAX_BIKE_SESSIONS:,} (see FORMATS.md); plan fewer bikes or sessions at a time")
+        ctx.at_path(
+            "sessions",
+            f"{bikes:,} bikes × {len(sessions):,} sessions is {entries:,} bike-sessions, more than "
+            f"the limit of {MAX_BIKE_SESSIONS:,} (see FORMATS.md); plan fewer bikes or sessions at a time",
+        )
         return
     hours = sum(_session_hours(s) * (len(s.heights.elevations) if s.heights else 1) for s in sessions)
     if bikes * hours > MAX_BIKE_HOURS:
-        ctx.at_path("sessions", f"{bikes:,} bikes × {hours:,} session hours is {bikes * hours:,} bike-hours, more than "
-                    f"the limit of {MAX_BIKE_HOURS:,} (see FORMATS.md); plan fewer bikes or shorter sessions at a time")
+        ctx.at_path(
+            "sessions",
+            f"{bikes:,} bikes × {hours:,} session hours is {bikes * hours:,} bike-hours, more than "
+            f"the limit of {MAX_BIKE_HOURS:,} (see FORMATS.md); plan fewer bikes or shorter sessions at a time",
+        )
 
 
 def _line_key(problem) -> int:

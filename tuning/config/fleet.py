@@ -68,7 +68,9 @@ def _pressure(what: str):
     return Quantity(FILE_RANGES["pressure"], f"{what}.")
 
 
-_CONDITIONS = "Give exactly one of station_pressure / qnh / sea_level_pressure and one of relative_humidity / dew_point."
+_CONDITIONS = (
+    "Give exactly one of station_pressure / qnh / sea_level_pressure and one of relative_humidity / dew_point."
+)
 
 
 class Conditions(FileModel):
@@ -119,8 +121,13 @@ def _read_premix(value) -> float:
 
 PREMIX = Custom(
     _read_premix,
-    {"anyOf": [{"type": "number", "minimum": 10, "maximum": 200}, {"type": "string", "pattern": r"^\s*\d+(\.\d+)?\s*(:\s*1\s*)?$"}]},
-    "Two-stroke premix, fuel:oil by volume: 40 or \"40:1\" (10..200); an unquoted 40:1 is read as written too. "
+    {
+        "anyOf": [
+            {"type": "number", "minimum": 10, "maximum": 200},
+            {"type": "string", "pattern": r"^\s*\d+(\.\d+)?\s*(:\s*1\s*)?$"},
+        ]
+    },
+    'Two-stroke premix, fuel:oil by volume: 40 or "40:1" (10..200); an unquoted 40:1 is read as written too. '
     "A bike's value wins over its model's, a model's over the fleet's; a two-stroke with none is taken as "
     "oil-injected. Not allowed on four-strokes.",
     colon_as_text=True,
@@ -128,12 +135,27 @@ PREMIX = Custom(
 DENSITY_EXPONENT = Number(
     f"Exponent on the air-density ratio (0 < n <= 1.5); {METERING_LAW_EXPONENT:g} is the metering law, workshop rules "
     f"correct harder. A bike's value wins over its model's, a model's over the fleet's; {METERING_LAW_EXPONENT:g} when "
-    "none is given.", 0.0, 1.5, exclusive_minimum=True)
-CHANGE_POLICY = Choice(model.CHANGE_POLICIES, "How often settings change over an event: event (one setting per "
-                       "bike unless a change pays for its work; the default) or session (the best per session).")
-CHANGE_THRESHOLD = Number("Mixture improvement a main-jet change between sessions must bring, as a fraction "
-                          "(default 0.03, about one main-jet step); other changes are scaled by their work.", 0.0, 0.5)
-JET_SIZE = Number("Jet number as stamped (diameter-coded: orifice in 0.01 mm; flow-coded: proportional to flow).", 0.0, exclusive_minimum=True)
+    "none is given.",
+    0.0,
+    1.5,
+    exclusive_minimum=True,
+)
+CHANGE_POLICY = Choice(
+    model.CHANGE_POLICIES,
+    "How often settings change over an event: event (one setting per "
+    "bike unless a change pays for its work; the default) or session (the best per session).",
+)
+CHANGE_THRESHOLD = Number(
+    "Mixture improvement a main-jet change between sessions must bring, as a fraction "
+    "(default 0.03, about one main-jet step); other changes are scaled by their work.",
+    0.0,
+    0.5,
+)
+JET_SIZE = Number(
+    "Jet number as stamped (diameter-coded: orifice in 0.01 mm; flow-coded: proportional to flow).",
+    0.0,
+    exclusive_minimum=True,
+)
 SCREW_TURNS = Number("Turns out from lightly seated.", 0.0, 10.0)
 _FAMILY = "Name of a family under `jet_families`."
 
@@ -161,7 +183,14 @@ class MixtureScrew(FileModel):
 
     kind: Choice(("air", "fuel"), "air: turning out leans the idle mixture; fuel: turning out richens it.")
     turns: SCREW_TURNS
-    usable_range: Annotated[list[SCREW_TURNS], Field(min_length=2, max_length=2, description="[min, max] turns out; outside it a pilot-jet change is due. Default [1, 3], marked 'assumed'.")] = None
+    usable_range: Annotated[
+        list[SCREW_TURNS],
+        Field(
+            min_length=2,
+            max_length=2,
+            description="[min, max] turns out; outside it a pilot-jet change is due. Default [1, 3], marked 'assumed'.",
+        ),
+    ] = None
 
 
 FLOAT_LEVEL = Quantity(Range("mm", 0, 60), "Float level as the service manual measures it.")
@@ -198,8 +227,12 @@ class Fuel(FileModel):
     null_is_empty = True
     ethanol: Quantity(Range("percent", 0, 100), "Ethanol content by volume.") = None
     methanol: Quantity(Range("percent", 0, 100), "Methanol content by volume.") = None
-    stoichiometric_afr: Number("Stoichiometric air-fuel mass ratio; computed from the blend when left out.", 5.0, 20.0) = None
-    density: Quantity(Range("kg/L", 0.6, 1.0), "Density at about 15 degC; computed from the blend when left out.") = None
+    stoichiometric_afr: Number(
+        "Stoichiometric air-fuel mass ratio; computed from the blend when left out.", 5.0, 20.0
+    ) = None
+    density: Quantity(Range("kg/L", 0.6, 1.0), "Density at about 15 degC; computed from the blend when left out.") = (
+        None
+    )
 
 
 class SizeRange(FileModel):
@@ -217,11 +250,20 @@ def _sizes_form(value) -> str | None:
 class JetFamily(FileModel):
     """A family of interchangeable jets."""
 
-    coding: Choice(("diameter", "flow"), "diameter: number = orifice diameter in 0.01 mm; flow: number proportional to flow.")
+    coding: Choice(
+        ("diameter", "flow"), "diameter: number = orifice diameter in 0.01 mm; flow: number proportional to flow."
+    )
     sizes: Either(
-        {"list": Annotated[list[JET_SIZE], Field(min_length=1, description="Every size available, e.g. [140, 142, 145].")],
-         "range": SizeRange},
-        _sizes_form, "expected a list of sizes or a mapping {from, to, step}", "Available sizes: a list, or {from, to, step}.")
+        {
+            "list": Annotated[
+                list[JET_SIZE], Field(min_length=1, description="Every size available, e.g. [140, 142, 145].")
+            ],
+            "range": SizeRange,
+        },
+        _sizes_form,
+        "expected a list of sizes or a mapping {from, to, step}",
+        "Available sizes: a list, or {from, to, step}.",
+    )
 
 
 class Needle(FileModel):
@@ -229,7 +271,9 @@ class Needle(FileModel):
 
     null_is_empty = True
     straight_diameter: Quantity(Range("mm", 0.5, 10.0), "Diameter of the straight (upper) part.") = None
-    taper_start: Quantity(Range("mm", 0, 100), "Slide lift at which the taper reaches the needle jet, clip in groove 1.") = None
+    taper_start: Quantity(
+        Range("mm", 0, 100), "Slide lift at which the taper reaches the needle jet, clip in groove 1."
+    ) = None
     taper_angle: Quantity(Range("deg", 0, 10), "Included angle of the taper.") = None
     grooves: Integer("Number of clip grooves.", 1, 9) = None
     groove_pitch: Quantity(Range("mm", 0.1, 5.0), "Distance between clip grooves.") = None
@@ -285,7 +329,9 @@ class FleetFile(FileModel):
     fleet: Text("Name of the fleet.")
     reference: Conditions
     density_exponent: DENSITY_EXPONENT = None
-    reference_afr: Number(f"Air-fuel mass ratio the proven settings are assumed to give (default {DEFAULT_REFERENCE_AFR:.1f}).", 8.0, 20.0) = None
+    reference_afr: Number(
+        f"Air-fuel mass ratio the proven settings are assumed to give (default {DEFAULT_REFERENCE_AFR:.1f}).", 8.0, 20.0
+    ) = None
     change_policy: CHANGE_POLICY = None
     change_threshold: CHANGE_THRESHOLD = None
     premix: PREMIX = None
@@ -299,8 +345,19 @@ class FleetFile(FileModel):
 
 #: Top-level keys that only an event file has (tuning.config.event.EventFile), and only a fleet file.
 EVENT_KEYS = ("event", "site", "sessions", "weather", "fuel")
-FLEET_KEYS = ("fleet", "reference", "density_exponent", "reference_afr", "premix", "fuels", "jet_families", "needles",
-              "models", "bikes", "stock")  # change_policy and change_threshold belong to both kinds
+FLEET_KEYS = (
+    "fleet",
+    "reference",
+    "density_exponent",
+    "reference_afr",
+    "premix",
+    "fuels",
+    "jet_families",
+    "needles",
+    "models",
+    "bikes",
+    "stock",
+)  # change_policy and change_threshold belong to both kinds
 
 
 def refuse_other_kind(root, file: str, kind: str) -> None:
@@ -432,7 +489,10 @@ def check_jet(raw, path, families, ctx) -> None:
     if family is None:
         if family_name in ctx.names.get("jet_families", ()):  # given, but with a problem said there
             return
-        ctx.at_path(f"{path}.family", f"unknown jet family '{family_name}'{did_you_mean(family_name, families)}; {known_list(families)}")
+        ctx.at_path(
+            f"{path}.family",
+            f"unknown jet family '{family_name}'{did_you_mean(family_name, families)}; {known_list(families)}",
+        )
         return
     if size is not None:
         problem = size_problem(size, family)
@@ -461,7 +521,9 @@ def check_settings(settings: dict, given: dict, path: str, families, needles, ct
         if name is None and clip is not None:
             ctx.at_path(f"{path}.needle", "a clip is given but no needle name (the model has none)")
         elif name is not None and name not in needles:
-            ctx.at_path(f"{path}.needle.name", f"unknown needle '{name}'{did_you_mean(name, needles)}; {known_list(needles)}")
+            ctx.at_path(
+                f"{path}.needle.name", f"unknown needle '{name}'{did_you_mean(name, needles)}; {known_list(needles)}"
+            )
         elif name is not None and clip is not None and clip > needles[name].grooves:
             ctx.at_path(
                 f"{path}.needle.clip",
@@ -590,7 +652,10 @@ def check_bikes(raw: dict, families, needles, fuels, ctx: Context) -> None:
             seen_ids[bike_id] = i
         model_name = b["model"]
         if model_name not in models_raw:
-            ctx.at_path(f"{path_b}.model", f"unknown model '{model_name}'{did_you_mean(model_name, models_raw)}; {known_list(models_raw)}")
+            ctx.at_path(
+                f"{path_b}.model",
+                f"unknown model '{model_name}'{did_you_mean(model_name, models_raw)}; {known_list(models_raw)}",
+            )
             continue
         override = b.get("settings", {})
         merged = merge_settings(models_raw[model_name]["settings"], override)

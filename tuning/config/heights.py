@@ -21,8 +21,16 @@ from tuning.config.quantities import FILE_RANGES, Range
 from tuning.config.route import RouteProblem, read_route
 from tuning.config.spec import FileModel, Quantity, Text
 
-__all__ = ["RANGE_LEVELS", "LAPSE_RATE_RANGE", "ElevationSpan", "ROUTE", "WEATHER_ELEVATION", "LAPSE_RATE",
-           "profile_of", "levels_of_range"]
+__all__ = [
+    "RANGE_LEVELS",
+    "LAPSE_RATE_RANGE",
+    "ElevationSpan",
+    "ROUTE",
+    "WEATHER_ELEVATION",
+    "LAPSE_RATE",
+    "profile_of",
+    "levels_of_range",
+]
 
 RANGE_LEVELS = 5  #: heights a range is sampled at, ends included (our choice)
 #: Accepted lapse rates: from a strong inversion to beyond the dry adiabat (9.8 K/km).
@@ -36,12 +44,18 @@ class ElevationSpan(FileModel):
     max: Quantity(FILE_RANGES["elevation"], "Highest point ridden (at least min).")
 
 
-ROUTE = Text("A GPX 1.1 file of the route or track ridden (path relative to this file); every point needs an "
-             "elevation. Time at each height from the points' times, else from distance.")
-WEATHER_ELEVATION = Quantity(FILE_RANGES["elevation"],
-                             "Elevation where the forecast holds (e.g. a valley station); the site's when left out.")
-LAPSE_RATE = Quantity(LAPSE_RATE_RANGE, "Decrease of air temperature with height, used to carry the forecast to the "
-                      "heights ridden; 6.5 K/km (the 1976 standard atmosphere) when left out; negative for an inversion.")
+ROUTE = Text(
+    "A GPX 1.1 file of the route or track ridden (path relative to this file); every point needs an "
+    "elevation. Time at each height from the points' times, else from distance."
+)
+WEATHER_ELEVATION = Quantity(
+    FILE_RANGES["elevation"], "Elevation where the forecast holds (e.g. a valley station); the site's when left out."
+)
+LAPSE_RATE = Quantity(
+    LAPSE_RATE_RANGE,
+    "Decrease of air temperature with height, used to carry the forecast to the "
+    "heights ridden; 6.5 K/km (the 1976 standard atmosphere) when left out; negative for an inversion.",
+)
 
 
 def levels_of_range(low: float, high: float) -> model.HeightProfile:

@@ -46,7 +46,10 @@ def limits_text() -> str:
         (MAX_BIKES, "bikes in a fleet file"),
         (MAX_SESSIONS, "sessions in an event file"),
         (MAX_BIKE_SESSIONS, "bikes × sessions (entries of one plan)"),
-        (MAX_BIKE_HOURS, "bikes × session hours (a session counts its start, its end and every whole hour between, times the heights it is ridden at)"),
+        (
+            MAX_BIKE_HOURS,
+            "bikes × session hours (a session counts its start, its end and every whole hour between, times the heights it is ridden at)",
+        ),
         (MAX_WEATHER_ROWS, "rows of a weather table"),
         (MAX_METAR_REPORTS, "METAR reports in an event file"),
     ]

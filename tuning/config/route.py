@@ -57,8 +57,9 @@ def read_route(path) -> HeightProfile:
     lines = _read(path)
     elevations, weights, profile = route_profile(lines)
     levels, shares = _levels(elevations, weights)
-    return HeightProfile(elevations=tuple(levels), shares=tuple(shares), source="route", route=path.name,
-                         profile=tuple(profile))
+    return HeightProfile(
+        elevations=tuple(levels), shares=tuple(shares), source="route", route=path.name, profile=tuple(profile)
+    )
 
 
 def _read(path: Path) -> list[list]:
@@ -78,8 +79,10 @@ def _read(path: Path) -> list[list]:
         raise RouteProblem(f"route file {path.name} has {count} track or route point(s); a route needs at least 2")
     missing = sum(p.elevation is None for pts in lines for p in pts)
     if missing:
-        raise RouteProblem(f"route file {path.name}: {missing} of {count} points have no elevation (<ele>); "
-                           "give every point its elevation")
+        raise RouteProblem(
+            f"route file {path.name}: {missing} of {count} points have no elevation (<ele>); "
+            "give every point its elevation"
+        )
     return lines
 
 
@@ -103,8 +106,10 @@ def route_profile(lines):
             seconds = np.array([(b.time - a.time).total_seconds() for a, b in zip(pts, pts[1:])], float)
             if np.any(seconds < 0):
                 k = int(np.argmax(seconds < 0))
-                raise RouteProblem(f"the route's times go backwards after point {k + 1} ({pts[k].time.isoformat()}); "
-                                   "fix the times or remove them (distances are used then)")
+                raise RouteProblem(
+                    f"the route's times go backwards after point {k + 1} ({pts[k].time.isoformat()}); "
+                    "fix the times or remove them (distances are used then)"
+                )
             gaps = seconds
         else:
             gaps = step
@@ -118,8 +123,11 @@ def route_profile(lines):
         travelled = float(along[-1])
     z_all, w_all = np.concatenate(elevations), np.concatenate(weights)
     if not w_all.sum() > 0:
-        raise RouteProblem("the route's points " + ("all have the same time" if timed else "all lie at one place")
-                           + "; the time at each height cannot be told")
+        raise RouteProblem(
+            "the route's points "
+            + ("all have the same time" if timed else "all lie at one place")
+            + "; the time at each height cannot be told"
+        )
     return z_all, w_all, _thin(profile)
 
 

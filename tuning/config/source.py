@@ -108,7 +108,11 @@ def _scan(name: str, text: str, limits: dict[str, tuple[int, str]]) -> None:
         if isinstance(event, (yaml.ScalarEvent, yaml.SequenceStartEvent, yaml.MappingStartEvent)):
             nodes += 1
             if nodes > MAX_NODES:
-                raise _refuse(name, f"more than {MAX_NODES:,} values (the limit of a fleet or event file); is it the right file?", line)
+                raise _refuse(
+                    name,
+                    f"more than {MAX_NODES:,} values (the limit of a fleet or event file); is it the right file?",
+                    line,
+                )
             if depth == 1 and root_is_mapping:
                 if key_next:
                     top_key = event.value if isinstance(event, yaml.ScalarEvent) else None
@@ -121,11 +125,24 @@ def _scan(name: str, text: str, limits: dict[str, tuple[int, str]]) -> None:
                 items += 1
                 most, what = counting
                 if items > most:
-                    raise ConfigError([Problem(name, line, str(top_key), f"more than {most:,} {what} (the limit, see FORMATS.md); split the file into parts of at most {most:,}")])
+                    raise ConfigError(
+                        [
+                            Problem(
+                                name,
+                                line,
+                                str(top_key),
+                                f"more than {most:,} {what} (the limit, see FORMATS.md); split the file into parts of at most {most:,}",
+                            )
+                        ]
+                    )
         if isinstance(event, (yaml.SequenceStartEvent, yaml.MappingStartEvent)):
             depth += 1
             if depth > MAX_NESTING:
-                raise _refuse(name, f"lists and mappings nested more than {MAX_NESTING} deep (a fleet or event file needs about 5); is it the right file?", line)
+                raise _refuse(
+                    name,
+                    f"lists and mappings nested more than {MAX_NESTING} deep (a fleet or event file needs about 5); is it the right file?",
+                    line,
+                )
             if depth == 1:
                 root_is_mapping = isinstance(event, yaml.MappingStartEvent)
                 key_next = True

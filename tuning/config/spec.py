@@ -268,13 +268,20 @@ def Integer(description: str = "", minimum: int | None = None, maximum: int | No
             raise fail(f"{read} is outside the accepted range {minimum}..{maximum}")
         return read
 
-    schema = {"type": "integer", **({"minimum": minimum} if minimum is not None else {}),
-              **({"maximum": maximum} if maximum is not None else {})}
+    schema = {
+        "type": "integer",
+        **({"minimum": minimum} if minimum is not None else {}),
+        **({"maximum": maximum} if maximum is not None else {}),
+    }
     return _field(int, check, schema, description)
 
 
-def Number(description: str = "", minimum: float | None = None, maximum: float | None = None,  # noqa: N802
-           exclusive_minimum: bool = False):
+def Number(
+    description: str = "",
+    minimum: float | None = None,
+    maximum: float | None = None,  # noqa: N802
+    exclusive_minimum: bool = False,
+):
     """A plain number without unit (a ratio, an exponent, a jet size)."""
 
     def check(value):
@@ -348,8 +355,15 @@ def Either(forms: dict[str, Any], kind_of: Callable[[Any], str | None], expected
     """One of several forms (``{tag: type}``), chosen by ``kind_of(value)`` (a tag, or None: none fits)."""
     members = tuple(Annotated[tp, Tag(tag)] for tag, tp in forms.items())
     schema_extra = {"description": description} if description else {}
-    return Annotated[Union[members], Discriminator(kind_of, custom_error_type=_FORM_ERROR,  # noqa: UP007
-                                                   custom_error_message=expected), _EitherSchema(schema_extra)]
+    return Annotated[
+        Union[members],  # noqa: UP007 (a union of a tuple of types built at run time)
+        Discriminator(
+            kind_of,
+            custom_error_type=_FORM_ERROR,  # noqa: UP007
+            custom_error_message=expected,
+        ),
+        _EitherSchema(schema_extra),
+    ]
 
 
 class _EitherSchema:
@@ -486,7 +500,11 @@ def _words(error: dict, root, ctx: Context) -> tuple[int | None, str, str]:
         parent = type_at(root, error["loc"][:-1])
         allowed = parent.keys() if _is_model(parent) else []
         key = loc[-1]
-        return ctx.lines.get(path), path, f"unknown key '{key}'{did_you_mean(key, allowed)} (allowed: {', '.join(allowed)})"
+        return (
+            ctx.lines.get(path),
+            path,
+            f"unknown key '{key}'{did_you_mean(key, allowed)} (allowed: {', '.join(allowed)})",
+        )
     if _is_model(here) and kind in ("model_type", "model_attributes_type", "dict_type"):
         return line, path, f"expected a mapping with keys {', '.join(here.keys())}, got {type_name(value)}"
     if kind == "dict_type":
@@ -494,10 +512,17 @@ def _words(error: dict, root, ctx: Context) -> tuple[int | None, str, str]:
     if kind == "list_type":
         return line, path, f"expected a list, got {type_name(value)}"
     if kind in ("too_short", "too_long") and get_origin(here) is dict:
-        return line, path, f"expected at least {error['ctx']['min_length']} entr{'y' if error['ctx']['min_length'] == 1 else 'ies'}"
+        return (
+            line,
+            path,
+            f"expected at least {error['ctx']['min_length']} entr{'y' if error['ctx']['min_length'] == 1 else 'ies'}",
+        )
     if kind in ("too_short", "too_long"):
-        meta = [m for given in get_args(type_at(root, error["loc"], annotated=True))[1:]
-                for m in (getattr(given, "metadata", None) or [given])]  # a Field(...)'s limits, or the limits
+        meta = [
+            m
+            for given in get_args(type_at(root, error["loc"], annotated=True))[1:]
+            for m in (getattr(given, "metadata", None) or [given])
+        ]  # a Field(...)'s limits, or the limits
         low = max((m.min_length for m in meta if getattr(m, "min_length", None) is not None), default=0)
         high = min((m.max_length for m in meta if getattr(m, "max_length", None) is not None), default=None)
         want = str(low) if low == high else f"at least {low}"
@@ -515,7 +540,11 @@ def structural_problems(model: type[FileModel], data, ctx: Context, keys: list) 
         parent = type_at(model, _loc(path)[:-1] if what == "twice" else _loc(path))
         names = get_origin(parent) is dict
         if what == "twice":
-            ctx.add(line, path, f"the name '{key}' is given twice; names must be unique" if names else "given twice; keep one")
+            ctx.add(
+                line,
+                path,
+                f"the name '{key}' is given twice; names must be unique" if names else "given twice; keep one",
+            )
         else:
             ctx.add(line, path, "expected a plain name as key" if names else "expected a plain key")
     try:
@@ -550,7 +579,11 @@ def _check_key_groups(tp, data, path: str, ctx: Context) -> None:
             given = [k for k in group if k in data]
             if len(given) != 1:
                 what = "none" if not given else ", ".join(given)
-                ctx.add(ctx.value_lines.get(path), path or "(top)", f"give exactly one of {', '.join(group)} (given: {what})")
+                ctx.add(
+                    ctx.value_lines.get(path),
+                    path or "(top)",
+                    f"give exactly one of {', '.join(group)} (given: {what})",
+                )
         fields = {f.alias or name: f.annotation for name, f in tp.model_fields.items()}
         for key, value in data.items():
             if key in fields:
@@ -582,8 +615,25 @@ class _Schema(GenerateJsonSchema):
         return self.generate_inner(schema["schema"])
 
 
-_KEY_ORDER = ("type", "enum", "pattern", "minimum", "exclusiveMinimum", "maximum", "items", "minItems", "maxItems",
-              "properties", "additionalProperties", "minProperties", "required", "allOf", "anyOf", "description", "x-unit")
+_KEY_ORDER = (
+    "type",
+    "enum",
+    "pattern",
+    "minimum",
+    "exclusiveMinimum",
+    "maximum",
+    "items",
+    "minItems",
+    "maxItems",
+    "properties",
+    "additionalProperties",
+    "minProperties",
+    "required",
+    "allOf",
+    "anyOf",
+    "description",
+    "x-unit",
+)
 
 
 def _inline(schema, defs: dict):
@@ -602,7 +652,9 @@ def _inline(schema, defs: dict):
             out[key] = {name: _inline(sub, defs) for name, sub in value.items()}
         else:
             out[key] = _inline(value, defs)
-    return dict(sorted(out.items(), key=lambda item: _KEY_ORDER.index(item[0]) if item[0] in _KEY_ORDER else len(_KEY_ORDER)))
+    return dict(
+        sorted(out.items(), key=lambda item: _KEY_ORDER.index(item[0]) if item[0] in _KEY_ORDER else len(_KEY_ORDER))
+    )
 
 
 def json_schema(model: type[BaseModel]) -> dict:

@@ -97,7 +97,9 @@ def parse_local_time(text: str, zone: zoneinfo.ZoneInfo | None) -> datetime:
     except ValueError:
         raise ValueError(f"expected an ISO 8601 date and time such as '2026-06-13 09:00', got {text!r}") from None
     if not YEAR_RANGE[0] <= value.year <= YEAR_RANGE[1]:
-        raise ValueError(f"year {value.year} in {text!r} is outside the accepted {YEAR_RANGE[0]}..{YEAR_RANGE[1]}; check the date")
+        raise ValueError(
+            f"year {value.year} in {text!r} is outside the accepted {YEAR_RANGE[0]}..{YEAR_RANGE[1]}; check the date"
+        )
     if value.tzinfo is not None:
         return value
     if zone is None:
@@ -139,7 +141,9 @@ def _second_of_repeated(when: datetime, previous: datetime | None) -> datetime:
     return when
 
 
-def read_weather_csv(path, zone: zoneinfo.ZoneInfo | None, elevation: float | None = None) -> tuple[model.Weather | None, list]:
+def read_weather_csv(
+    path, zone: zoneinfo.ZoneInfo | None, elevation: float | None = None
+) -> tuple[model.Weather | None, list]:
     """Read a weather table. Returns (weather or None, problems of the table).
 
     ``elevation`` is the site's [m]; with it, every row's station pressure is checked (QNH and
@@ -158,8 +162,12 @@ def read_weather_csv(path, zone: zoneinfo.ZoneInfo | None, elevation: float | No
         ctx.add(1, "", "the table is empty; expected a header row and one row per hour")
         return None, ctx.problems
     if len(rows) - 1 > MAX_WEATHER_ROWS:
-        ctx.add(rows[MAX_WEATHER_ROWS + 1][0], "", f"more than {MAX_WEATHER_ROWS:,} rows (the limit, see FORMATS.md); "
-                "give the hours around the event's sessions only")
+        ctx.add(
+            rows[MAX_WEATHER_ROWS + 1][0],
+            "",
+            f"more than {MAX_WEATHER_ROWS:,} rows (the limit, see FORMATS.md); "
+            "give the hours around the event's sessions only",
+        )
         return None, ctx.problems
     header_line, header = rows[0]
     columns = _header(header_line, header, ctx)
@@ -194,7 +202,9 @@ def _header(header_line: int, header: list[str], ctx: Context) -> dict[str, tupl
     for index, cell in enumerate(header):
         match = _HEADER.match(cell)
         if not match:
-            ctx.add(header_line, f"column {index + 1}", f"expected a header such as 'air_temperature [degC]', got {cell!r}")
+            ctx.add(
+                header_line, f"column {index + 1}", f"expected a header such as 'air_temperature [degC]', got {cell!r}"
+            )
             continue
         key, unit = match.group(1), match.group(2)
         if key in columns:
@@ -204,7 +214,11 @@ def _header(header_line: int, header: list[str], ctx: Context) -> dict[str, tupl
             columns[key] = (index, "")
             continue
         if key not in COLUMNS:
-            ctx.add(header_line, key, f"unknown column '{key}'{did_you_mean(key, [*COLUMNS, 'time'])} (known: time, {', '.join(COLUMNS)})")
+            ctx.add(
+                header_line,
+                key,
+                f"unknown column '{key}'{did_you_mean(key, [*COLUMNS, 'time'])} (known: time, {', '.join(COLUMNS)})",
+            )
             continue
         unit = pint_unit(unit or COLUMNS[key].unit)
         try:
@@ -219,9 +233,17 @@ def _header(header_line: int, header: list[str], ctx: Context) -> dict[str, tupl
         if needed not in columns and not any(p.field == needed for p in ctx.problems):
             ctx.add(header_line, needed, "missing column")
     if len(pressure) != 1:
-        ctx.add(header_line, "", f"give exactly one pressure column of {', '.join(PRESSURE_KEYS)} (given: {', '.join(pressure) or 'none'})")
+        ctx.add(
+            header_line,
+            "",
+            f"give exactly one pressure column of {', '.join(PRESSURE_KEYS)} (given: {', '.join(pressure) or 'none'})",
+        )
     if len(humidity) != 1:
-        ctx.add(header_line, "", f"give exactly one humidity column of {', '.join(HUMIDITY_KEYS)} (given: {', '.join(humidity) or 'none'})")
+        ctx.add(
+            header_line,
+            "",
+            f"give exactly one humidity column of {', '.join(HUMIDITY_KEYS)} (given: {', '.join(humidity) or 'none'})",
+        )
     return columns
 
 
@@ -242,7 +264,11 @@ def _cells(rows, width: int, columns, wanted: list[str], zone, ctx: Context):
             continue
         when = _second_of_repeated(when, times[-1] if times else None).astimezone(UTC)
         if times and when <= times[-1]:
-            ctx.add(line, "time", f"{row[columns['time'][0]]} is not after the previous row's time; sort the rows, one per time")
+            ctx.add(
+                line,
+                "time",
+                f"{row[columns['time'][0]]} is not after the previous row's time; sort the rows, one per time",
+            )
             continue
         parsed = {}
         for key in wanted:
@@ -273,15 +299,23 @@ def _check_values(values, wanted, columns, cells, lines, elevation, ctx: Context
         low, high = parse_quantity(accepted.low, accepted.unit), parse_quantity(accepted.high, accepted.unit)
         unit = columns[key][1]
         for i in np.flatnonzero(~((values[key] >= low) & (values[key] <= high))):
-            ctx.add(lines[i], key, f"{cells[key][i]} {unit} is outside the accepted range {accepted.low:g}..{accepted.high:g} {accepted.unit}")
+            ctx.add(
+                lines[i],
+                key,
+                f"{cells[key][i]} {unit} is outside the accepted range {accepted.low:g}..{accepted.high:g} {accepted.unit}",
+            )
             good[i] = False
     pressure, humidity = wanted[1], wanted[2]
     temperature = values["air_temperature"]
     if humidity == "dew_point":
         t_unit, d_unit = columns["air_temperature"][1], columns["dew_point"][1]
         for i in np.flatnonzero(good & (values[humidity] > temperature + DEW_POINT_ROUNDING_TOLERANCE)):
-            ctx.add(lines[i], "dew_point", f"dew point {cells['dew_point'][i]} {d_unit} is above the air temperature "
-                    f"{cells['air_temperature'][i]} {t_unit}; check both values and their units")
+            ctx.add(
+                lines[i],
+                "dew_point",
+                f"dew point {cells['dew_point'][i]} {d_unit} is above the air temperature "
+                f"{cells['air_temperature'][i]} {t_unit}; check both values and their units",
+            )
             good[i] = False
     if elevation is not None and good.any():
         kind = PRESSURE_KEYS[pressure]
@@ -294,9 +328,11 @@ def _check_values(values, wanted, columns, cells, lines, elevation, ctx: Context
 
 def _metar_range(pressure: float, temperature: float, dew_point: float) -> str | None:
     """The problem of a METAR report's values [hPa, degC, degC] outside the accepted ranges, if any."""
-    for value, what, key, digits in ((pressure, "altimeter setting", "pressure", ".1f"),
-                                     (temperature, "temperature", "air_temperature", "g"),
-                                     (dew_point, "dew point", "dew_point", "g")):
+    for value, what, key, digits in (
+        (pressure, "altimeter setting", "pressure", ".1f"),
+        (temperature, "temperature", "air_temperature", "g"),
+        (dew_point, "dew point", "dew_point", "g"),
+    ):
         accepted = FILE_RANGES[key]  # in hPa and degC, the units the report is read in
         if not accepted.low <= value <= accepted.high:
             return f"{what} {value:{digits}} {accepted.unit} is outside the accepted range {accepted.text()}"
@@ -319,7 +355,9 @@ def _utc_array(times: list[datetime]) -> np.ndarray:
     return np.array([t.astimezone(UTC).replace(tzinfo=None) for t in times], dtype="datetime64[s]")
 
 
-def read_metar(reports: list[str], near: datetime, ctx: Context, path: str, elevation: float | None = None) -> model.Weather | None:
+def read_metar(
+    reports: list[str], near: datetime, ctx: Context, path: str, elevation: float | None = None
+) -> model.Weather | None:
     """Read METAR reports; month and year from ``near`` (the first session start).
 
     Problems go to ``ctx`` at ``path[i]``; returns None when any report has a problem.
@@ -359,11 +397,17 @@ def read_metar(reports: list[str], near: datetime, ctx: Context, path: str, elev
         _, when, parsed = min(candidates, key=lambda c: c[0])
         missing = [
             what
-            for what, value in (("temperature/dew point group (e.g. 08/03)", parsed.temp), ("altimeter setting (Q1018 or A3012)", parsed.press))
+            for what, value in (
+                ("temperature/dew point group (e.g. 08/03)", parsed.temp),
+                ("altimeter setting (Q1018 or A3012)", parsed.press),
+            )
             if value is None
         ]
         if missing or parsed.dewpt is None:
-            ctx.at_path(sub, f"report has no {' and no '.join(missing) or 'dew point'}; carbfleet needs temperature, dew point and pressure")
+            ctx.at_path(
+                sub,
+                f"report has no {' and no '.join(missing) or 'dew point'}; carbfleet needs temperature, dew point and pressure",
+            )
             continue
         temperature = parsed.temp.value("C")
         dew_point = parsed.dewpt.value("C")
@@ -373,8 +417,11 @@ def read_metar(reports: list[str], near: datetime, ctx: Context, path: str, elev
             ctx.at_path(sub, problem)
             continue
         if dew_point > temperature + DEW_POINT_ROUNDING_TOLERANCE:
-            ctx.at_path(sub, f"dew point {dew_point:g} degC is above the air temperature {temperature:g} degC "
-                        "(the TT/TdTd group); check the report")
+            ctx.at_path(
+                sub,
+                f"dew point {dew_point:g} degC is above the air temperature {temperature:g} degC "
+                "(the TT/TdTd group); check the report",
+            )
             continue
         if elevation is not None:
             station = float(station_pressures(pressure * 100.0, "qnh", elevation, None))

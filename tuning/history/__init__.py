@@ -14,5 +14,17 @@ from tuning.history.outcomes import COLUMNS, FORM_FIELD_OF, read_outcomes
 from tuning.history.state import Fitted, fitted_settings, fitted_state, plan_changes
 from tuning.history.store import History, event_key, is_url, open_history
 
-__all__ = ["COLUMNS", "FORM_FIELD_OF", "Fitted", "History", "calibration_of", "event_key", "fitted_settings", "fitted_state",
-           "is_url", "open_history", "plan_changes", "read_outcomes"]
+__all__ = [
+    "COLUMNS",
+    "FORM_FIELD_OF",
+    "Fitted",
+    "History",
+    "calibration_of",
+    "event_key",
+    "fitted_settings",
+    "fitted_state",
+    "is_url",
+    "open_history",
+    "plan_changes",
+    "read_outcomes",
+]

@@ -28,12 +28,29 @@ from tuning.errors import ConfigError, Problem
 __all__ = ["AFTER", "COLUMNS", "FORM_FIELD_OF", "PLUG_WORDS", "AFR_RANGE", "read_outcomes"]
 
 #: The columns of an outcomes file, in the order the docs list them.
-COLUMNS = ("bike", "session", "time", "throttle", "wideband_afr", "plug", "remark", "main_jet", "pilot_jet",
-           "clip", "mixture_screw_turns", "returned_to_proven")
+COLUMNS = (
+    "bike",
+    "session",
+    "time",
+    "throttle",
+    "wideband_afr",
+    "plug",
+    "remark",
+    "main_jet",
+    "pilot_jet",
+    "clip",
+    "mixture_screw_turns",
+    "returned_to_proven",
+)
 #: The sheet's form box (``tuning.report.tables.FORM_FIELDS``) each column copies.
 FORM_FIELD_OF = {
-    "plug": "plug_colour", "remark": "rider_remark", "main_jet": "fitted_main_jet", "pilot_jet": "fitted_pilot_jet",
-    "clip": "fitted_clip", "mixture_screw_turns": "fitted_screw_turns", "returned_to_proven": "returned_to_proven",
+    "plug": "plug_colour",
+    "remark": "rider_remark",
+    "main_jet": "fitted_main_jet",
+    "pilot_jet": "fitted_pilot_jet",
+    "clip": "fitted_clip",
+    "mixture_screw_turns": "fitted_screw_turns",
+    "returned_to_proven": "returned_to_proven",
 }
 #: The session name of a row written after the event (the return to the proven settings).
 AFTER = "after"
@@ -76,7 +93,9 @@ def read_outcomes(path, fleet, event) -> tuple[str, list[dict]]:
     try:
         text = data.decode("utf-8-sig")
     except UnicodeDecodeError as exc:
-        raise ConfigError([Problem(name, None, "", f"not UTF-8 text (byte {exc.start}); save it as UTF-8 CSV")]) from None
+        raise ConfigError(
+            [Problem(name, None, "", f"not UTF-8 text (byte {exc.start}); save it as UTF-8 CSV")]
+        ) from None
     raw, problems = _rows(name, text)
     if not problems:
         rows, problems = _check(name, raw, fleet, event)
@@ -95,11 +114,17 @@ def _rows(name: str, text: str) -> tuple[list[tuple[int, dict]], list[Problem]]:
     except csv.Error as exc:
         return [], [Problem(name, 1, "", f"not a CSV header ({exc})")]
     columns = [h.strip().lower() for h in header]
-    problems = [Problem(name, 1, c or f"column {i + 1}", f"unknown column; known: {', '.join(COLUMNS)}")
-                for i, c in enumerate(columns) if c not in COLUMNS]
+    problems = [
+        Problem(name, 1, c or f"column {i + 1}", f"unknown column; known: {', '.join(COLUMNS)}")
+        for i, c in enumerate(columns)
+        if c not in COLUMNS
+    ]
     problems += [Problem(name, 1, c, "named twice") for i, c in enumerate(columns) if c in columns[:i]]
-    problems += [Problem(name, 1, c, "missing; every row names its bike and session")
-                 for c in ("bike", "session") if c not in columns]
+    problems += [
+        Problem(name, 1, c, "missing; every row names its bike and session")
+        for c in ("bike", "session")
+        if c not in columns
+    ]
     if problems:
         return [], problems
     rows, line = [], 1
@@ -137,15 +162,22 @@ def _check(name, raw, fleet, event) -> tuple[list[dict], list[Problem]]:
             fail("bike", f"{cells['bike']!r} is not a bike of fleet {fleet.name!r}" if cells["bike"] else "empty")
         if cells["session"] not in sessions and cells["session"] != AFTER:
             known = ", ".join(repr(s.name) for s in event.sessions)
-            fail("session", f"{cells['session']!r} is not a session of {event.name!r} (its sessions: {known}; "
-                 f"or {AFTER!r} for a row after the event)")
+            fail(
+                "session",
+                f"{cells['session']!r} is not a session of {event.name!r} (its sessions: {known}; "
+                f"or {AFTER!r} for a row after the event)",
+            )
         row["bike"], row["session"] = cells["bike"], cells["session"]
         row["time"] = _time(cells.get("time", ""), fail)
         row["throttle"] = _throttle(cells.get("throttle", ""), percent, fail)
-        row["wideband_afr"] = _ranged(cells.get("wideband_afr", ""), "wideband_afr", AFR_RANGE, fail,
-                                      "an air-fuel ratio such as 12.8 (a lambda value times 14.7 for gasoline)")
-        if row["wideband_afr"] is not None and row["throttle"] is None and not any(
-                p.field == "throttle" for p in bad):
+        row["wideband_afr"] = _ranged(
+            cells.get("wideband_afr", ""),
+            "wideband_afr",
+            AFR_RANGE,
+            fail,
+            "an air-fuel ratio such as 12.8 (a lambda value times 14.7 for gasoline)",
+        )
+        if row["wideband_afr"] is not None and row["throttle"] is None and not any(p.field == "throttle" for p in bad):
             fail("wideband_afr", "a wideband reading needs the throttle opening it was taken at (column throttle)")
         plug = cells.get("plug", "").lower()
         row["plug"] = plug or None
@@ -155,8 +187,10 @@ def _check(name, raw, fleet, event) -> tuple[list[dict], list[Problem]]:
         row["returned_to_proven"] = _yes_no(cells.get("returned_to_proven", ""), fail)
         for key in _SETTINGS:
             row[key] = _setting(key, cells.get(key, ""), bike, fleet, fail)
-        if not bad and all(row[k] in (None, False) for k in ("throttle", "wideband_afr", "plug", "remark",
-                                                              "returned_to_proven", *_SETTINGS)):
+        if not bad and all(
+            row[k] in (None, False)
+            for k in ("throttle", "wideband_afr", "plug", "remark", "returned_to_proven", *_SETTINGS)
+        ):
             fail("", "the row says nothing: give a reading, a plug, a remark, a fitted setting or returned_to_proven")
         problems += bad
         rows.append(row)
@@ -197,12 +231,18 @@ def _throttle(text, percent, fail):
         return None
     high = 100.0 if percent else 1.0
     if percent and 0.0 < value < 1.0 and not text.endswith("%"):
-        fail("throttle", f"{text!r} is a fraction, but other rows of this file give percent (above 1): write "
-             f"{value * 100:g} for {value * 100:g} %, or all rows as fractions")
+        fail(
+            "throttle",
+            f"{text!r} is a fraction, but other rows of this file give percent (above 1): write "
+            f"{value * 100:g} for {value * 100:g} %, or all rows as fractions",
+        )
         return None
     if not 0.0 <= value <= high:
-        fail("throttle", f"{text!r}: expected 0 to {high:g}{' %' if percent else ''}"
-             + ("" if percent else " (a fraction; a file in percent has values above 1)"))
+        fail(
+            "throttle",
+            f"{text!r}: expected 0 to {high:g}{' %' if percent else ''}"
+            + ("" if percent else " (a fraction; a file in percent has values above 1)"),
+        )
         return None
     return value / 100.0 if percent else value
 

@@ -14,22 +14,34 @@ from collections.abc import Callable
 
 import sqlalchemy as sa
 
-__all__ = ["MIGRATIONS", "SCHEMA_VERSION", "metadata", "events", "plans", "imports", "outcomes", "migrate",
-           "version_of"]
+__all__ = [
+    "MIGRATIONS",
+    "SCHEMA_VERSION",
+    "metadata",
+    "events",
+    "plans",
+    "imports",
+    "outcomes",
+    "migrate",
+    "version_of",
+]
 
 metadata = sa.MetaData()
 
 schema_version = sa.Table(
-    "schema_version", metadata,
+    "schema_version",
+    metadata,
     sa.Column("version", sa.Integer, nullable=False),
 )
+
 
 def _v1_tables(md: sa.MetaData) -> tuple[sa.Table, ...]:
     """The tables as version 1 made them (also the shape queried today: no step changed them yet;
     a later step that adds a column adds it here only after its own ALTER TABLE)."""
     #: One row per event: name, site and the dates of its first and last session (site local dates).
     events = sa.Table(
-        "events", md,
+        "events",
+        md,
         sa.Column("id", sa.Integer, primary_key=True, autoincrement=True),
         sa.Column("key", sa.String(600), nullable=False, unique=True),
         sa.Column("name", sa.String(300), nullable=False),
@@ -41,7 +53,8 @@ def _v1_tables(md: sa.MetaData) -> tuple[sa.Table, ...]:
 
     #: Every plan made (``plan`` and ``build``): the whole plan document as JSON.
     plans = sa.Table(
-        "plans", md,
+        "plans",
+        md,
         sa.Column("id", sa.Integer, primary_key=True, autoincrement=True),
         sa.Column("event_id", sa.Integer, sa.ForeignKey("events.id"), nullable=False),
         sa.Column("fleet", sa.String(300), nullable=False),
@@ -51,7 +64,8 @@ def _v1_tables(md: sa.MetaData) -> tuple[sa.Table, ...]:
 
     #: Every outcomes file recorded, by its content: the same file twice is recorded once.
     imports = sa.Table(
-        "imports", md,
+        "imports",
+        md,
         sa.Column("id", sa.Integer, primary_key=True, autoincrement=True),
         sa.Column("event_id", sa.Integer, sa.ForeignKey("events.id"), nullable=False),
         sa.Column("fleet", sa.String(300), nullable=False),
@@ -65,7 +79,8 @@ def _v1_tables(md: sa.MetaData) -> tuple[sa.Table, ...]:
     #: One row per reading, plug, remark or fitted setting. ``row_key`` is a digest of the row's values:
     #: the same row in another file (an export made again) is kept once.
     outcomes = sa.Table(
-        "outcomes", md,
+        "outcomes",
+        md,
         sa.Column("id", sa.Integer, primary_key=True, autoincrement=True),
         sa.Column("import_id", sa.Integer, sa.ForeignKey("imports.id"), nullable=False),
         sa.Column("event_id", sa.Integer, sa.ForeignKey("events.id"), nullable=False),

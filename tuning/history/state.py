@@ -18,8 +18,12 @@ __all__ = ["CIRCUITS", "Fitted", "fitted_settings", "fitted_state", "plan_change
 
 #: The settings compared between plans and kept as fleet state: (plan document key, value key,
 #: outcome column).
-CIRCUITS = (("main_jet", "recommended", "main_jet"), ("pilot_jet", "recommended", "pilot_jet"),
-            ("clip", "recommended", "clip"), ("mixture_screw", "recommended_turns", "mixture_screw_turns"))
+CIRCUITS = (
+    ("main_jet", "recommended", "main_jet"),
+    ("pilot_jet", "recommended", "pilot_jet"),
+    ("clip", "recommended", "clip"),
+    ("mixture_screw", "recommended_turns", "mixture_screw_turns"),
+)
 
 
 @dataclass(frozen=True)
@@ -37,8 +41,10 @@ class Fitted:
 
 def recommended_settings(plan: dict) -> dict[tuple[str, str], dict[str, float | int | None]]:
     """(bike, session) -> the plan's recommended value of each setting, keyed by outcome column."""
-    return {(e["bike"], e["session"]): {column: e["settings"][key][value] for key, value, column in CIRCUITS}
-            for e in plan["entries"]}
+    return {
+        (e["bike"], e["session"]): {column: e["settings"][key][value] for key, value, column in CIRCUITS}
+        for e in plan["entries"]
+    }
 
 
 def fitted_state(history, fleet) -> dict[str, Fitted]:
@@ -93,12 +99,18 @@ def fitted_settings(fleet, state: dict[str, Fitted]) -> dict:
         if f is None:
             continue
         s = bike.settings
-        screw = s.mixture_screw if f.mixture_screw_turns is None else replace(s.mixture_screw,
-                                                                              turns=float(f.mixture_screw_turns))
+        screw = (
+            s.mixture_screw
+            if f.mixture_screw_turns is None
+            else replace(s.mixture_screw, turns=float(f.mixture_screw_turns))
+        )
         out[bike.id] = replace(
-            s, main_jet=s.main_jet if f.main_jet is None else float(f.main_jet),
+            s,
+            main_jet=s.main_jet if f.main_jet is None else float(f.main_jet),
             pilot_jet=s.pilot_jet if f.pilot_jet is None else float(f.pilot_jet),
-            clip=s.clip if f.clip is None or s.clip is None else int(f.clip), mixture_screw=screw)
+            clip=s.clip if f.clip is None or s.clip is None else int(f.clip),
+            mixture_screw=screw,
+        )
     return out
 
 

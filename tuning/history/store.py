@@ -69,8 +69,9 @@ def open_history(where: str | Path) -> History:
         try:
             import psycopg  # noqa: F401
         except ImportError:
-            raise UserError("--history: a PostgreSQL history needs the driver: pip install 'carbfleet[postgresql]'") \
-                from None
+            raise UserError(
+                "--history: a PostgreSQL history needs the driver: pip install 'carbfleet[postgresql]'"
+            ) from None
         engine = sa.create_engine(url, pool_pre_ping=True)
     else:
         path = Path(where)
@@ -84,15 +85,19 @@ def open_history(where: str | Path) -> History:
         version = schema.migrate(engine)
     except sa.exc.OperationalError as exc:
         engine.dispose()
-        raise UserError(f"--history: {_shown(where)}: cannot open it ({_reason(exc)}); name another with "
-                        "--history, or plan without one: --no-history") from None
+        raise UserError(
+            f"--history: {_shown(where)}: cannot open it ({_reason(exc)}); name another with "
+            "--history, or plan without one: --no-history"
+        ) from None
     except sa.exc.DatabaseError as exc:
         engine.dispose()
         raise UserError(f"--history: {_shown(where)}: not a carbfleet history ({_reason(exc)})") from None
     if version > schema.SCHEMA_VERSION:
         engine.dispose()
-        raise UserError(f"--history: {_shown(where)} was written by a newer carbfleet (schema {version}, this one "
-                        f"knows {schema.SCHEMA_VERSION}); update carbfleet")
+        raise UserError(
+            f"--history: {_shown(where)} was written by a newer carbfleet (schema {version}, this one "
+            f"knows {schema.SCHEMA_VERSION}); update carbfleet"
+        )
     return History(engine)
 
 
@@ -102,8 +107,11 @@ def _shown(where: str) -> str:
 
 
 def _reason(exc) -> str:
-    return str(getattr(exc, "orig", exc)).strip().splitlines()[0] if str(getattr(exc, "orig", exc)).strip() else \
-        type(exc).__name__
+    return (
+        str(getattr(exc, "orig", exc)).strip().splitlines()[0]
+        if str(getattr(exc, "orig", exc)).strip()
+        else type(exc).__name__
+    )
 
 
 def _sqlite_transactions(engine) -> None:
@@ -173,18 +181,35 @@ class History:
     def _event_id(self, conn, event) -> int:
         first, last = _days(event)
         key = event_key(event)
-        _insert_new(conn, events, [{"key": key, "name": event.name, "site": event.site.name,
-                                    "elevation_m": float(event.site.elevation), "first_day": first,
-                                    "last_day": last}], ["key"])
+        _insert_new(
+            conn,
+            events,
+            [
+                {
+                    "key": key,
+                    "name": event.name,
+                    "site": event.site.name,
+                    "elevation_m": float(event.site.elevation),
+                    "first_day": first,
+                    "last_day": last,
+                }
+            ],
+            ["key"],
+        )
         return conn.execute(sa.select(events.c.id).where(events.c.key == key)).scalar_one()
 
     def record_plan(self, event, plan: dict, made_at: str | None = None) -> int:
         """Record a plan document made for ``event`` (one transaction); the new plan's id."""
         with self.engine.begin() as conn:
             event_id = self._event_id(conn, event)
-            return conn.execute(plans.insert().values(
-                event_id=event_id, fleet=plan["fleet"], made_at=made_at or _now(),
-                document=json.dumps(plan, sort_keys=True, ensure_ascii=False))).inserted_primary_key[0]
+            return conn.execute(
+                plans.insert().values(
+                    event_id=event_id,
+                    fleet=plan["fleet"],
+                    made_at=made_at or _now(),
+                    document=json.dumps(plan, sort_keys=True, ensure_ascii=False),
+                )
+            ).inserted_primary_key[0]
 
     def record_outcomes(self, fleet, event, file_name: str, sha256: str, rows: list[dict]) -> Recorded:
         """Record checked outcome rows (from :func:`tuning.history.outcomes.read_outcomes`) in one
@@ -192,20 +217,38 @@ class History:
         recorded before from another file is kept once (its n-th copy in a file counts as another row)."""
         with self.engine.begin() as conn:
             event_id = self._event_id(conn, event)
-            found = conn.execute(sa.select(imports.c.id).where(
-                imports.c.event_id == event_id, imports.c.fleet == fleet.name, imports.c.sha256 == sha256)).first()
+            found = conn.execute(
+                sa.select(imports.c.id).where(
+                    imports.c.event_id == event_id, imports.c.fleet == fleet.name, imports.c.sha256 == sha256
+                )
+            ).first()
             if found is not None:
                 return Recorded(0, len(rows), True)
-            import_id = conn.execute(imports.insert().values(
-                event_id=event_id, fleet=fleet.name, file_name=str(file_name)[:1000], sha256=sha256,
-                recorded_at=_now(), rows=len(rows))).inserted_primary_key[0]
+            import_id = conn.execute(
+                imports.insert().values(
+                    event_id=event_id,
+                    fleet=fleet.name,
+                    file_name=str(file_name)[:1000],
+                    sha256=sha256,
+                    recorded_at=_now(),
+                    rows=len(rows),
+                )
+            ).inserted_primary_key[0]
             seen = Counter()
             values = []
             for row in rows:
                 key = row_key(row)
                 seen[key] += 1
-                values.append({**{c: row.get(c) for c in COLUMNS}, "line": row["line"], "import_id": import_id,
-                               "event_id": event_id, "fleet": fleet.name, "row_key": f"{key[:56]}#{seen[key]}"})
+                values.append(
+                    {
+                        **{c: row.get(c) for c in COLUMNS},
+                        "line": row["line"],
+                        "import_id": import_id,
+                        "event_id": event_id,
+                        "fleet": fleet.name,
+                        "row_key": f"{key[:56]}#{seen[key]}",
+                    }
+                )
             added = _insert_new(conn, outcomes, values, ["event_id", "fleet", "row_key"])
         return Recorded(added, len(rows), False)
 
@@ -214,9 +257,12 @@ class History:
         """The latest plan recorded for this event and fleet: (made_at, document), or None."""
         with self.engine.connect() as conn:
             found = conn.execute(
-                sa.select(plans.c.made_at, plans.c.document).join(events, events.c.id == plans.c.event_id)
+                sa.select(plans.c.made_at, plans.c.document)
+                .join(events, events.c.id == plans.c.event_id)
                 .where(events.c.key == event_key(event), plans.c.fleet == fleet_name)
-                .order_by(plans.c.id.desc()).limit(1)).first()
+                .order_by(plans.c.id.desc())
+                .limit(1)
+            ).first()
         return None if found is None else (found.made_at, json.loads(found.document))
 
     def plan_for(self, event_key: str, fleet_name: str | None = None) -> dict | None:
@@ -237,8 +283,13 @@ class History:
             last before the event, whose settings the mechanics fitted unless an outcome row says
             otherwise.
         """
-        query = (sa.select(plans.c.document).join(events, events.c.id == plans.c.event_id)
-                 .where(events.c.key == event_key).order_by(plans.c.id.desc()).limit(1))
+        query = (
+            sa.select(plans.c.document)
+            .join(events, events.c.id == plans.c.event_id)
+            .where(events.c.key == event_key)
+            .order_by(plans.c.id.desc())
+            .limit(1)
+        )
         if fleet_name is not None:
             query = query.where(plans.c.fleet == fleet_name)
         with self.engine.connect() as conn:
@@ -254,18 +305,23 @@ class History:
             event_id = conn.execute(sa.select(events.c.id).where(events.c.key == event_key)).scalar()
             if event_id is None:
                 return None
-            first_import = conn.execute(sa.select(sa.func.min(imports.c.recorded_at))
-                                        .where(imports.c.event_id == event_id, imports.c.fleet == fleet_name)).scalar()
+            first_import = conn.execute(
+                sa.select(sa.func.min(imports.c.recorded_at)).where(
+                    imports.c.event_id == event_id, imports.c.fleet == fleet_name
+                )
+            ).scalar()
             query = sa.select(plans.c.document).where(plans.c.event_id == event_id, plans.c.fleet == fleet_name)
             before = None
             if first_import is not None:
-                before = conn.execute(query.where(plans.c.made_at <= first_import)
-                                      .order_by(plans.c.id.desc()).limit(1)).scalar()
+                before = conn.execute(
+                    query.where(plans.c.made_at <= first_import).order_by(plans.c.id.desc()).limit(1)
+                ).scalar()
             found = before if before is not None else conn.execute(query.order_by(plans.c.id).limit(1)).scalar()
         return None if found is None else json.loads(found)
 
-    def outcomes(self, fleet_name: str | None = None, bike: str | None = None,
-                 event_key: str | None = None) -> list[dict]:
+    def outcomes(
+        self, fleet_name: str | None = None, bike: str | None = None, event_key: str | None = None
+    ) -> list[dict]:
         """Every outcome row recorded, as plain dicts, oldest event first, then in file order.
 
         Parameters
@@ -286,9 +342,11 @@ class History:
             or None), ``clip`` (groove, int or None), ``mixture_screw_turns`` (float or None), and
             ``returned_to_proven`` (True, False or None: not said). Numbers are SI-free as typed.
         """
-        query = (sa.select(events.c.key.label("event_key"), events.c.last_day, outcomes)
-                 .join(events, events.c.id == outcomes.c.event_id)
-                 .order_by(events.c.last_day, events.c.id, outcomes.c.import_id, outcomes.c.line, outcomes.c.id))
+        query = (
+            sa.select(events.c.key.label("event_key"), events.c.last_day, outcomes)
+            .join(events, events.c.id == outcomes.c.event_id)
+            .order_by(events.c.last_day, events.c.id, outcomes.c.import_id, outcomes.c.line, outcomes.c.id)
+        )
         if fleet_name is not None:
             query = query.where(outcomes.c.fleet == fleet_name)
         if bike is not None:
@@ -303,14 +361,25 @@ class History:
     def fleets(self) -> list[str]:
         """The names of the fleets with plans or outcomes in this history, sorted."""
         with self.engine.connect() as conn:
-            return sorted(set(conn.execute(sa.select(plans.c.fleet).distinct()).scalars())
-                          | set(conn.execute(sa.select(outcomes.c.fleet).distinct()).scalars()))
+            return sorted(
+                set(conn.execute(sa.select(plans.c.fleet).distinct()).scalars())
+                | set(conn.execute(sa.select(outcomes.c.fleet).distinct()).scalars())
+            )
 
     def events_of(self, fleet_name: str) -> list[dict]:
         """The events this fleet has plans or outcomes for, oldest first: key, name, site, days, elevation."""
-        used = sa.union(sa.select(plans.c.event_id).where(plans.c.fleet == fleet_name),
-                        sa.select(outcomes.c.event_id).where(outcomes.c.fleet == fleet_name)).subquery()
+        used = sa.union(
+            sa.select(plans.c.event_id).where(plans.c.fleet == fleet_name),
+            sa.select(outcomes.c.event_id).where(outcomes.c.fleet == fleet_name),
+        ).subquery()
         with self.engine.connect() as conn:
-            found = conn.execute(sa.select(events).where(events.c.id.in_(sa.select(used.c.event_id)))
-                                 .order_by(events.c.last_day, events.c.id)).mappings().all()
+            found = (
+                conn.execute(
+                    sa.select(events)
+                    .where(events.c.id.in_(sa.select(used.c.event_id)))
+                    .order_by(events.c.last_day, events.c.id)
+                )
+                .mappings()
+                .all()
+            )
         return [dict(r) for r in found]

@@ -40,16 +40,32 @@ from tuning.plan.rejet import rejet_thresholds
 from tuning.plan.window import LEAN_GUARD, LEAN_WEIGHT, RICH_WEIGHT, WindowLoss
 
 __all__ = [
-    "FORMAT", "LEAN_GUARD", "LEAN_WEIGHT", "RICH_WEIGHT", "CLIP_LEAN_LIMIT", "THROTTLE", "MID_RANGE_OPENINGS",
-    "CODES", "BIKE_CODES", "CSV_COLUMNS", "PICK_LIST_COLUMNS", "PLAN_FILE_SIGNATURES", "WindowLoss",
-    "session_hours", "required_area_factor", "make_plan", "plan_rows", "write_plan_files",
+    "FORMAT",
+    "LEAN_GUARD",
+    "LEAN_WEIGHT",
+    "RICH_WEIGHT",
+    "CLIP_LEAN_LIMIT",
+    "THROTTLE",
+    "MID_RANGE_OPENINGS",
+    "CODES",
+    "BIKE_CODES",
+    "CSV_COLUMNS",
+    "PICK_LIST_COLUMNS",
+    "PLAN_FILE_SIGNATURES",
+    "WindowLoss",
+    "session_hours",
+    "required_area_factor",
+    "make_plan",
+    "plan_rows",
+    "write_plan_files",
 ]
 
 FORMAT = document.FORMAT
 
 
-def make_plan(fleet, event, *, policy_name: str | None = None, change_threshold: float | None = None,
-              calibration=None) -> dict:
+def make_plan(
+    fleet, event, *, policy_name: str | None = None, change_threshold: float | None = None, calibration=None
+) -> dict:
     """Plan the settings of every bike for every session of an event.
 
     Parameters
@@ -71,8 +87,10 @@ def make_plan(fleet, event, *, policy_name: str | None = None, change_threshold:
     if not fleet.bikes or not event.sessions:  # the loaders refuse both; plans of nothing are not made
         raise ValueError("make_plan needs at least one bike and one session")
     chosen_policy = policy_name or event.change_policy or fleet.change_policy or policy.DEFAULT_POLICY
-    threshold = next((t for t in (change_threshold, event.change_threshold, fleet.change_threshold) if t is not None),
-                     policy.DEFAULT_CHANGE_THRESHOLD)
+    threshold = next(
+        (t for t in (change_threshold, event.change_threshold, fleet.change_threshold) if t is not None),
+        policy.DEFAULT_CHANGE_THRESHOLD,
+    )
     penalties = policy.penalties(chosen_policy, float(threshold))
 
     hours = event_hours(event)
@@ -84,17 +102,37 @@ def make_plan(fleet, event, *, policy_name: str | None = None, change_threshold:
 
     main, idle, clip = _circuits(fleet, circuits, settings, penalties)
     if circuits.calibrated:  # never leaner by the law than the guard or the law's own plan
-        main, idle, clip = guarded(rows, circuits, (main, idle, clip),
-                                   _circuits(fleet, circuit_rows(fleet, rows, hours, refs, None), settings, penalties))
+        main, idle, clip = guarded(
+            rows,
+            circuits,
+            (main, idle, clip),
+            _circuits(fleet, circuit_rows(fleet, rows, hours, refs, None), settings, penalties),
+        )
     curves = mixture_curves(rows, refs, hours, main, idle, clip, float(fleet.reference_afr), circuits.multiplier)
-    rejet = rejet_thresholds(fleet, circuits.main, hours, refs, meter, main,
-                             circuits.multiplier["main"] if circuits.multiplier else None)
+    rejet = rejet_thresholds(
+        fleet, circuits.main, hours, refs, meter, main, circuits.multiplier["main"] if circuits.multiplier else None
+    )
     fitted, planned = _jets_by_bike(rows, main, idle.pilot)
     stock = dict(fleet.stock) if fleet.stock else None
     allocation = allocate([b.id for b in fleet.bikes], fitted, planned, stock)
     picks = pick_list(fitted, planned, stock)
-    return document.assemble(fleet, event, rows, hours, refs, main, idle, clip, curves, rejet, allocation, picks,
-                             chosen_policy, float(threshold), circuits)
+    return document.assemble(
+        fleet,
+        event,
+        rows,
+        hours,
+        refs,
+        main,
+        idle,
+        clip,
+        curves,
+        rejet,
+        allocation,
+        picks,
+        chosen_policy,
+        float(threshold),
+        circuits,
+    )
 
 
 def _circuits(fleet, circuits, settings, penalties):
@@ -113,7 +151,8 @@ def _jets_by_bike(rows, main, pilot):
         fam = plan.family.reshape(shape).tolist()
         keys[kind] = (fam, plan.current.reshape(shape).tolist(), plan.recommended.reshape(shape).tolist())
     fitted = [{kind: (keys[kind][0][b][0], keys[kind][1][b][0]) for kind in keys} for b in range(rows.n_bikes)]
-    planned = [[{kind: (keys[kind][0][b][s], keys[kind][2][b][s]) for kind in keys} for s in range(rows.n_sessions)]
-               for b in range(rows.n_bikes)]
+    planned = [
+        [{kind: (keys[kind][0][b][s], keys[kind][2][b][s]) for kind in keys} for s in range(rows.n_sessions)]
+        for b in range(rows.n_bikes)
+    ]
     return fitted, planned
-

@@ -80,7 +80,7 @@ def circuit_rows(fleet, rows, hours, refs, calibration) -> CircuitRows:
             out[circuit], multiplier[circuit] = rows, np.ones(n)
             spread[circuit] = np.zeros(n)
             continue
-        var = (cov[b, i, i][:, None] + 2.0 * cov[b, i, 3][:, None] * x + cov[b, 3, 3][:, None] * x * x)
+        var = cov[b, i, i][:, None] + 2.0 * cov[b, i, 3][:, None] * x + cov[b, 3, 3][:, None] * x * x
         sd = np.sqrt(np.maximum(var, 0.0))
         log_f = mean[b, i][:, None] + mean[b, 3][:, None] * x + z * sd
         log_f = np.where(applies[b, i][:, None] & rows.valid, log_f, 0.0)
@@ -91,8 +91,10 @@ def circuit_rows(fleet, rows, hours, refs, calibration) -> CircuitRows:
         out[circuit] = dataclasses.replace(rows, required=required, window=window)
         multiplier[circuit] = calibrated_largest / rows.window.largest
         spread[circuit] = np.where(applies[b, i], np.where(rows.valid, sd, 0.0).max(axis=1), 0.0)
-    basis = [_basis(est, max(float(spread[c][rows.bike == k].max(initial=0.0)) for c in CIRCUITS))
-             for k, est in enumerate(estimates)]
+    basis = [
+        _basis(est, max(float(spread[c][rows.bike == k].max(initial=0.0)) for c in CIRCUITS))
+        for k, est in enumerate(estimates)
+    ]
     return CircuitRows(out["pilot"], out["needle"], out["main"], multiplier, basis, True)
 
 
@@ -100,14 +102,29 @@ def _basis(est, sd) -> dict:
     """What a bike's settings rest on: ``kind`` (law, model, calibrated), counts, the uncertainty of
     its calibrated circuits at the event's air [%, one standard deviation], the exponent."""
     if est is None or est.kind == "law":
-        return {"kind": "law", "readings": 0, "sessions": 0, "events": 0, "uncertainty_pct": None,
-                "density_exponent": None, "density_exponent_sd": None, "offsets_pct": None, "law_kept": False}
+        return {
+            "kind": "law",
+            "readings": 0,
+            "sessions": 0,
+            "events": 0,
+            "uncertainty_pct": None,
+            "density_exponent": None,
+            "density_exponent_sd": None,
+            "offsets_pct": None,
+            "law_kept": False,
+        }
     seen = dict(zip(CIRCUITS, est.circuits))
-    return {"kind": est.kind, "readings": est.readings, "sessions": est.sessions, "events": est.events,
-            "uncertainty_pct": round(100.0 * float(np.expm1(sd)), 1),
-            "density_exponent": round(est.exponent, 3), "density_exponent_sd": round(est.exponent_sd, 3),
-            "offsets_pct": {c: (round(100.0 * float(np.expm1(est.offset(c))), 1) if seen[c] else None)
-                            for c in CIRCUITS}, "law_kept": False}
+    return {
+        "kind": est.kind,
+        "readings": est.readings,
+        "sessions": est.sessions,
+        "events": est.events,
+        "uncertainty_pct": round(100.0 * float(np.expm1(sd)), 1),
+        "density_exponent": round(est.exponent, 3),
+        "density_exponent_sd": round(est.exponent_sd, 3),
+        "offsets_pct": {c: (round(100.0 * float(np.expm1(est.offset(c))), 1) if seen[c] else None) for c in CIRCUITS},
+        "law_kept": False,
+    }
 
 
 def law_leanness(rows, main, idle, clip) -> np.ndarray:

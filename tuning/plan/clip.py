@@ -60,8 +60,10 @@ def plan_clip(fleet, rows, settings, main, penalty) -> ClipPlan:
             continue
         needle = fleet.needles.get(s.needle)
         if needle is None:
-            raise UserError(f"{fleet.source or fleet.name}: bike {fleet.bikes[rows.bike[r]].id}: needle {s.needle!r} "
-                            "is not in the fleet's needles; add it or fix the name")
+            raise UserError(
+                f"{fleet.source or fleet.name}: bike {fleet.bikes[rows.bike[r]].id}: needle {s.needle!r} "
+                "is not in the fleet's needles; add it or fix the name"
+            )
         grooves[r] = needle.grooves
         model = fleet.models[fleet.bikes[rows.bike[r]].model]
         known = not needle.assumed and model.carburetor.needle_jet is not None and main.coding[r] == "diameter"
@@ -72,8 +74,11 @@ def plan_clip(fleet, rows, settings, main, penalty) -> ClipPlan:
         r = np.flatnonzero(mode == which)
         if not len(r):
             continue
-        factor = _geometry_factor(fleet, rows, settings, main, r, current) if which == MODE_GEOMETRY else \
-            _assumed_factor(main_delivered[r], current[r])
+        factor = (
+            _geometry_factor(fleet, rows, settings, main, r, current)
+            if which == MODE_GEOMETRY
+            else _assumed_factor(main_delivered[r], current[r])
+        )
         delivered = factor(MID_RANGE_OPENINGS, np.broadcast_to(numbers[None, :], (len(r), g_max)))  # (R, G, O)
         openings = len(MID_RANGE_OPENINGS)
         loss = rows.window(delivered, r).sum(axis=-1)
@@ -123,10 +128,12 @@ def _geometry_factor(fleet, rows, settings, main, r, current):
 
     def factor(openings, groove):
         lift = np.asarray(openings)[None, None, :] * bore
-        a_new = circuits.series_orifice_area(circuits.needle_annulus_area(lift, nj, sd, ts, ta, gp, groove[:, :, None]),
-                                         a_main_new[:, None, None])
-        a_now = circuits.series_orifice_area(circuits.needle_annulus_area(lift, nj, sd, ts, ta, gp, clip_now[:, None, None]),
-                                         a_main_now[:, None, None])
+        a_new = circuits.series_orifice_area(
+            circuits.needle_annulus_area(lift, nj, sd, ts, ta, gp, groove[:, :, None]), a_main_new[:, None, None]
+        )
+        a_now = circuits.series_orifice_area(
+            circuits.needle_annulus_area(lift, nj, sd, ts, ta, gp, clip_now[:, None, None]), a_main_now[:, None, None]
+        )
         return a_new / a_now
 
     return factor

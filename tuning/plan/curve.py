@@ -26,15 +26,23 @@ def mixture_curves(rows, refs, hours, main, idle, clip, reference_afr, multiplie
     calibration says falls short delivers that much less. The lean check takes the leaner of the
     law's and the calibrated curve."""
     weights = circuits.circuit_weights(THROTTLE)  # (T, 3)
-    delivered = (weights[None, :, 0] * idle.delivered[:, None] + weights[None, :, 1] * clip.curve
-                 + weights[None, :, 2] * main.delivered[:, None])
+    delivered = (
+        weights[None, :, 0] * idle.delivered[:, None]
+        + weights[None, :, 1] * clip.curve
+        + weights[None, :, 2] * main.delivered[:, None]
+    )
     proven = np.ones_like(delivered)
     if multiplier is not None:
         m = [np.asarray(multiplier[c], float)[:, None] for c in ("pilot", "needle", "main")]
-        calibrated = (weights[None, :, 0] * idle.delivered[:, None] / m[0] + weights[None, :, 1] * clip.curve / m[1]
-                      + weights[None, :, 2] * main.delivered[:, None] / m[2])
+        calibrated = (
+            weights[None, :, 0] * idle.delivered[:, None] / m[0]
+            + weights[None, :, 1] * clip.curve / m[1]
+            + weights[None, :, 2] * main.delivered[:, None] / m[2]
+        )
         law = (m[0] == 1.0) & (m[1] == 1.0) & (m[2] == 1.0)  # rows on the law: exactly as without a calibration
-        proven = np.where(law, 1.0, weights[None, :, 0] / m[0] + weights[None, :, 1] / m[1] + weights[None, :, 2] / m[2])
+        proven = np.where(
+            law, 1.0, weights[None, :, 0] / m[0] + weights[None, :, 1] / m[1] + weights[None, :, 2] / m[2]
+        )
         calibrated = np.where(law, delivered, calibrated)
     else:
         calibrated = delivered

@@ -78,9 +78,22 @@ def _air_fields(state, index=None):
 
 def _reference_dict(conditions, state):
     fields = _air_fields(state, 0)
-    return {"elevation_m": rounded(conditions.elevation, 1), **{k: fields[k] for k in (
-        "air_temperature_C", "station_pressure_hPa", "relative_humidity_pct", "dew_point_C",
-        "moist_air_density_kg_m3", "dry_air_density_kg_m3", "density_altitude_m")}, "fuel": conditions.fuel}
+    return {
+        "elevation_m": rounded(conditions.elevation, 1),
+        **{
+            k: fields[k]
+            for k in (
+                "air_temperature_C",
+                "station_pressure_hPa",
+                "relative_humidity_pct",
+                "dew_point_C",
+                "moist_air_density_kg_m3",
+                "dry_air_density_kg_m3",
+                "density_altitude_m",
+            )
+        },
+        "fuel": conditions.fuel,
+    }
 
 
 def _jet_words(steps):
@@ -116,12 +129,30 @@ def _throttle_span(mask):
     idx = np.flatnonzero(mask)
     lo, hi = float(THROTTLE[idx[0]]), float(THROTTLE[idx[-1]])
     if hi > lo:
-        return {"id": "throttle/span", "params": {"low_pct": printed(lo * 100, ".0f"), "high_pct": printed(hi * 100, ".0f")}}
+        return {
+            "id": "throttle/span",
+            "params": {"low_pct": printed(lo * 100, ".0f"), "high_pct": printed(hi * 100, ".0f")},
+        }
     return {"id": "throttle/one", "params": {"low_pct": printed(lo * 100, ".0f")}}
 
 
-def assemble(fleet, event, rows, hours, refs, main, idle, clip, curves, rejet, allocation, pick_list,
-             policy_name, threshold, circuit_rows=None) -> dict:
+def assemble(
+    fleet,
+    event,
+    rows,
+    hours,
+    refs,
+    main,
+    idle,
+    clip,
+    curves,
+    rejet,
+    allocation,
+    pick_list,
+    policy_name,
+    threshold,
+    circuit_rows=None,
+) -> dict:
     """The plan document from the stages' records (see the schema for every field); ``circuit_rows``
     (:class:`tuning.plan.calibrate.CircuitRows`) the rows each circuit was planned on."""
     cols = _columns(fleet, event, rows, hours, refs, main, idle, clip, curves, allocation, circuit_rows)
@@ -134,10 +165,18 @@ def assemble(fleet, event, rows, hours, refs, main, idle, clip, curves, rejet, a
         "carbfleet_version": __version__,
         "fleet": fleet.name,
         "event": event.name,
-        "site": {"name": event.site.name, "elevation_m": rounded(event.site.elevation, 1), "time_zone": event.site.time_zone},
+        "site": {
+            "name": event.site.name,
+            "elevation_m": rounded(event.site.elevation, 1),
+            "time_zone": event.site.time_zone,
+        },
         "reference": cols.ref_dicts[refs.fleet],
-        "policy": {"name": policy_name, "change_threshold": threshold, "lean_guard": LEAN_GUARD,
-                   "work_minutes": dict(WORK_MINUTES)},
+        "policy": {
+            "name": policy_name,
+            "change_threshold": threshold,
+            "lean_guard": LEAN_GUARD,
+            "work_minutes": dict(WORK_MINUTES),
+        },
         "sessions": cols.session_dicts,
         "weather": _weather_rows(event, hours, refs, cols.zone),
         "pick_list": [dict(p, size=jet_number(p["size"])) for p in pick_list],
@@ -151,6 +190,7 @@ def assemble(fleet, event, rows, hours, refs, main, idle, clip, curves, rejet, a
 @dataclass(frozen=True)
 class _Columns:
     """What the entries read, worked out once for every row, session and hour (plain lists, rounded once)."""
+
     zone: ZoneInfo
     sessions: list
     session_dicts: list  # the document's sessions, with their SAE J1349 power
@@ -183,15 +223,33 @@ def _columns(fleet, event, rows, hours, refs, main, idle, clip, curves, allocati
     s_count = rows.n_sessions
     reference_afr = float(fleet.reference_afr)
     ref_dicts = [_reference_dict(c, s) for c, s in zip(refs.conditions, refs.states)]
-    session_dicts = [{"name": s.name, "start": _iso(epoch(s.start), zone), "end": _iso(epoch(s.end), zone)} for s in sessions]
+    session_dicts = [
+        {"name": s.name, "start": _iso(epoch(s.start), zone), "end": _iso(epoch(s.end), zone)} for s in sessions
+    ]
     hour_iso = [_iso(t, zone) for t in hours.times]
     hour_air = _air_fields(hours.air)
-    hour_base = [{"time": hour_iso[i], **{k: hour_air[k][i] for k in (
-        "air_temperature_C", "station_pressure_hPa", "relative_humidity_pct", "moist_air_density_kg_m3",
-        "dry_air_density_kg_m3", "density_altitude_m")}} for i in range(len(hours.times))]
+    hour_base = [
+        {
+            "time": hour_iso[i],
+            **{
+                k: hour_air[k][i]
+                for k in (
+                    "air_temperature_C",
+                    "station_pressure_hPa",
+                    "relative_humidity_pct",
+                    "moist_air_density_kg_m3",
+                    "dry_air_density_kg_m3",
+                    "density_altitude_m",
+                )
+            },
+        }
+        for i in range(len(hours.times))
+    ]
     stats = _session_stats(hours, s_count)
     for d, stat in zip(session_dicts, stats):
-        d.update(power_vs_sae_j1349_pct=stat["power_vs_sae_j1349_pct"], sae_j1349_within_range=stat["sae_j1349_within_range"])
+        d.update(
+            power_vs_sae_j1349_pct=stat["power_vs_sae_j1349_pct"], sae_j1349_within_range=stat["sae_j1349_within_range"]
+        )
     ridden = _session_heights(event, hours, s_count)
     for d, where in zip(session_dicts, ridden):
         if where is not None:
@@ -199,9 +257,16 @@ def _columns(fleet, event, rows, hours, refs, main, idle, clip, curves, allocati
     pilot = idle.pilot
     main_steps, pilot_steps = _steps(fleet, main), _steps(fleet, pilot)
     return _Columns(
-        zone=zone, sessions=sessions, session_dicts=session_dicts, ref_dicts=ref_dicts, stats=stats, ridden=ridden,
-        settings=[fleet.bikes[b].settings for b in rows.bike], bike_ids=[b.id for b in fleet.bikes],
-        hour_iso=hour_iso, hour_base=hour_base,
+        zone=zone,
+        sessions=sessions,
+        session_dicts=session_dicts,
+        ref_dicts=ref_dicts,
+        stats=stats,
+        ridden=ridden,
+        settings=[fleet.bikes[b].settings for b in rows.bike],
+        bike_ids=[b.id for b in fleet.bikes],
+        hour_iso=hour_iso,
+        hour_base=hour_base,
         required=np.round(rows.required, 4),
         f_min=rounded(np.nanmin(rows.required, axis=1), 4),
         f_mean=rounded(np.nanmean(rows.required, axis=1), 4),
@@ -237,8 +302,24 @@ def _entries(fleet, rows, hours, refs, main, idle, clip, curves, rejet, cols):
             session_warnings = _set_aside(found, bike_notices[bike.id])
             if any(w["severity"] == "danger" for w in session_warnings):
                 in_danger.add(bike.id)
-            entries.append(_entry(bike, model, rows, hours, refs, main, curves, rejet, cols, r, s,
-                                  settings_out, checks, session_warnings))
+            entries.append(
+                _entry(
+                    bike,
+                    model,
+                    rows,
+                    hours,
+                    refs,
+                    main,
+                    curves,
+                    rejet,
+                    cols,
+                    r,
+                    s,
+                    settings_out,
+                    checks,
+                    session_warnings,
+                )
+            )
     return entries, bike_notices, in_danger
 
 
@@ -246,16 +327,30 @@ def _settings_dict(fleet, main, idle, clip, curves, cols, r, s, st, found) -> di
     """An entry's settings (main and pilot jet, clip, screw, float level); their warnings go to ``found``."""
     session_name = cols.sessions[s].name
     main_out = _jet_dict(fleet, main, cols.main_cols, r, "main_jet", cols.sources, cols.has_stock, session_name, found)
-    pilot_out = _jet_dict(fleet, idle.pilot, cols.pilot_cols, r, "pilot_jet", cols.sources, cols.has_stock,
-                          session_name, found)
+    pilot_out = _jet_dict(
+        fleet, idle.pilot, cols.pilot_cols, r, "pilot_jet", cols.sources, cols.has_stock, session_name, found
+    )
     if curves["factor_min"][r] < FACTOR_RANGE[0] or curves["factor_max"][r] > FACTOR_RANGE[1]:
-        found.append(warning("factor-out-of-range", params={
-            "factor_min": cols.f_min[r], "factor_max": cols.f_max[r],
-            "range_low": FACTOR_RANGE[0], "range_high": FACTOR_RANGE[1]}))
+        found.append(
+            warning(
+                "factor-out-of-range",
+                params={
+                    "factor_min": cols.f_min[r],
+                    "factor_max": cols.f_max[r],
+                    "range_low": FACTOR_RANGE[0],
+                    "range_high": FACTOR_RANGE[1],
+                },
+            )
+        )
     clip_out = _clip_dict(clip, r, st, found)
     screw_out = _screw_dict(idle, r, st, found)
-    return {"main_jet": main_out, "pilot_jet": pilot_out, "clip": clip_out, "mixture_screw": screw_out,
-            "float_level_mm": None if st.float_level is None else round(st.float_level * 1000.0, 2)}
+    return {
+        "main_jet": main_out,
+        "pilot_jet": pilot_out,
+        "clip": clip_out,
+        "mixture_screw": screw_out,
+        "float_level_mm": None if st.float_level is None else round(st.float_level * 1000.0, 2),
+    }
 
 
 def _set_aside(found, notices) -> list:
@@ -267,7 +362,9 @@ def _set_aside(found, notices) -> list:
     return sorted((w for w in found if w["code"] not in BIKE_CODES), key=lambda w: severity_rank(w["severity"]))
 
 
-def _entry(bike, model, rows, hours, refs, main, curves, rejet, cols, r, s, settings_out, checks, session_warnings) -> dict:
+def _entry(
+    bike, model, rows, hours, refs, main, curves, rejet, cols, r, s, settings_out, checks, session_warnings
+) -> dict:
     """One bike × session entry of the document."""
     stat = cols.stats[s]
     reference = int(refs.of_bike[int(rows.bike[r])])
@@ -275,29 +372,46 @@ def _entry(bike, model, rows, hours, refs, main, curves, rejet, cols, r, s, sett
     base = hours.offsets[s]
     where = cols.ridden[s]
     first = n_h * (where["densest_level"] if where is not None else 0)  # the hours at the densest height
-    hours_out = [dict(h, area_factor=f) for h, f in zip(cols.hour_base[base + first: base + first + n_h],
-                                                         cols.required[r, first: first + n_h].tolist())]
+    hours_out = [
+        dict(h, area_factor=f)
+        for h, f in zip(
+            cols.hour_base[base + first : base + first + n_h], cols.required[r, first : first + n_h].tolist()
+        )
+    ]
     entry = {
-        "bike": bike.id, "model": bike.model, "session": cols.sessions[s].name,
-        "start": cols.session_dicts[s]["start"], "end": cols.session_dicts[s]["end"], "notes": bike.notes,
+        "bike": bike.id,
+        "model": bike.model,
+        "session": cols.sessions[s].name,
+        "start": cols.session_dicts[s]["start"],
+        "end": cols.session_dicts[s]["end"],
+        "notes": bike.notes,
         "strokes": int(model.strokes),
         "premix_ratio": None if bike.premix_ratio is None else round(float(bike.premix_ratio), 2),
         "density_exponent": round(float(bike.density_exponent), 4),
         "reference": cols.ref_dicts[reference],
         "hours": hours_out,
         "summary": {
-            "air_temperature_C_min": stat["air_temperature_C_min"], "air_temperature_C_max": stat["air_temperature_C_max"],
+            "air_temperature_C_min": stat["air_temperature_C_min"],
+            "air_temperature_C_max": stat["air_temperature_C_max"],
             "station_pressure_hPa_mean": stat["station_pressure_hPa_mean"],
             "relative_humidity_pct_mean": stat["relative_humidity_pct_mean"],
-            "density_altitude_m_min": stat["density_altitude_m_min"], "density_altitude_m_max": stat["density_altitude_m_max"],
-            "area_factor_min": cols.f_min[r], "area_factor_mean": cols.f_mean[r], "area_factor_max": cols.f_max[r],
+            "density_altitude_m_min": stat["density_altitude_m_min"],
+            "density_altitude_m_max": stat["density_altitude_m_max"],
+            "area_factor_min": cols.f_min[r],
+            "area_factor_mean": cols.f_mean[r],
+            "area_factor_max": cols.f_max[r],
             "power_vs_reference_pct": cols.power[r],
-            "air_density_vs_reference_pct": round(100.0 * (stat["moist_air_density"] / float(refs.moist[reference]) - 1.0), 1),
+            "air_density_vs_reference_pct": round(
+                100.0 * (stat["moist_air_density"] / float(refs.moist[reference]) - 1.0), 1
+            ),
         },
         "settings": settings_out,
         "mixture_curve": {
-            "throttle": THROTTLE.tolist(), "current_afr": cols.current_afr[r], "recommended_afr": cols.recommended_afr[r],
-            "reference_afr": round(cols.reference_afr, 2), "target_band_afr": cols.band,
+            "throttle": THROTTLE.tolist(),
+            "current_afr": cols.current_afr[r],
+            "recommended_afr": cols.recommended_afr[r],
+            "reference_afr": round(cols.reference_afr, 2),
+            "target_band_afr": cols.band,
             "time": cols.hour_iso[base + int(curves["worst_hour"][r])],
             "basis": "leanest hour of the session (largest required area factor)",
             "delivered_area_factor": cols.delivered[r],
@@ -318,8 +432,15 @@ def _bikes(fleet, bike_notices, in_danger, circuit_rows) -> list:
     bikes_out = []
     for i, bike in enumerate(fleet.bikes):
         notices = list(bike_notices[bike.id].values())
-        bikes_out.append({"bike": bike.id, "model": bike.model, "danger": bike.id in in_danger, "notices": notices,
-                          "basis": _basis_dict(circuit_rows.basis[i] if circuit_rows is not None else None)})
+        bikes_out.append(
+            {
+                "bike": bike.id,
+                "model": bike.model,
+                "danger": bike.id in in_danger,
+                "notices": notices,
+                "basis": _basis_dict(circuit_rows.basis[i] if circuit_rows is not None else None),
+            }
+        )
     return bikes_out
 
 
@@ -335,13 +456,24 @@ def _basis_dict(basis) -> dict:
     """What a bike's settings rest on, with its words: the law, its model's calibration or its own."""
     if basis is None or basis["kind"] == "law":
         text_id = "basis/not-used" if basis is not None and basis.get("not_used") else "basis/law"
-        basis = {"kind": "law", "readings": 0, "sessions": 0, "events": 0, "uncertainty_pct": None,
-                 "density_exponent": None, "density_exponent_sd": None, "offsets_pct": None, "law_kept": False}
+        basis = {
+            "kind": "law",
+            "readings": 0,
+            "sessions": 0,
+            "events": 0,
+            "uncertainty_pct": None,
+            "density_exponent": None,
+            "density_exponent_sd": None,
+            "offsets_pct": None,
+            "law_kept": False,
+        }
         return {**basis, **said(text_id)}
     pct = basis["uncertainty_pct"]
-    params = {"sessions": {"id": "count/sessions", "params": {"count": basis["sessions"]}},
-              "events": {"id": "count/events", "params": {"count": basis["events"]}},
-              "uncertainty_pct": printed(pct, ".1f" if pct < 2 else ".0f")}
+    params = {
+        "sessions": {"id": "count/sessions", "params": {"count": basis["sessions"]}},
+        "events": {"id": "count/events", "params": {"count": basis["events"]}},
+        "uncertainty_pct": printed(pct, ".1f" if pct < 2 else ".0f"),
+    }
     if basis["law_kept"]:
         return {**basis, **said("basis/law-kept", {k: params[k] for k in ("sessions", "events")})}
     return {**basis, **said(f"basis/{basis['kind']}", params)}
@@ -363,17 +495,23 @@ def _session_heights(event, hours, s_count):
             continue
         levels, n_h, base = hours.levels[s], hours.hours_per_level[s], hours.offsets[s]
         shares = profile.shares if profile is not None else (1.0,)
-        densest = int(np.argmax([dry[base + k * n_h: base + (k + 1) * n_h].max() for k in range(len(levels))]))
-        out.append({
-            "source": profile.source if profile is not None else "site",
-            "route": profile.route if profile is not None else None,
-            "elevation_m_min": rounded(min(levels), 1), "elevation_m_max": rounded(max(levels), 1),
-            "set_for_elevation_m": rounded(levels[densest], 1),
-            "weather_elevation_m": rounded(forecast, 1), "lapse_rate_K_per_km": rounded(lapse * 1000.0, 2),
-            "levels": [{"elevation_m": rounded(z, 1), "share": rounded(w, 4)} for z, w in zip(levels, shares)],
-            "profile_m": [[rounded(d, 0), rounded(z, 1)] for d, z in (profile.profile if profile is not None else ())],
-            "densest_level": densest,
-        })
+        densest = int(np.argmax([dry[base + k * n_h : base + (k + 1) * n_h].max() for k in range(len(levels))]))
+        out.append(
+            {
+                "source": profile.source if profile is not None else "site",
+                "route": profile.route if profile is not None else None,
+                "elevation_m_min": rounded(min(levels), 1),
+                "elevation_m_max": rounded(max(levels), 1),
+                "set_for_elevation_m": rounded(levels[densest], 1),
+                "weather_elevation_m": rounded(forecast, 1),
+                "lapse_rate_K_per_km": rounded(lapse * 1000.0, 2),
+                "levels": [{"elevation_m": rounded(z, 1), "share": rounded(w, 4)} for z, w in zip(levels, shares)],
+                "profile_m": [
+                    [rounded(d, 0), rounded(z, 1)] for d, z in (profile.profile if profile is not None else ())
+                ],
+                "densest_level": densest,
+            }
+        )
     return out
 
 
@@ -387,7 +525,9 @@ def _entry_heights(where, rows, hours, refs, main, r, n_h):
     cf_top = np.asarray(hours.air.sae_j1349_cf, float)[rows.index[r, cols]]
     ref_cf = refs.sae_cf[refs.of_bike[rows.bike[r]]]
     return {
-        "source": where["source"], "elevation_m_min": where["elevation_m_min"], "elevation_m_max": where["elevation_m_max"],
+        "source": where["source"],
+        "elevation_m_min": where["elevation_m_min"],
+        "elevation_m_max": where["elevation_m_max"],
         "set_for_elevation_m": where["set_for_elevation_m"],
         "rich_at_highest_pct": rounded(100.0 * np.mean(main.delivered[r] / f_top - 1.0), 1),
         "power_at_highest_pct": rounded(100.0 * np.mean(ref_cf / cf_top), 1),
@@ -400,18 +540,22 @@ def _session_stats(hours, s_count):
     icing = np.asarray(hours.air.icing_risk)
     for s in range(s_count):
         sl = slice(hours.offsets[s], hours.offsets[s + 1])
-        out.append({
-            "t_min": float(t_all[sl].min()), "t_max": float(t_all[sl].max()), "t_start": float(t_all[hours.offsets[s]]),
-            "icing": int(np.max(icing[sl])),
-            "air_temperature_C_min": rounded(t_all[sl].min() - constants.ZERO_CELSIUS, 2),
-            "air_temperature_C_max": rounded(t_all[sl].max() - constants.ZERO_CELSIUS, 2),
-            "station_pressure_hPa_mean": rounded(np.mean(hours.air.station_pressure[sl]) / 100.0, 2),
-            "relative_humidity_pct_mean": rounded(np.mean(hours.air.relative_humidity[sl]) * 100.0, 1),
-            "density_altitude_m_min": rounded(np.min(hours.air.density_altitude[sl]), 0),
-            "density_altitude_m_max": rounded(np.max(hours.air.density_altitude[sl]), 0),
-            "moist_air_density": float(np.mean(hours.air.moist_air_density[sl])),
-            **_j1349_power(hours.air, sl),
-        })
+        out.append(
+            {
+                "t_min": float(t_all[sl].min()),
+                "t_max": float(t_all[sl].max()),
+                "t_start": float(t_all[hours.offsets[s]]),
+                "icing": int(np.max(icing[sl])),
+                "air_temperature_C_min": rounded(t_all[sl].min() - constants.ZERO_CELSIUS, 2),
+                "air_temperature_C_max": rounded(t_all[sl].max() - constants.ZERO_CELSIUS, 2),
+                "station_pressure_hPa_mean": rounded(np.mean(hours.air.station_pressure[sl]) / 100.0, 2),
+                "relative_humidity_pct_mean": rounded(np.mean(hours.air.relative_humidity[sl]) * 100.0, 1),
+                "density_altitude_m_min": rounded(np.min(hours.air.density_altitude[sl]), 0),
+                "density_altitude_m_max": rounded(np.max(hours.air.density_altitude[sl]), 0),
+                "moist_air_density": float(np.mean(hours.air.moist_air_density[sl])),
+                **_j1349_power(hours.air, sl),
+            }
+        )
     return out
 
 
@@ -456,13 +600,18 @@ def _jet_columns(plan, steps, rows) -> dict:
     return {
         "current": [jet_number(v) for v in plan.current.tolist()],
         "recommended": [jet_number(v) for v in plan.recommended.tolist()],
-        "ideal": rounded(plan.ideal_mean, 1), "ideal_min": rounded(plan.ideal_min, 1),
-        "ideal_max": rounded(plan.ideal_max, 1), "steps": steps.tolist(),
+        "ideal": rounded(plan.ideal_mean, 1),
+        "ideal_min": rounded(plan.ideal_min, 1),
+        "ideal_max": rounded(plan.ideal_max, 1),
+        "steps": steps.tolist(),
         "fitted_lean": (rows.largest - 1.0).tolist(),  # the proven jet's leanest deviation per session
         # ... and over all the bike's sessions: the warning's words are the same in every session
-        "fitted_lean_event": np.repeat((rows.largest - 1.0).reshape(rows.n_bikes, -1).max(axis=1),
-                                       rows.n_sessions).tolist(),
-        "unsafe": plan.unsafe.tolist(), "out_of_family": plan.out_of_family.tolist(), "too_wide": plan.too_wide.tolist(),
+        "fitted_lean_event": np.repeat(
+            (rows.largest - 1.0).reshape(rows.n_bikes, -1).max(axis=1), rows.n_sessions
+        ).tolist(),
+        "unsafe": plan.unsafe.tolist(),
+        "out_of_family": plan.out_of_family.tolist(),
+        "too_wide": plan.too_wide.tolist(),
     }
 
 
@@ -478,54 +627,109 @@ def _jet_dict(fleet, plan, cols, r, kind, sources, has_stock, session_name, foun
     words = {"part": kind, "size": str(rec), "family": family}
     family_sizes = {"smallest": str(jet_number(sizes[0])), "largest": str(jet_number(sizes[-1]))}
     if source == "shelf-or-order" and fitted_lean > LEAN_GUARD:
-        found.append(warning("no-safe-jet", "no-safe-jet/shelf-or-order",
-                             {**words, "fitted": str(cur), "lean_pct": printed(worst * 100, ".0f")}))
+        found.append(
+            warning(
+                "no-safe-jet",
+                "no-safe-jet/shelf-or-order",
+                {**words, "fitted": str(cur), "lean_pct": printed(worst * 100, ".0f")},
+            )
+        )
     if source == "order":
         if fitted_lean > LEAN_GUARD:
-            found.append(warning("no-safe-jet", "no-safe-jet/order",
-                                 {**words, "fitted": str(cur), "lean_pct": printed(worst * 100, ".0f")}))
+            found.append(
+                warning(
+                    "no-safe-jet",
+                    "no-safe-jet/order",
+                    {**words, "fitted": str(cur), "lean_pct": printed(worst * 100, ".0f")},
+                )
+            )
         else:
             found.append(warning("stock-shortage", params={**words, "fitted": str(cur)}))
     if cols["unsafe"][r]:
-        found.append(warning("no-safe-jet", "no-safe-jet/none-rich-enough",
-                             {**words, **family_sizes, "session": session_name, "about": str(cols["ideal_max"][r])}))
+        found.append(
+            warning(
+                "no-safe-jet",
+                "no-safe-jet/none-rich-enough",
+                {**words, **family_sizes, "session": session_name, "about": str(cols["ideal_max"][r])},
+            )
+        )
     elif cols["out_of_family"][r]:
-        found.append(warning("ideal-outside-family", params={
-            **words, **family_sizes, "ideal_low": str(cols["ideal_min"][r]), "ideal_high": str(cols["ideal_max"][r])}))
+        found.append(
+            warning(
+                "ideal-outside-family",
+                params={
+                    **words,
+                    **family_sizes,
+                    "ideal_low": str(cols["ideal_min"][r]),
+                    "ideal_high": str(cols["ideal_max"][r]),
+                },
+            )
+        )
     if cols["too_wide"][r] and kind == "main_jet":
         found.append(warning("window-too-wide", params={"session": session_name, "size": str(rec)}))
     steps = cols["steps"][r]
     direction, change_id, change_params = _jet_words(steps)
     change = said(change_id, change_params, key="change")
     return {
-        "family": family, "coding": plan.coding[r], "current": cur, "ideal": cols["ideal"][r],
+        "family": family,
+        "coding": plan.coding[r],
+        "current": cur,
+        "ideal": cols["ideal"][r],
         "ideal_range": [cols["ideal_min"][r], cols["ideal_max"][r]],
-        "recommended": rec, "in_stock": (at_hand if has_stock else None),
+        "recommended": rec,
+        "in_stock": (at_hand if has_stock else None),
         "stock_choice": (rec if at_hand else cur if fitted_lean <= LEAN_GUARD else None) if has_stock else None,
-        "steps": steps, "direction": direction, **change,
-        "source": (_source_dict(put_in.source, put_in.origin, put_in.waits) if put_in is not None
-                   else _source_dict("fitted", None)),
+        "steps": steps,
+        "direction": direction,
+        **change,
+        "source": (
+            _source_dict(put_in.source, put_in.origin, put_in.waits)
+            if put_in is not None
+            else _source_dict("fitted", None)
+        ),
     }
 
 
 def _clip_dict(clip, r, st, found):
     if clip.mode[r] == MODE_NONE:
         found.append(warning("no-needle"))
-        return {"needle": st.needle, "current": st.clip, "recommended": st.clip, "steps": 0, "direction": "no change",
-                **said("setting/clip-not-planned", key="change"), "assumed_geometry": True, "grooves": None}
+        return {
+            "needle": st.needle,
+            "current": st.clip,
+            "recommended": st.clip,
+            "steps": 0,
+            "direction": "no change",
+            **said("setting/clip-not-planned", key="change"),
+            "assumed_geometry": True,
+            "grooves": None,
+        }
     c_now, c_new = int(clip.current[r]), int(clip.recommended[r])
     d = c_new - c_now
     if d == 0:
         direction, change = "no change", said("setting/no-change", key="change")
     else:
         direction = "richer" if d > 0 else "leaner"
-        change = said("setting/clip-lower" if d > 0 else "setting/clip-higher",
-                      {"count": abs(d), "from": c_now, "to": c_new}, key="change")
+        change = said(
+            "setting/clip-lower" if d > 0 else "setting/clip-higher",
+            {"count": abs(d), "from": c_now, "to": c_new},
+            key="change",
+        )
     if clip.mode[r] == MODE_ASSUMED:
-        found.append(warning("assumed-needle-geometry",
-                             params={"groove_area_step": int(circuits.ASSUMED_GROOVE_AREA_STEP * 100)}))
-    return {"needle": st.needle, "current": c_now, "recommended": c_new, "steps": d, "direction": direction,
-            **change, "assumed_geometry": bool(clip.mode[r] == MODE_ASSUMED), "grooves": int(clip.grooves[r])}
+        found.append(
+            warning(
+                "assumed-needle-geometry", params={"groove_area_step": int(circuits.ASSUMED_GROOVE_AREA_STEP * 100)}
+            )
+        )
+    return {
+        "needle": st.needle,
+        "current": c_now,
+        "recommended": c_new,
+        "steps": d,
+        "direction": direction,
+        **change,
+        "assumed_geometry": bool(clip.mode[r] == MODE_ASSUMED),
+        "grooves": int(clip.grooves[r]),
+    }
 
 
 def _screw_dict(idle, r, st, found):
@@ -536,17 +740,29 @@ def _screw_dict(idle, r, st, found):
     else:
         richer = (ch > 0) == (ms.kind == "fuel")
         s_dir = "richer" if richer else "leaner"
-        s_change = said("setting/screw-out" if ch > 0 else "setting/screw-in",
-                        {"screw": ms.kind, "by_quarter_turns": _quarters(ch), "direction": s_dir}, key="change")
-    usable = {"usable_low_turns": printed(ms.usable_range[0], "g"), "usable_high_turns": printed(ms.usable_range[1], "g")}
+        s_change = said(
+            "setting/screw-out" if ch > 0 else "setting/screw-in",
+            {"screw": ms.kind, "by_quarter_turns": _quarters(ch), "direction": s_dir},
+            key="change",
+        )
+    usable = {
+        "usable_low_turns": printed(ms.usable_range[0], "g"),
+        "usable_high_turns": printed(ms.usable_range[1], "g"),
+    }
     if idle.pilot.recommended[r] != idle.pilot.current[r]:
         found.append(warning("screw-out-of-range", params={"screw": ms.kind, **usable}))
     if ms.range_assumed:
         found.append(warning("assumed-screw-range", params=usable))
-    return {"kind": ms.kind, "current_turns": round(float(idle.screw_now[r]), 2),
-            "recommended_turns": round(float(idle.screw_new[r]), 2), "change_turns": round(ch, 2), "direction": s_dir,
-            **s_change, "usable_range": [round(float(ms.usable_range[0]), 2), round(float(ms.usable_range[1]), 2)],
-            "range_assumed": bool(ms.range_assumed)}
+    return {
+        "kind": ms.kind,
+        "current_turns": round(float(idle.screw_now[r]), 2),
+        "recommended_turns": round(float(idle.screw_new[r]), 2),
+        "change_turns": round(ch, 2),
+        "direction": s_dir,
+        **s_change,
+        "usable_range": [round(float(ms.usable_range[0]), 2), round(float(ms.usable_range[1]), 2)],
+        "range_assumed": bool(ms.range_assumed),
+    }
 
 
 def _lean_check(curves, r, found, idle, clip, s_count):
@@ -556,7 +772,7 @@ def _lean_check(curves, r, found, idle, clip, s_count):
     if not curves["leanest_by_throttle"][r].max() > LEAN_GUARD + LEAN_NOTICE_ROUND_OFF:
         return
     first = r - r % s_count
-    lean = curves["leanest_by_throttle"][first:first + s_count].max(axis=0)  # (T,) over the bike's sessions
+    lean = curves["leanest_by_throttle"][first : first + s_count].max(axis=0)  # (T,) over the bike's sessions
     bad = lean > LEAN_GUARD + LEAN_NOTICE_ROUND_OFF
     weights = circuits.circuit_weights(THROTTLE[bad])  # which circuit meters most there
     circuit = int(np.argmax(weights.sum(axis=0)))
@@ -568,25 +784,46 @@ def _lean_check(curves, r, found, idle, clip, s_count):
         cure = "cure/richest-groove" if clip.unsafe[r] else "cure/clip-lower"
     else:
         cure = "cure/main-jet"
-    found.append(warning("predicted-lean", params={"lean_pct": printed(float(lean.max()) * 100, ".0f"),
-                                                   "throttle": _throttle_span(bad), "cure": {"id": cure, "params": {}}}))
+    found.append(
+        warning(
+            "predicted-lean",
+            params={
+                "lean_pct": printed(float(lean.max()) * 100, ".0f"),
+                "throttle": _throttle_span(bad),
+                "cure": {"id": cure, "params": {}},
+            },
+        )
+    )
 
 
 def _weather_notes(stat, model, found):
     if stat["icing"] >= ICING_WARN_LEVEL:
         found.append(warning("icing-risk"))
     if stat["t_start"] < COLD_START_K:
-        found.append(warning("cold-start", "cold-start/accelerator-pump" if model.carburetor.accelerator_pump else "cold-start",
-                             {"start_C": printed(stat["t_start"] - constants.ZERO_CELSIUS, ".1f")}))
+        found.append(
+            warning(
+                "cold-start",
+                "cold-start/accelerator-pump" if model.carburetor.accelerator_pump else "cold-start",
+                {"start_C": printed(stat["t_start"] - constants.ZERO_CELSIUS, ".1f")},
+            )
+        )
     if stat["t_max"] > HOT_FUEL_K:
-        found.append(warning("hot-fuel", params={"t_max_C": printed(stat["t_max"] - constants.ZERO_CELSIUS, ".1f"), "hot_fuel_C": HOT_FUEL_C}))
+        found.append(
+            warning(
+                "hot-fuel",
+                params={"t_max_C": printed(stat["t_max"] - constants.ZERO_CELSIUS, ".1f"), "hot_fuel_C": HOT_FUEL_C},
+            )
+        )
 
 
 def _checks(st, model, stat):
     """The checks of a session: objects ``{"text", "id", "params"}``."""
-    checks = [said("check/float-level", {"float_level_mm": printed(st.float_level * 1000.0, ".1f")})
-              if st.float_level is not None else said("check/float-level-unknown"),
-              said("check/plug")]
+    checks = [
+        said("check/float-level", {"float_level_mm": printed(st.float_level * 1000.0, ".1f")})
+        if st.float_level is not None
+        else said("check/float-level-unknown"),
+        said("check/plug"),
+    ]
     if model.carburetor.accelerator_pump:
         checks.append(said("check/accelerator-pump"))
     if stat["t_min"] < CHOKE_K:
@@ -603,16 +840,26 @@ def _work_orders(fleet, rows, main, idle, clip, allocation, sessions, bike_ids):
     b_count = rows.n_bikes
     shape = (b_count, s_count)
     proven = {
-        "main_jet": main.current.reshape(shape)[:, 0], "pilot_jet": idle.pilot.current.reshape(shape)[:, 0],
-        "clip": clip.current.reshape(shape)[:, 0], "mixture_screw": idle.screw_now.reshape(shape)[:, 0],
+        "main_jet": main.current.reshape(shape)[:, 0],
+        "pilot_jet": idle.pilot.current.reshape(shape)[:, 0],
+        "clip": clip.current.reshape(shape)[:, 0],
+        "mixture_screw": idle.screw_now.reshape(shape)[:, 0],
     }
-    planned = {"main_jet": main.recommended.reshape(shape), "pilot_jet": idle.pilot.recommended.reshape(shape),
-               "clip": clip.recommended.reshape(shape), "mixture_screw": idle.screw_new.reshape(shape)}
+    planned = {
+        "main_jet": main.recommended.reshape(shape),
+        "pilot_jet": idle.pilot.recommended.reshape(shape),
+        "clip": clip.recommended.reshape(shape),
+        "mixture_screw": idle.screw_new.reshape(shape),
+    }
     screw_kind = [fleet.bikes[b].settings.mixture_screw.kind for b in range(b_count)]
     orders = []
     for t in range(s_count + 1):
         if t == 0:
-            label, before, after = said("order/before", {"session": sessions[0].name}, key="label"), None, sessions[0].name
+            label, before, after = (
+                said("order/before", {"session": sessions[0].name}, key="label"),
+                None,
+                sessions[0].name,
+            )
         elif t == s_count:
             label, before, after = said("order/after-event", key="label"), sessions[-1].name, None
         else:
@@ -632,8 +879,16 @@ def _work_orders(fleet, rows, main, idle, clip, allocation, sessions, bike_ids):
                 changes.append(_change(part, old, new, jet_moves.get((b, part)), screw_kind[b]))
             if changes:
                 bikes.append({"bike": bike_ids[b], "minutes": sum(c["minutes"] for c in changes), "changes": changes})
-        orders.append({"transition": t, **label, "after_session": before, "before_session": after,
-                       "minutes": sum(x["minutes"] for x in bikes), "bikes": bikes})
+        orders.append(
+            {
+                "transition": t,
+                **label,
+                "after_session": before,
+                "before_session": after,
+                "minutes": sum(x["minutes"] for x in bikes),
+                "bikes": bikes,
+            }
+        )
     return orders
 
 
@@ -643,8 +898,11 @@ def _change(part, old, new, move, screw_kind):
         direction = "richer" if new > old else "leaner"
         source = _source_dict(move.source, move.origin, move.waits) if move is not None else None
         words = {"part": part, "from": str(old_v), "to": str(new_v), "direction": direction}
-        text = said("work/jet-from", {**words, "source": {k: source[k] for k in ("id", "params")}}) if source else \
-            said("work/jet", words)
+        text = (
+            said("work/jet-from", {**words, "source": {k: source[k] for k in ("id", "params")}})
+            if source
+            else said("work/jet", words)
+        )
     elif part == "clip":
         old_v, new_v = int(old), int(new)
         direction = "richer" if new > old else "leaner"
@@ -655,11 +913,24 @@ def _change(part, old, new, move, screw_kind):
         turned = new - old
         direction = "richer" if (turned > 0) == (screw_kind == "fuel") else "leaner"
         source = None
-        text = said("work/screw-out" if turned > 0 else "work/screw-in",
-                    {"screw": screw_kind, "by_quarter_turns": _quarters(turned), "to_turns": printed(new_v, "g"),
-                     "direction": direction})
-    return {"part": part, "from": old_v, "to": new_v, "direction": direction, "minutes": WORK_MINUTES[part],
-            "source": source, **text}
+        text = said(
+            "work/screw-out" if turned > 0 else "work/screw-in",
+            {
+                "screw": screw_kind,
+                "by_quarter_turns": _quarters(turned),
+                "to_turns": printed(new_v, "g"),
+                "direction": direction,
+            },
+        )
+    return {
+        "part": part,
+        "from": old_v,
+        "to": new_v,
+        "direction": direction,
+        "minutes": WORK_MINUTES[part],
+        "source": source,
+        **text,
+    }
 
 
 def _weather_rows(event, hours, refs, zone):
@@ -671,8 +942,13 @@ def _weather_rows(event, hours, refs, zone):
     with pywarnings.catch_warnings():  # the same air as the session hours: warned there already
         pywarnings.simplefilter("ignore", air.OutOfRangeWarning)
         w_air = air_at(event.weather, event.forecast_elevation, wt[idx], str(event.source or event.name))
-    w_factor = metering.area_factor(w_air.dry_air_density, refs.dry[refs.fleet], w_air.moist_air_density,
-                                    refs.moist[refs.fleet], density_exponent=constants.METERING_LAW_EXPONENT)
+    w_factor = metering.area_factor(
+        w_air.dry_air_density,
+        refs.dry[refs.fleet],
+        w_air.moist_air_density,
+        refs.moist[refs.fleet],
+        density_exponent=constants.METERING_LAW_EXPONENT,
+    )
     fields = _air_fields(w_air)
     fac, cf = rounded(w_factor, 4), rounded(w_air.sae_j1349_cf, 4)
     icing = np.asarray(w_air.icing_risk).astype(int).tolist()

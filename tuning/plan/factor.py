@@ -29,8 +29,16 @@ def metered_liquid(fuel_record, premix_ratio):
     return float(afr), float(density)
 
 
-def required_area_factor(event_air, reference_air, event_fuel, reference_fuel, *, premix_ratio=None,
-                         reference_premix_ratio=None, density_exponent=constants.METERING_LAW_EXPONENT):
+def required_area_factor(
+    event_air,
+    reference_air,
+    event_fuel,
+    reference_fuel,
+    *,
+    premix_ratio=None,
+    reference_premix_ratio=None,
+    density_exponent=constants.METERING_LAW_EXPONENT,
+):
     """Area factor that keeps the reference mixture (thin wrapper of :func:`tuning.metering.area_factor`).
 
     Parameters
@@ -55,8 +63,17 @@ def required_area_factor(event_air, reference_air, event_fuel, reference_fuel, *
         reference_premix_ratio = premix_ratio
     afr_e, rho_e = metered_liquid(event_fuel, premix_ratio)
     afr_r, rho_r = metered_liquid(reference_fuel, reference_premix_ratio)
-    return area_factor(event_air.dry_air_density, reference_air.dry_air_density, event_air.moist_air_density,
-                       reference_air.moist_air_density, rho_e, rho_r, afr_e, afr_r, density_exponent)
+    return area_factor(
+        event_air.dry_air_density,
+        reference_air.dry_air_density,
+        event_air.moist_air_density,
+        reference_air.moist_air_density,
+        rho_e,
+        rho_r,
+        afr_e,
+        afr_r,
+        density_exponent,
+    )
 
 
 @dataclass(frozen=True)
@@ -76,7 +93,9 @@ def _fuel(fleet, name, where):
         return fleet.fuels[name]
     except KeyError:
         known = ", ".join(sorted(fleet.fuels)) or "none"
-        raise UserError(f"{where}: fuel {name!r} is not in the fleet's fuels (known: {known}); add it or fix the name") from None
+        raise UserError(
+            f"{where}: fuel {name!r} is not in the fleet's fuels (known: {known}); add it or fix the name"
+        ) from None
 
 
 def metering(fleet, event) -> Metering:
@@ -135,9 +154,16 @@ def rows_of(fleet, hours, refs, meter) -> Rows:
     dry = np.asarray(hours.air.dry_air_density, float)[index]
     moist = np.asarray(hours.air.moist_air_density, float)[index]
     required = area_factor(
-        dry, refs.dry[ref][:, None], moist, refs.moist[ref][:, None],
-        meter.rho_event[bike][:, None], meter.rho_reference[bike][:, None],
-        meter.afr_event[bike][:, None], meter.afr_reference[bike][:, None], meter.exponent[bike][:, None])
+        dry,
+        refs.dry[ref][:, None],
+        moist,
+        refs.moist[ref][:, None],
+        meter.rho_event[bike][:, None],
+        meter.rho_reference[bike][:, None],
+        meter.afr_event[bike][:, None],
+        meter.afr_reference[bike][:, None],
+        meter.exponent[bike][:, None],
+    )
     required = np.where(valid, required, np.nan)
     weight = None
     if hours.weighted:

@@ -53,8 +53,10 @@ def start_from_fitted(plan: dict, fleet, fitted: dict) -> dict:
         if bike is None or not entries:
             continue
         now = _fitted_values(bike, f)
-        lean = {kind: _fitted_lean(entries, _delivered(entries[0]["settings"][kind], bike, kind, now[kind]))
-                for kind in _JETS}
+        lean = {
+            kind: _fitted_lean(entries, _delivered(entries[0]["settings"][kind], bike, kind, now[kind]))
+            for kind in _JETS
+        }
         for e in entries:
             for kind in _JETS:
                 _rebase_jet(e["settings"][kind], now[kind], fleet.jet_families[e["settings"][kind]["family"]].sizes)
@@ -67,16 +69,19 @@ def start_from_fitted(plan: dict, fleet, fitted: dict) -> dict:
                 b["notices"].append(warning("fitted-not-proven", params={"event": f.event}))
                 b["danger"] = any(w["severity"] == "danger" for e in entries for w in e["warnings"])
     plan["warnings_count"] = sum(len(e["warnings"]) for e in plan["entries"]) + sum(
-        len(b["notices"]) for b in plan["bikes"])
+        len(b["notices"]) for b in plan["bikes"]
+    )
     return plan
 
 
 def _fitted_values(bike, f) -> dict:
     s = bike.settings
-    return {"main_jet": s.main_jet if f.main_jet is None else float(f.main_jet),
-            "pilot_jet": s.pilot_jet if f.pilot_jet is None else float(f.pilot_jet),
-            "clip": s.clip if f.clip is None else int(f.clip),
-            "mixture_screw": s.mixture_screw.turns if f.mixture_screw_turns is None else float(f.mixture_screw_turns)}
+    return {
+        "main_jet": s.main_jet if f.main_jet is None else float(f.main_jet),
+        "pilot_jet": s.pilot_jet if f.pilot_jet is None else float(f.pilot_jet),
+        "clip": s.clip if f.clip is None else int(f.clip),
+        "mixture_screw": s.mixture_screw.turns if f.mixture_screw_turns is None else float(f.mixture_screw_turns),
+    }
 
 
 def _delivered(setting: dict, bike, kind: str, value: float) -> float:
@@ -112,8 +117,11 @@ def _rebase_clip(s: dict, groove) -> None:
         direction, change = "no change", said("setting/no-change", key="change")
     else:
         direction = "richer" if d > 0 else "leaner"
-        change = said("setting/clip-lower" if d > 0 else "setting/clip-higher",
-                      {"count": abs(d), "from": int(groove), "to": int(s["recommended"])}, key="change")
+        change = said(
+            "setting/clip-lower" if d > 0 else "setting/clip-higher",
+            {"count": abs(d), "from": int(groove), "to": int(s["recommended"])},
+            key="change",
+        )
     s.update({"current": int(groove), "steps": d, "direction": direction, **change})
 
 
@@ -123,8 +131,11 @@ def _rebase_screw(s: dict, turns: float) -> None:
         direction, change = "no change", said("setting/no-change", key="change")
     else:
         direction = "richer" if (ch > 0) == (s["kind"] == "fuel") else "leaner"
-        change = said("setting/screw-out" if ch > 0 else "setting/screw-in",
-                      {"screw": s["kind"], "by_quarter_turns": _quarters(ch), "direction": direction}, key="change")
+        change = said(
+            "setting/screw-out" if ch > 0 else "setting/screw-in",
+            {"screw": s["kind"], "by_quarter_turns": _quarters(ch), "direction": direction},
+            key="change",
+        )
     s.update({"current_turns": round(float(turns), 2), "change_turns": ch, "direction": direction, **change})
 
 
@@ -137,8 +148,9 @@ def _rewarn(warnings: list[dict], now: dict, lean: dict) -> list[dict]:
         if kind in _JETS and "fitted" in w["params"]:
             params = {**w["params"], "fitted": str(jet_number(now[kind]))}
             if w["code"] == "stock-shortage" and lean[kind] > LEAN_GUARD:
-                w = warning("no-safe-jet", "no-safe-jet/order",
-                            {**params, "lean_pct": printed(lean[kind] * 100, ".0f")})
+                w = warning(
+                    "no-safe-jet", "no-safe-jet/order", {**params, "lean_pct": printed(lean[kind] * 100, ".0f")}
+                )
             elif w["code"] == "no-safe-jet":
                 w = warning("no-safe-jet", w["id"], {**params, "lean_pct": printed(lean[kind] * 100, ".0f")})
             else:
@@ -182,8 +194,11 @@ def _change(part, old, new, source, screw_kind) -> dict:
         old_v, new_v = jet_number(old), jet_number(new)
         direction = "richer" if new > old else "leaner"
         words = {"part": part, "from": str(old_v), "to": str(new_v), "direction": direction}
-        text = said("work/jet-from", {**words, "source": {k: source[k] for k in ("id", "params")}}) if source else \
-            said("work/jet", words)
+        text = (
+            said("work/jet-from", {**words, "source": {k: source[k] for k in ("id", "params")}})
+            if source
+            else said("work/jet", words)
+        )
     elif part == "clip":
         old_v, new_v = int(old), int(new)
         direction = "richer" if new > old else "leaner"
@@ -193,8 +208,21 @@ def _change(part, old, new, source, screw_kind) -> dict:
         turned = new - old
         direction = "richer" if (turned > 0) == (screw_kind == "fuel") else "leaner"
         source = None
-        text = said("work/screw-out" if turned > 0 else "work/screw-in",
-                    {"screw": screw_kind, "by_quarter_turns": _quarters(turned), "to_turns": printed(new_v, "g"),
-                     "direction": direction})
-    return {"part": part, "from": old_v, "to": new_v, "direction": direction, "minutes": WORK_MINUTES[part],
-            "source": source, **text}
+        text = said(
+            "work/screw-out" if turned > 0 else "work/screw-in",
+            {
+                "screw": screw_kind,
+                "by_quarter_turns": _quarters(turned),
+                "to_turns": printed(new_v, "g"),
+                "direction": direction,
+            },
+        )
+    return {
+        "part": part,
+        "from": old_v,
+        "to": new_v,
+        "direction": direction,
+        "minutes": WORK_MINUTES[part],
+        "source": source,
+        **text,
+    }

@@ -97,9 +97,11 @@ def air_for_conditions(conditions):
     p_station = air.station_pressure(
         conditions.pressure, conditions.pressure_kind, conditions.elevation, conditions.air_temperature
     )
-    humidity = ({"relative_humidity": np.atleast_1d(float(conditions.relative_humidity))}
-                if conditions.relative_humidity is not None
-                else {"dew_point": np.atleast_1d(float(conditions.dew_point))})
+    humidity = (
+        {"relative_humidity": np.atleast_1d(float(conditions.relative_humidity))}
+        if conditions.relative_humidity is not None
+        else {"dew_point": np.atleast_1d(float(conditions.dew_point))}
+    )
     return air.air_state(np.atleast_1d(float(conditions.air_temperature)), np.atleast_1d(p_station), **humidity)
 
 
@@ -154,9 +156,18 @@ def event_hours(event) -> EventHours:
     lapse = constants.STANDARD_LAPSE_RATE if event.lapse_rate is None else event.lapse_rate
     where = str(event.source or event.name)
     state = air_at_heights(event.weather, event.forecast_elevation, times, elevation, lapse, where)
-    return EventHours(times, offsets, index, valid, state, elevation, weight,
-                      tuple(tuple(z.tolist()) for z, _ in profiles), tuple(len(h) for h in hours),
-                      not bool(np.all(weight == 1.0)))
+    return EventHours(
+        times,
+        offsets,
+        index,
+        valid,
+        state,
+        elevation,
+        weight,
+        tuple(tuple(z.tolist()) for z, _ in profiles),
+        tuple(len(h) for h in hours),
+        not bool(np.all(weight == 1.0)),
+    )
 
 
 @dataclass(frozen=True)
@@ -191,7 +202,9 @@ def references(fleet) -> References:
     of_bike = np.array([find(b.reference) for b in fleet.bikes], np.int64)
     states = [air_for_conditions(c) for c in conditions]
     return References(
-        conditions=conditions, of_bike=of_bike, fleet=fleet_id,
+        conditions=conditions,
+        of_bike=of_bike,
+        fleet=fleet_id,
         dry=np.array([float(s.dry_air_density[0]) for s in states]),
         moist=np.array([float(s.moist_air_density[0]) for s in states]),
         sae_cf=np.array([float(s.sae_j1349_cf[0]) for s in states]),

@@ -50,7 +50,9 @@ def _screw_positions(screws) -> np.ndarray:
         margin = (hi - lo) * (1.0 - SCREW_INNER_SHARE) / 2.0
         first = np.ceil((lo + margin) / _QUARTER - TURNS_NOISE) * _QUARTER
         inner = np.arange(first, hi - margin + TURNS_NOISE, _QUARTER)
-        fitted = [ms.turns] if lo - TURNS_NOISE <= ms.turns <= hi + TURNS_NOISE else []  # outside its range: brought back
+        fitted = (
+            [ms.turns] if lo - TURNS_NOISE <= ms.turns <= hi + TURNS_NOISE else []
+        )  # outside its range: brought back
         positions = np.unique(np.round(np.append(inner, fitted), 4))
         rows.append(positions if ms.kind == "fuel" else positions[::-1])  # richest last
     width = max((len(r) for r in rows), default=1)
@@ -82,14 +84,18 @@ def plan_idle(fleet, rows, settings, penalties) -> IdlePlan:
         positions = _screw_positions([settings[i].mixture_screw for i in first])  # (b, Q)
         kinds = np.array([settings[i].mixture_screw.kind for i in first])
         pilot_factor = metering.area_factor_between_jets(pilot.current[first][:, None], cand_size, fam.coding)  # (b, P)
-        screw_factor = circuits.mixture_screw_area_factor(positions - screw_now[first][:, None], kinds[:, None])  # (b, Q)
+        screw_factor = circuits.mixture_screw_area_factor(
+            positions - screw_now[first][:, None], kinds[:, None]
+        )  # (b, Q)
         delivered = pilot_factor[:, :, None] * screw_factor[:, None, :]  # (b, P, Q)
         ok = exists[:, :, None] & np.isfinite(positions)[:, None, :]
         safe_value = np.where(ok, delivered, 1.0)
         per_row = np.repeat(safe_value, s_count, axis=0).reshape(len(r), -1)  # rows of a bike share candidates
         cost = rows.window.rms(per_row, r)
         lean = rows.window.leanest(per_row, r)
-        cost = np.where((lean <= LEAN_GUARD + GUARD_ROUND_OFF) & np.repeat(ok, s_count, axis=0).reshape(len(r), -1), cost, np.inf)
+        cost = np.where(
+            (lean <= LEAN_GUARD + GUARD_ROUND_OFF) & np.repeat(ok, s_count, axis=0).reshape(len(r), -1), cost, np.inf
+        )
         # where nothing is safe in a session, the richest candidate that exists is taken (and flagged):
         # the largest pilot within reach with the screw at its richest position
         cost = cost.reshape(len(r), len(offsets), positions.shape[1])
@@ -101,9 +107,14 @@ def plan_idle(fleet, rows, settings, penalties) -> IdlePlan:
             idx = np.flatnonzero(nothing)
             cost[idx, rich_p[rows_b[idx]], rich_q[rows_b[idx]]] = _FALLBACK_COST
         start_pilot = np.where(sizes[fitted] == pilot.current[first], PILOT_REACH, -1)  # fitted not a size: -1
-        p_choice, q_choice, _ = idle_sequence(cost.reshape(b, s_count, len(offsets), positions.shape[1]),
-                                                start_pilot, screw_now[first], positions,
-                                                penalties["pilot_jet"], penalties["mixture_screw"])
+        p_choice, q_choice, _ = idle_sequence(
+            cost.reshape(b, s_count, len(offsets), positions.shape[1]),
+            start_pilot,
+            screw_now[first],
+            positions,
+            penalties["pilot_jet"],
+            penalties["mixture_screw"],
+        )
         bikes = np.repeat(np.arange(b), s_count)
         pc, qc = p_choice.ravel(), q_choice.ravel()
         pilot.index[r] = cand[bikes, pc]

@@ -26,7 +26,9 @@ def family_of(fleet, name, where):
         family = fleet.jet_families[name]
     except KeyError:
         known = ", ".join(sorted(fleet.jet_families)) or "none"
-        raise UserError(f"{where}: jet family {name!r} is not in the fleet (known: {known}); add it or fix the name") from None
+        raise UserError(
+            f"{where}: jet family {name!r} is not in the fleet (known: {known}); add it or fix the name"
+        ) from None
     if len(family.sizes) == 0:
         raise UserError(f"{where}: jet family {name!r} has no sizes; list its sizes")
     return family
@@ -35,7 +37,11 @@ def family_of(fleet, name, where):
 def nearest_index(sizes, values) -> np.ndarray:
     """Index of the nearest of the ascending ``sizes`` for each of ``values`` (ties to the smaller)."""
     sizes = np.asarray(sizes, float)
-    j = np.clip(np.searchsorted(sizes, values), 1, max(len(sizes) - 1, 1)) if len(sizes) > 1 else np.zeros(len(values), int)
+    j = (
+        np.clip(np.searchsorted(sizes, values), 1, max(len(sizes) - 1, 1))
+        if len(sizes) > 1
+        else np.zeros(len(values), int)
+    )
     if len(sizes) == 1:
         return j
     return np.where(np.abs(sizes[j - 1] - values) <= np.abs(sizes[j] - values), j - 1, j)
@@ -95,8 +101,20 @@ def jet_ideals(fleet, rows, settings, family_attr, size_attr) -> JetPlan:
         hi = np.searchsorted(sizes, ideal_max[r])
         too_wide[r] = (hi - lo) > 1
         index[r] = nearest_index(sizes, current[r])
-    return JetPlan(family, coding, current, current.copy(), index, np.zeros(n, bool), ideal_mean, ideal_min,
-                   ideal_max, out_of_family, too_wide, np.ones(n))
+    return JetPlan(
+        family,
+        coding,
+        current,
+        current.copy(),
+        index,
+        np.zeros(n, bool),
+        ideal_mean,
+        ideal_min,
+        ideal_max,
+        out_of_family,
+        too_wide,
+        np.ones(n),
+    )
 
 
 def jet_factor(plan: JetPlan) -> np.ndarray:

@@ -32,8 +32,20 @@ from functools import cache, lru_cache
 
 from tuning.display import N_, Display
 
-__all__ = ["CODES", "SEVERITIES", "ICING_RISK_NAMES", "BIKE_CODES", "TEXTS", "DOCUMENT", "warning", "said", "say", "say_item",
-           "printed", "severity_rank"]
+__all__ = [
+    "CODES",
+    "SEVERITIES",
+    "ICING_RISK_NAMES",
+    "BIKE_CODES",
+    "TEXTS",
+    "DOCUMENT",
+    "warning",
+    "said",
+    "say",
+    "say_item",
+    "printed",
+    "severity_rank",
+]
 
 SEVERITIES = (N_("danger"), N_("action"), N_("note"))
 
@@ -43,15 +55,24 @@ ICING_RISK_NAMES = (N_("none"), N_("light"), N_("moderate"), N_("serious"))
 
 #: code -> (severity, what it means). Stable: the CSV's ``warnings`` column carries the codes.
 CODES = {
-    "no-safe-jet": ("danger", N_("nothing at hand is rich enough: the size to fit must be ordered or found before riding hard")),
+    "no-safe-jet": (
+        "danger",
+        N_("nothing at hand is rich enough: the size to fit must be ordered or found before riding hard"),
+    ),
     "predicted-lean": ("danger", N_("the predicted mixture is leaner than the target band at some opening and hour")),
     "stock-shortage": ("action", N_("the size to fit is neither on the shelf nor coming off another bike: order it")),
     "ideal-outside-family": ("action", N_("the ideal size lies beyond the largest or smallest size of the jet family")),
-    "screw-out-of-range": ("action", N_("the mixture screw would leave the middle of its range: the pilot jet changes instead")),
+    "screw-out-of-range": (
+        "action",
+        N_("the mixture screw would leave the middle of its range: the pilot jet changes instead"),
+    ),
     "cold-start": ("action", N_("cold morning: choke and a full warm-up before load")),
     "hot-fuel": ("action", N_("hot session: fuel may percolate or vapour-lock; keep the fuel cool and shaded")),
     "factor-out-of-range": ("note", N_("the required jet-area factor lies outside the range the method is meant for")),
-    "window-too-wide": ("note", N_("conditions change so much within the session that one setting does not fit it all")),
+    "window-too-wide": (
+        "note",
+        N_("conditions change so much within the session that one setting does not fit it all"),
+    ),
     "icing-risk": ("note", N_("cool, humid air: carburetor icing is possible")),
     "assumed-needle-geometry": ("note", N_("the needle geometry was assumed, not given: the clip only moves richer")),
     "assumed-screw-range": ("note", N_("the mixture screw's usable range was assumed, not given")),
@@ -65,8 +86,12 @@ BIKE_CODES = frozenset({"assumed-needle-geometry", "assumed-screw-range", "no-ne
 #: Words named by a key in the parameters (``part``, ``screw``, ``direction``); ``no change`` is
 #: the direction of a setting that stays.
 WORDS = {
-    "part": {"main_jet": N_("main jet"), "pilot_jet": N_("pilot jet"), "clip": N_("needle clip"),
-             "mixture_screw": N_("mixture screw")},
+    "part": {
+        "main_jet": N_("main jet"),
+        "pilot_jet": N_("pilot jet"),
+        "clip": N_("needle clip"),
+        "mixture_screw": N_("mixture screw"),
+    },
     "screw": {"air": N_("air screw"), "fuel": N_("fuel screw")},
     "direction": {"richer": N_("richer"), "leaner": N_("leaner"), "no change": N_("no change")},
 }
@@ -78,58 +103,72 @@ TEXTS = {
     "no-safe-jet/shelf-or-order": N_(
         "Fit %(part)s %(size)s (%(family)s) before riding hard, from the shelf or ordered (the fleet keeps "
         "no stock list): the %(part)s fitted today (%(fitted)s) would run up to %(lean_pct)s lean at this "
-        "event — a lean engine can seize."),
+        "event — a lean engine can seize."
+    ),
     "no-safe-jet/order": N_(
         "Fit %(part)s %(size)s (%(family)s) before riding hard: none is at hand, so order it now. The "
         "%(part)s fitted today (%(fitted)s) would run up to %(lean_pct)s lean at this event — a lean "
-        "engine can seize."),
+        "engine can seize."
+    ),
     "no-safe-jet/none-rich-enough": N_(
         "No %(part)s of the %(family)s sizes (%(smallest)s..%(largest)s) is rich enough for %(session)s: "
         "%(size)s, the richest planned, is still leaner than the guard. Get a %(part)s of about "
-        "%(about)s before riding hard."),
+        "%(about)s before riding hard."
+    ),
     "stock-shortage": N_(
         "%(Part)s %(size)s (%(family)s) is neither on the shelf nor coming off another bike: order it; "
-        "until it comes, the fitted %(fitted)s stays safe (not leaner than the guard)."),
+        "until it comes, the fitted %(fitted)s stays safe (not leaner than the guard)."
+    ),
     "ideal-outside-family": N_(
         "The ideal %(part)s (%(ideal_low)s..%(ideal_high)s) lies outside the %(family)s sizes "
-        "(%(smallest)s..%(largest)s); %(size)s is the nearest safe one — read the plug before riding hard."),
+        "(%(smallest)s..%(largest)s); %(size)s is the nearest safe one — read the plug before riding hard."
+    ),
     "window-too-wide": N_(
         "The ideal main jet changes by more than one size across %(session)s; %(size)s is safe (rich "
-        "enough) for its leanest hour and richer in the others."),
+        "enough) for its leanest hour and richer in the others."
+    ),
     "factor-out-of-range": N_(
         "Required area factor %(factor_min)s..%(factor_max)s is outside the model's range "
         "%(range_low)s..%(range_high)s: treat the settings as a starting point and make a test run with "
-        "a plug reading first."),
+        "a plug reading first."
+    ),
     "fitted-not-proven": N_(
         "Starts from the settings fitted for %(event)s, not the proven ones: nothing recorded says the bike "
-        "was returned. Check what is fitted before the work; the jets to pick still count from the proven ones."),
+        "was returned. Check what is fitted before the work; the jets to pick still count from the proven ones."
+    ),
     "no-needle": N_(
-        "No needle or clip position on record: the clip is not planned; record the needle and clip in the "
-        "fleet file."),
+        "No needle or clip position on record: the clip is not planned; record the needle and clip in the fleet file."
+    ),
     "assumed-needle-geometry": N_(
         "Needle geometry or needle-jet bore not on record: the clip is judged with an assumed "
         "%(groove_area_step)s %% annulus area per groove (from memory) and only ever moved richer; confirm "
-        "mid-throttle by feel and plug reading."),
+        "mid-throttle by feel and plug reading."
+    ),
     "screw-out-of-range": N_(
         "The %(screw)s alone would leave the middle of its usable range (%(usable_low_turns)s.."
-        "%(usable_high_turns)s turns) or not be safe: the pilot jet is changed instead."),
+        "%(usable_high_turns)s turns) or not be safe: the pilot jet is changed instead."
+    ),
     "assumed-screw-range": N_(
         "The screw's usable range is the default %(usable_low_turns)s..%(usable_high_turns)s turns out "
-        "(common practice); record the service manual's range."),
+        "(common practice); record the service manual's range."
+    ),
     "predicted-lean": N_(
         "Predicted mixture up to %(lean_pct)s leaner than the proven one at %(throttle)s in the densest "
-        "hour of this event: %(cure)s before riding hard."),
+        "hour of this event: %(cure)s before riding hard."
+    ),
     "icing-risk": N_(
         "Carburetor icing possible in cool, humid air (the serious band of charts made for aircraft, from "
-        "memory): if it runs rough or loses power at part throttle, let it idle warm before riding on."),
-    "cold-start": N_(
-        "Cold start (%(start_C)s at the session start): use the choke and warm the engine before riding."),
+        "memory): if it runs rough or loses power at part throttle, let it idle warm before riding on."
+    ),
+    "cold-start": N_("Cold start (%(start_C)s at the session start): use the choke and warm the engine before riding."),
     "cold-start/accelerator-pump": N_(
         "Cold start (%(start_C)s at the session start): use the choke and warm the engine before riding. "
-        "Accelerator-pump model: check the pump squirt before the first start."),
+        "Accelerator-pump model: check the pump squirt before the first start."
+    ),
     "hot-fuel": N_(
         "Hot session (air up to %(t_max_C)s): fuel above about %(hot_fuel_C)s can percolate or vapour-lock "
-        "(threshold from memory); keep fuel and bikes shaded."),
+        "(threshold from memory); keep fuel and bikes shaded."
+    ),
     # --- parts of predicted-lean: the throttle openings and the cure -----------------------------
     "throttle/span": N_("%(low_pct)s–%(high_pct)s throttle"),
     "throttle/one": N_("%(low_pct)s throttle"),
@@ -141,12 +180,15 @@ TEXTS = {
     "cure/main-jet": N_("fit a larger main jet"),
     # --- what a bike's settings rest on (a calibration from recorded outcomes, or the law) ---------
     "basis/law": N_("no readings yet: the law"),
-    "basis/model": N_("no readings of its own yet: its model's calibration from %(sessions)s at %(events)s, "
-                      "±%(uncertainty_pct)s"),
+    "basis/model": N_(
+        "no readings of its own yet: its model's calibration from %(sessions)s at %(events)s, ±%(uncertainty_pct)s"
+    ),
     "basis/calibrated": N_("calibrated from %(sessions)s at %(events)s, ±%(uncertainty_pct)s"),
     "basis/not-used": N_("the law: calibration not used for this plan"),
-    "basis/law-kept": N_("the law: the calibration from %(sessions)s at %(events)s would leave a circuit leaner "
-                         "than the guard by the law, so its settings are not used"),
+    "basis/law-kept": N_(
+        "the law: the calibration from %(sessions)s at %(events)s would leave a circuit leaner "
+        "than the guard by the law, so its settings are not used"
+    ),
     "count/sessions": (N_("%(count)s session"), N_("%(count)s sessions")),
     "count/events": (N_("%(count)s event"), N_("%(count)s events")),
     # --- checks ----------------------------------------------------------------------------------
@@ -157,15 +199,20 @@ TEXTS = {
     "check/choke": N_("Choke: cold air (%(t_min_C)s minimum): choke for the first start."),
     "check/hot-fuel": N_(
         "Hot fuel: keep cans and bikes in the shade; if it stalls hot or will not restart, suspect vapour "
-        "in the fuel (from memory: above about %(hot_fuel_C)s)."),
+        "in the fuel (from memory: above about %(hot_fuel_C)s)."
+    ),
     # --- the settings' change words ---------------------------------------------------------------
     "setting/no-change": N_("no change"),
     "setting/jet-larger": (N_("%(count)s size larger: richer"), N_("%(count)s sizes larger: richer")),
     "setting/jet-smaller": (N_("%(count)s size smaller: leaner"), N_("%(count)s sizes smaller: leaner")),
-    "setting/clip-lower": (N_("clip %(count)s groove lower (groove %(from)s → %(to)s, needle up): richer"),
-                           N_("clip %(count)s grooves lower (groove %(from)s → %(to)s, needle up): richer")),
-    "setting/clip-higher": (N_("clip %(count)s groove higher (groove %(from)s → %(to)s, needle down): leaner"),
-                            N_("clip %(count)s grooves higher (groove %(from)s → %(to)s, needle down): leaner")),
+    "setting/clip-lower": (
+        N_("clip %(count)s groove lower (groove %(from)s → %(to)s, needle up): richer"),
+        N_("clip %(count)s grooves lower (groove %(from)s → %(to)s, needle up): richer"),
+    ),
+    "setting/clip-higher": (
+        N_("clip %(count)s groove higher (groove %(from)s → %(to)s, needle down): leaner"),
+        N_("clip %(count)s grooves higher (groove %(from)s → %(to)s, needle down): leaner"),
+    ),
     "setting/clip-not-planned": N_("no needle or clip on record: not planned"),
     "setting/screw-out": N_("%(screw)s %(by_quarter_turns)s out: %(direction)s"),
     "setting/screw-in": N_("%(screw)s %(by_quarter_turns)s in: %(direction)s"),

@@ -21,8 +21,14 @@ import numpy as np
 from tuning.config.model import CHANGE_POLICIES
 
 __all__ = [
-    "POLICIES", "DEFAULT_POLICY", "DEFAULT_CHANGE_THRESHOLD", "WORK_MINUTES", "SCREW_MIN_MOVE",
-    "penalties", "flat_sequence", "idle_sequence",
+    "POLICIES",
+    "DEFAULT_POLICY",
+    "DEFAULT_CHANGE_THRESHOLD",
+    "WORK_MINUTES",
+    "SCREW_MIN_MOVE",
+    "penalties",
+    "flat_sequence",
+    "idle_sequence",
 ]
 
 POLICIES = CHANGE_POLICIES  #: ``event``: few changes (default); ``session``: best per session
@@ -147,8 +153,10 @@ def idle_sequence(cost, start_pilot, start_turns, screw_positions, pilot_penalty
     cost = flat.reshape(b, s_count, p_count, q_count)
     pos = np.asarray(screw_positions, float)
     movable = _screw_moves(pos)
-    value = _unstuck(cost[:, 0] + _first_change_cost(p_count, start_pilot, start_turns, pos, pilot_penalty, screw_penalty),
-                     cost[:, 0])
+    value = _unstuck(
+        cost[:, 0] + _first_change_cost(p_count, start_pilot, start_turns, pos, pilot_penalty, screw_penalty),
+        cost[:, 0],
+    )
     from_p = np.zeros((b, s_count, p_count, q_count), np.int64)
     from_q = np.zeros((b, s_count, p_count, q_count), np.int64)
     for s in range(1, s_count):
@@ -158,7 +166,10 @@ def idle_sequence(cost, start_pilot, start_turns, screw_positions, pilot_penalty
         if stuck.any():  # no allowed move reaches an allowed state: come from the best previous state
             prev = np.argmin(value.reshape(b, -1), axis=1)
             from_p[stuck, s], from_q[stuck, s] = (x[stuck, None, None] for x in np.divmod(prev, q_count))
-        value = _unstuck(new, cost[:, s] + np.nanmin(np.where(np.isfinite(value), value, np.inf).reshape(b, -1), axis=1)[:, None, None])
+        value = _unstuck(
+            new,
+            cost[:, s] + np.nanmin(np.where(np.isfinite(value), value, np.inf).reshape(b, -1), axis=1)[:, None, None],
+        )
     pilot, screw = _idle_trace_back(value, from_p, from_q)
     return pilot, screw, unsafe
 
@@ -181,8 +192,11 @@ def _first_change_cost(p_count, start_pilot, start_turns, pos, pilot_penalty, sc
     moved = np.abs(pos - np.asarray(start_turns, float)[:, None])  # (B, Q)
     screw_change = moved > TURNS_NOISE
     screw_ok = ~screw_change | (moved >= SCREW_MIN_MOVE - TURNS_NOISE)
-    return (pilot_penalty * pilot_change[:, :, None] + screw_penalty * screw_change[:, None, :]
-            + np.where(screw_ok, 0.0, np.inf)[:, None, :])
+    return (
+        pilot_penalty * pilot_change[:, :, None]
+        + screw_penalty * screw_change[:, None, :]
+        + np.where(screw_ok, 0.0, np.inf)[:, None, :]
+    )
 
 
 def _idle_transition(value, movable, pilot_penalty, screw_penalty):
@@ -203,20 +217,26 @@ def _idle_transition(value, movable, pilot_penalty, screw_penalty):
     both = np.where(movable & ~np.eye(q_count, dtype=bool)[None], pj_val[:, None, :] - pilot_penalty, np.inf)
     bq_arg = np.argmin(both, axis=-1)  # (B, Q)
     bq_val = np.take_along_axis(both, bq_arg[..., None], axis=-1)[..., 0] + pilot_penalty + screw_penalty
-    options = np.stack([
-        value,
-        sq_val,
-        np.broadcast_to(pj_val[:, None, :], value.shape),
-        np.broadcast_to(bq_val[:, None, :], value.shape),
-    ])  # (4, B, P, Q)
+    options = np.stack(
+        [
+            value,
+            sq_val,
+            np.broadcast_to(pj_val[:, None, :], value.shape),
+            np.broadcast_to(bq_val[:, None, :], value.shape),
+        ]
+    )  # (4, B, P, Q)
     which = np.argmin(options, axis=0)  # stay wins ties: fewer changes
     best = np.take_along_axis(options, which[None], axis=0)[0]
     p_idx = np.broadcast_to(np.arange(p_count)[None, :, None], value.shape)
     q_idx = np.broadcast_to(np.arange(q_count)[None, None, :], value.shape)
-    prev_p = np.select([which == 0, which == 1, which == 2], [p_idx, p_idx, np.broadcast_to(pj_arg[:, None, :], value.shape)],
-                       np.broadcast_to(pj_arg[rows[:, None], bq_arg][:, None, :], value.shape))
-    prev_q = np.select([which == 0, which == 1, which == 2], [q_idx, sq_arg, q_idx],
-                       np.broadcast_to(bq_arg[:, None, :], value.shape))
+    prev_p = np.select(
+        [which == 0, which == 1, which == 2],
+        [p_idx, p_idx, np.broadcast_to(pj_arg[:, None, :], value.shape)],
+        np.broadcast_to(pj_arg[rows[:, None], bq_arg][:, None, :], value.shape),
+    )
+    prev_q = np.select(
+        [which == 0, which == 1, which == 2], [q_idx, sq_arg, q_idx], np.broadcast_to(bq_arg[:, None, :], value.shape)
+    )
     return best, prev_p, prev_q
 
 

@@ -80,8 +80,20 @@ def allocate(bike_ids, fitted, plan, stock):
                 ordered[key] += 1
             moves.append(Move(t, b, kind, key[0], state[b][kind][1], key[1], source, origin))
         awaiting = {(bike_ids[m.bike], m.kind) for m in moves if m.source in ("order", "shelf-or-order")}
-        moves = [Move(m.transition, m.bike, m.kind, m.family, m.old, m.new, m.source, m.origin,
-                      waits=m.source in ("bike", "spare") and (m.origin, m.kind) in awaiting) for m in moves]
+        moves = [
+            Move(
+                m.transition,
+                m.bike,
+                m.kind,
+                m.family,
+                m.old,
+                m.new,
+                m.source,
+                m.origin,
+                waits=m.source in ("bike", "spare") and (m.origin, m.kind) in awaiting,
+            )
+            for m in moves
+        ]
         for key, origins in coming_off.items():
             spare[key].extend(origins)  # not used at this transition: back in the pool
         for b, kind in changes:
@@ -127,7 +139,15 @@ def pick_list(fitted, plan, stock):
         needed = max((u[key] for u in usage), default=0)
         in_stock = None if stock is None else int(stock.get(key, 0))
         to_order = None if stock is None else max(0, needed - fitted_now[key] - in_stock)
-        rows.append({"family": key[0], "size": key[1], "fitted_now": fitted_now[key], "in_stock": in_stock,
-                     "needed": needed, "to_order": to_order})
+        rows.append(
+            {
+                "family": key[0],
+                "size": key[1],
+                "fitted_now": fitted_now[key],
+                "in_stock": in_stock,
+                "needed": needed,
+                "to_order": to_order,
+            }
+        )
     rows.sort(key=lambda p: (0 if (p["to_order"] or 0) > 0 else 1, p["family"], float(p["size"])))
     return rows

@@ -122,9 +122,17 @@ def _shifts(rows, hours, refs, meter, main, run, sizes_dn, multiplier):
 
     def factor(shift):
         state = air.air_state(t0 + shift, p, relative_humidity=rh)
-        return scale * metering.area_factor(state.dry_air_density, refs.dry[ref], state.moist_air_density, refs.moist[ref],
-                                            meter.rho_event[bike], meter.rho_reference[bike], meter.afr_event[bike],
-                                            meter.afr_reference[bike], meter.exponent[bike])
+        return scale * metering.area_factor(
+            state.dry_air_density,
+            refs.dry[ref],
+            state.moist_air_density,
+            refs.moist[ref],
+            meter.rho_event[bike],
+            meter.rho_reference[bike],
+            meter.afr_event[bike],
+            meter.afr_reference[bike],
+            meter.exponent[bike],
+        )
 
     # colder: the fitted size reaches the lean guard (it must change); warmer: the next smaller
     # size becomes the better one, where the lean-weighted deviations of the two sizes are equal,

@@ -54,6 +54,13 @@ def build_from_plan(*args, **kwargs):
 
 
 __all__ = [
-    "CAUTIONS", "FleetReport", "SheetBatch", "load_plan", "render_fleet_report",
-    "render_setup_sheets", "build", "build_from_plan", "turns_text",
+    "CAUTIONS",
+    "FleetReport",
+    "SheetBatch",
+    "load_plan",
+    "render_fleet_report",
+    "render_setup_sheets",
+    "build",
+    "build_from_plan",
+    "turns_text",
 ]

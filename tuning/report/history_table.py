@@ -24,8 +24,11 @@ def history_table(history, fleet_name: str | None, bike: str | None, d: Display)
         plans[(fleet, key)] = history.plan_for(key, fleet)
     lines = []
     for (fleet, key), plan in plans.items():
-        bikes = sorted({e["bike"] for e in plan["entries"]} if plan else set()
-                       | {r["bike"] for r in by_event.get((fleet, key), [])})
+        bikes = sorted(
+            {e["bike"] for e in plan["entries"]}
+            if plan
+            else set() | {r["bike"] for r in by_event.get((fleet, key), [])}
+        )
         for b in bikes:
             if bike is not None and b != bike:
                 continue
@@ -43,14 +46,14 @@ def history_table(history, fleet_name: str | None, bike: str | None, d: Display)
 
 
 def _planned_keys(history, fleet_name):
-    for fleet in ([fleet_name] if fleet_name else history.fleets()):
+    for fleet in [fleet_name] if fleet_name else history.fleets():
         for e in history.events_of(fleet):
             yield fleet, e["key"]
 
 
 def _all_events(history, fleet_name):
     events = []
-    for fleet in ([fleet_name] if fleet_name else history.fleets()):
+    for fleet in [fleet_name] if fleet_name else history.fleets():
         events += history.events_of(fleet)
     return sorted(events, key=lambda e: (e["last_day"], e["id"]))
 
@@ -62,13 +65,23 @@ def _row(bike, key, plan, seen, d: Display) -> tuple[str, ...]:
     entries = [e for e in plan["entries"] if e["bike"] == bike] if plan else []
     if entries:
         s = [e["summary"] for e in entries]
-        air = "\n".join([
-            _("density altitude {span}").format(span=d.elevation_span(min(x["density_altitude_m_min"] for x in s),
-                                                                      max(x["density_altitude_m_max"] for x in s))),
-            d.temperature_span(min(x["air_temperature_C_min"] for x in s), max(x["air_temperature_C_max"] for x in s))])
+        air = "\n".join(
+            [
+                _("density altitude {span}").format(
+                    span=d.elevation_span(
+                        min(x["density_altitude_m_min"] for x in s), max(x["density_altitude_m_max"] for x in s)
+                    )
+                ),
+                d.temperature_span(
+                    min(x["air_temperature_C_min"] for x in s), max(x["air_temperature_C_max"] for x in s)
+                ),
+            ]
+        )
         recommended = recommended_settings(plan)
-        planned = _settings_text({c: sorted({recommended[(bike, e["session"])][c] for e in entries}, key=_order)
-                                  for _k, _v, c in CIRCUITS}, d)
+        planned = _settings_text(
+            {c: sorted({recommended[(bike, e["session"])][c] for e in entries}, key=_order) for _k, _v, c in CIRCUITS},
+            d,
+        )
     else:
         air, planned = "–", _("no plan recorded")
     fitted = {c: sorted({r[c] for r in seen if r[c] is not None}, key=_order) for _k, _v, c in CIRCUITS}
@@ -85,8 +98,11 @@ def _order(value):
 def _settings_text(values: dict, d: Display) -> str:
     parts = []
     for column, found in values.items():
-        shown = [d.number(v, 2).rstrip("0").rstrip(".,") if isinstance(v, float) else d.number(v)
-                 for v in found if v is not None]
+        shown = [
+            d.number(v, 2).rstrip("0").rstrip(".,") if isinstance(v, float) else d.number(v)
+            for v in found
+            if v is not None
+        ]
         if shown:
             parts.append(f"{d._(_SHORT[column])} {'/'.join(shown)}")
     return ", ".join(parts) or "–"
@@ -105,9 +121,15 @@ def _seen_text(seen: list[dict], d: Display) -> str:
     afr = [r for r in seen if r["wideband_afr"] is not None]
     if afr:
         full = [r["wideband_afr"] for r in afr if r["throttle"] is not None and r["throttle"] >= 0.75]
-        text = d.n_("{count} wideband reading, air-fuel {low}–{high}", "{count} wideband readings, air-fuel {low}–{high}",
-                    len(afr)).format(count=len(afr), low=d.number(min(r["wideband_afr"] for r in afr), 1),
-                                     high=d.number(max(r["wideband_afr"] for r in afr), 1))
+        text = d.n_(
+            "{count} wideband reading, air-fuel {low}–{high}",
+            "{count} wideband readings, air-fuel {low}–{high}",
+            len(afr),
+        ).format(
+            count=len(afr),
+            low=d.number(min(r["wideband_afr"] for r in afr), 1),
+            high=d.number(max(r["wideband_afr"] for r in afr), 1),
+        )
         if full:
             text += "; " + _("¾ to full throttle: up to {afr}").format(afr=d.number(max(full), 1))
         lines.append(text)

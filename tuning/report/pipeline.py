@@ -50,6 +50,8 @@ def _stop_kernels() -> None:
             if process.poll() is None:
                 process.kill()
         _live_kernels.discard(process)
+
+
 class IpcKernelManager(AsyncKernelManager):
     """A kernel manager on IPC sockets (no TCP: no "running over TCP without encryption" warning)."""
 
@@ -92,10 +94,16 @@ def socket_folder_base() -> str:
     """
     candidates = [tempfile.gettempdir(), "/tmp", "/var/tmp", "/dev/shm"]
     for folder in candidates:
-        if len(os.fsencode(folder)) <= _SOCKET_PATH_ROOM and os.path.isdir(folder) and os.access(folder, os.W_OK | os.X_OK):
+        if (
+            len(os.fsencode(folder)) <= _SOCKET_PATH_ROOM
+            and os.path.isdir(folder)
+            and os.access(folder, os.W_OK | os.X_OK)
+        ):
             return folder
-    raise BuildError("no temporary folder with a path short enough for the notebook kernels' sockets; "
-                     "set TMPDIR to a short writable folder such as /tmp")
+    raise BuildError(
+        "no temporary folder with a path short enough for the notebook kernels' sockets; "
+        "set TMPDIR to a short writable folder such as /tmp"
+    )
 
 
 def _manager_in(cwd: Path, socket_dir: Path | None = None) -> type:
@@ -104,8 +112,11 @@ def _manager_in(cwd: Path, socket_dir: Path | None = None) -> type:
     papermill's own ``cwd=`` changes the working folder of the whole process, which races when
     several notebooks run in threads; the kernel's folder is set at launch instead.
     """
-    return type("IpcKernelManagerIn", (IpcKernelManager,),
-                {"kernel_cwd": str(cwd), "socket_dir": str(socket_dir) if socket_dir else None})
+    return type(
+        "IpcKernelManagerIn",
+        (IpcKernelManager,),
+        {"kernel_cwd": str(cwd), "socket_dir": str(socket_dir) if socket_dir else None},
+    )
 
 
 @dataclass(frozen=True)
@@ -122,9 +133,15 @@ class BuildResult:
 
     def summary_line(self) -> str:
         d = Display(self.units, self.language)
-        return d._("built %(sheets)s setup sheets, fleet summary and print pack in %(out)s "
-                   "(%(warnings)s warnings, %(seconds)s s)") % {
-            "sheets": self.sheets, "out": self.out_dir, "warnings": self.warnings, "seconds": d.number(self.seconds, 1)}
+        return d._(
+            "built %(sheets)s setup sheets, fleet summary and print pack in %(out)s "
+            "(%(warnings)s warnings, %(seconds)s s)"
+        ) % {
+            "sheets": self.sheets,
+            "out": self.out_dir,
+            "warnings": self.warnings,
+            "seconds": d.number(self.seconds, 1),
+        }
 
 
 def font_subsetter() -> str:
@@ -155,9 +172,16 @@ def _execute(notebook: str, output: Path, parameters: dict, cwd: Path, socket_di
 
     try:
         papermill.execute_notebook(
-            str(resources.notebook(notebook)), str(output), parameters=parameters, kernel_name="python3",
-            progress_bar=False, log_output=False, request_save_on_cell_execute=False,
-            kernel_manager_class=_manager_in(cwd, socket_dir), record_timing=False)
+            str(resources.notebook(notebook)),
+            str(output),
+            parameters=parameters,
+            kernel_name="python3",
+            progress_bar=False,
+            log_output=False,
+            request_save_on_cell_execute=False,
+            kernel_manager_class=_manager_in(cwd, socket_dir),
+            record_timing=False,
+        )
     except PapermillExecutionError as exc:
         raise BuildError(f"{output.name}: {exc.ename}: {exc.evalue}") from None
 
@@ -187,14 +211,14 @@ class _Exporter:
     def __init__(self):
         from nbconvert import HTMLExporter
 
-        self.exporter = HTMLExporter(template_file=str(NB_TEMPLATE),
-                                     extra_template_basedirs=[str(NB_TEMPLATE.parent)])
+        self.exporter = HTMLExporter(template_file=str(NB_TEMPLATE), extra_template_basedirs=[str(NB_TEMPLATE.parent)])
         self.exporter.exclude_input = True
         self.css = render.page_css("a4", "carbfleet notebook")
 
     def export(self, nb: nbformat.NotebookNode, name: str) -> str:
         body, _ = self.exporter.from_notebook_node(
-            copy.deepcopy(nb), resources={"metadata": {"name": name}, "carbfleet_css": self.css})
+            copy.deepcopy(nb), resources={"metadata": {"name": name}, "carbfleet_css": self.css}
+        )
         return body
 
 
@@ -208,8 +232,7 @@ def _merge_pdfs(paths: list[Path], target: Path, stamp: str, title: str) -> int:
         for path in paths:
             writer.append(str(path))
     date = "D:" + stamp[:19].replace("-", "").replace("T", "").replace(":", "")
-    writer.add_metadata({"/Title": title, "/Producer": "carbfleet (pypdf)", "/CreationDate": date,
-                         "/ModDate": date})
+    writer.add_metadata({"/Title": title, "/Producer": "carbfleet (pypdf)", "/CreationDate": date, "/ModDate": date})
     import hashlib
 
     digest = hashlib.md5(b"".join(p.read_bytes() for p in paths)).digest()
@@ -226,9 +249,19 @@ def _check_options(paper: str, workers: int, units: str = "metric", language: st
         raise UserError(f"--workers: expected a whole number from 1 to {MAX_WORKERS}, got {workers}; try --workers 2")
 
 
-def build(fleet_path: str | Path, event_path: str | Path, out_dir: str | Path, paper: str = "a4",
-          quiet: bool = False, workers: int = 2, policy: str | None = None,
-          units: str | None = None, language: str | None = None, adjust=None, calibrate=None) -> BuildResult:
+def build(
+    fleet_path: str | Path,
+    event_path: str | Path,
+    out_dir: str | Path,
+    paper: str = "a4",
+    quiet: bool = False,
+    workers: int = 2,
+    policy: str | None = None,
+    units: str | None = None,
+    language: str | None = None,
+    adjust=None,
+    calibrate=None,
+) -> BuildResult:
     """Plan ``fleet_path`` x ``event_path`` and build the whole output folder ``out_dir``.
 
     ``calibrate``, if given, is called as ``calibrate(fleet)`` before planning and returns the
@@ -260,9 +293,18 @@ def build(fleet_path: str | Path, event_path: str | Path, out_dir: str | Path, p
         plan = adjust(fleet, event, plan)
     display = display_for(event, units, language)  # the command line, else the event file, else metric/en
     units, language = display.units, display.language
-    return build_from_plan(plan, out_dir, paper=paper, quiet=quiet, workers=workers,
-                           fleet_path=str(fleet_path), event_path=str(event_path), inputs=inputs,
-                           units=units, language=language)
+    return build_from_plan(
+        plan,
+        out_dir,
+        paper=paper,
+        quiet=quiet,
+        workers=workers,
+        fleet_path=str(fleet_path),
+        event_path=str(event_path),
+        inputs=inputs,
+        units=units,
+        language=language,
+    )
 
 
 def _prepare_out(out_dir: str | Path, inputs) -> tuple[Path, Path]:
@@ -278,9 +320,18 @@ def _prepare_out(out_dir: str | Path, inputs) -> tuple[Path, Path]:
     return out, tmp
 
 
-def build_from_plan(plan: dict, out_dir: str | Path, paper: str = "a4", quiet: bool = False,
-                    workers: int = 2, fleet_path: str = "", event_path: str = "",
-                    inputs=(), units: str = "metric", language: str = "en") -> BuildResult:
+def build_from_plan(
+    plan: dict,
+    out_dir: str | Path,
+    paper: str = "a4",
+    quiet: bool = False,
+    workers: int = 2,
+    fleet_path: str = "",
+    event_path: str = "",
+    inputs=(),
+    units: str = "metric",
+    language: str = "en",
+) -> BuildResult:
     """Build the output folder from a plan document (format ``carbfleet-plan/3``).
 
     ``units`` (``metric`` or ``us``) and ``language`` (``en`` or ``de``) are those of the pages
@@ -302,15 +353,23 @@ def build_from_plan(plan: dict, out_dir: str | Path, paper: str = "a4", quiet: b
         (tmp / "sheets").mkdir()
         # Relative to the notebooks' own folder, where the kernels start and where Jupyter runs
         # them again later: the executed notebooks stay runnable in the finished output.
-        common = {"fleet_path": _absolute(fleet_path), "event_path": _absolute(event_path),
-                  "plan_path": "../recommendations.json", "out_dir": "..", "paper": paper,
-                  "units": units, "language": language}
+        common = {
+            "fleet_path": _absolute(fleet_path),
+            "event_path": _absolute(event_path),
+            "plan_path": "../recommendations.json",
+            "out_dir": "..",
+            "paper": paper,
+            "units": units,
+            "language": language,
+        }
         parts = shards(bikes, workers)
         sheets_stem = resources.SETUP_SHEETS.removesuffix(".ipynb")
         sheet_notebooks = [f"{sheets_stem}-{i}.ipynb" for i in range(1, len(parts) + 1)]
         html_names = [n.replace(".ipynb", ".html") for n in [resources.FLEET_REPORT, *sheet_notebooks]]
         jobs = [(resources.FLEET_REPORT, resources.FLEET_REPORT, {**common, "notebooks": html_names})]
-        jobs += [(resources.SETUP_SHEETS, name, {**common, "bikes": part}) for name, part in zip(sheet_notebooks, parts)]
+        jobs += [
+            (resources.SETUP_SHEETS, name, {**common, "bikes": part}) for name, part in zip(sheet_notebooks, parts)
+        ]
         step = "notebooks"
         _run_jobs(jobs, tmp, bikes, names, quiet)
         step = "notebook export to HTML"
@@ -318,14 +377,18 @@ def build_from_plan(plan: dict, out_dir: str | Path, paper: str = "a4", quiet: b
         for _src, name, _params in jobs:
             nb = _clean_notebook(tmp / "notebooks" / name)
             (tmp / "notebooks" / name.replace(".ipynb", ".html")).write_text(
-                exporter.export(nb, name.replace(".ipynb", "")), encoding="utf-8")
+                exporter.export(nb, name.replace(".ipynb", "")), encoding="utf-8"
+            )
         missing = [b for b in bikes if not (tmp / "sheets" / f"{names[b]}.pdf").exists()]
         if missing:
             raise BuildError(f"setup sheet of bike {missing[0]!r} was not written")
         step = "print pack"
-        _merge_pdfs([tmp / "fleet-summary.pdf", *(tmp / "sheets" / f"{names[b]}.pdf" for b in bikes)],
-                    tmp / "print-pack.pdf", plan["sessions"][0]["start"] if plan["sessions"] else "2000-01-01",
-                    f"Print pack · {plan['event']}")
+        _merge_pdfs(
+            [tmp / "fleet-summary.pdf", *(tmp / "sheets" / f"{names[b]}.pdf" for b in bikes)],
+            tmp / "print-pack.pdf",
+            plan["sessions"][0]["start"] if plan["sessions"] else "2000-01-01",
+            f"Print pack · {plan['event']}",
+        )
         output.write_manifest(tmp, plan["event"])
         step = "moving the finished folder into place"
         _replace(tmp, out)
@@ -336,8 +399,9 @@ def build_from_plan(plan: dict, out_dir: str | Path, paper: str = "a4", quiet: b
         if isinstance(exc, OSError) and exc.errno is not None:
             raise output.os_problem("--out", out, exc) from exc
         raise BuildError(f"build failed at step '{step}': {type(exc).__name__}: {exc}") from exc
-    return BuildResult(out, len(bikes), int(plan["warnings_count"]),
-                       time.perf_counter() - started, font_subsetter(), units, language)
+    return BuildResult(
+        out, len(bikes), int(plan["warnings_count"]), time.perf_counter() - started, font_subsetter(), units, language
+    )
 
 
 def _absolute(path: str) -> str:
@@ -388,8 +452,9 @@ def _wait(futures, bikes: list[str], written, quiet: bool) -> None:
         return
     from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, TimeElapsedColumn
 
-    with Progress(TextColumn("setup sheets"), BarColumn(), MofNCompleteColumn(), TimeElapsedColumn(),
-                  transient=True) as progress:
+    with Progress(
+        TextColumn("setup sheets"), BarColumn(), MofNCompleteColumn(), TimeElapsedColumn(), transient=True
+    ) as progress:
         task = progress.add_task("sheets", total=len(bikes))
         while not all(f.done() for f in futures):
             progress.update(task, completed=written())

@@ -42,8 +42,11 @@ class _QuietSubsetWarning(logging.Filter):
 logging.getLogger("weasyprint").addFilter(_QuietSubsetWarning())
 
 # Characters every sheet may use; their glyphs are always kept in the embedded font subset.
-_COMMON_TEXT = ("".join(chr(c) for c in range(0x20, 0x7F)) + "".join(chr(c) for c in range(0xA0, 0x100))
-                + "–—‘’“”•…→←−·½¼¾°×≈≤≥±µ²³")
+_COMMON_TEXT = (
+    "".join(chr(c) for c in range(0x20, 0x7F))
+    + "".join(chr(c) for c in range(0xA0, 0x100))
+    + "–—‘’“”•…→←−·½¼¾°×≈≤≥±µ²³"
+)
 
 
 def install_font_subset_cache() -> None:
@@ -102,7 +105,9 @@ def environment() -> jinja2.Environment:
         finalize=_no_control_characters,
         loader=jinja2.FileSystemLoader(str(TEMPLATES)),
         autoescape=jinja2.select_autoescape(enabled_extensions=("html", "html.j2", "j2"), default_for_string=True),
-        undefined=jinja2.StrictUndefined, trim_blocks=False, keep_trailing_newline=True,
+        undefined=jinja2.StrictUndefined,
+        trim_blocks=False,
+        keep_trailing_newline=True,
     )
 
 
@@ -118,14 +123,19 @@ def page_css(paper: str, footer_left: str | None, page_numbers: bool = True) -> 
     sheet's ``data-footer`` (so that sheets laid out as one document keep their own footers).
     """
     if paper not in PAPER_SIZES:
-        raise UserError(f"paper: expected one of {', '.join(PAPER_SIZES)}, got {paper!r}; use --paper a4 or --paper letter")
+        raise UserError(
+            f"paper: expected one of {', '.join(PAPER_SIZES)}, got {paper!r}; use --paper a4 or --paper letter"
+        )
     return _page_css(paper, None if footer_left is None else _css_string(footer_left), page_numbers)
 
 
 @lru_cache(maxsize=16)
 def _page_css(paper: str, footer_css: str | None, page_numbers: bool) -> str:
-    return environment().get_template("report.css").render(
-        page_size=PAPER_SIZES[paper], footer_left=footer_css, page_numbers=page_numbers)
+    return (
+        environment()
+        .get_template("report.css")
+        .render(page_size=PAPER_SIZES[paper], footer_left=footer_css, page_numbers=page_numbers)
+    )
 
 
 def load_plan(fleet_path: str = "", event_path: str = "", plan_path: str = "") -> dict:
@@ -140,8 +150,10 @@ def load_plan(fleet_path: str = "", event_path: str = "", plan_path: str = "") -
         try:
             plan = json.loads(Path(plan_path).read_text(encoding="utf-8"))
         except FileNotFoundError:
-            raise UserError(f"{plan_path}: plan file not found (looked for {Path(plan_path).resolve()}); "
-                            "give the recommendations.json of a plan") from None
+            raise UserError(
+                f"{plan_path}: plan file not found (looked for {Path(plan_path).resolve()}); "
+                "give the recommendations.json of a plan"
+            ) from None
         except (OSError, ValueError) as exc:
             raise UserError(f"{plan_path}: cannot read the plan: {exc}") from None
     else:
@@ -157,8 +169,10 @@ def load_plan(fleet_path: str = "", event_path: str = "", plan_path: str = "") -
         event = load_event(event_path, fleet)
         plan = make_plan(fleet, event)
     if plan.get("format") != PLAN_FORMAT:
-        raise UserError(f"plan: expected format {PLAN_FORMAT!r}, got {plan.get('format')!r}; "
-                        "plan the fleet again with this carbfleet (carbfleet plan or carbfleet build)")
+        raise UserError(
+            f"plan: expected format {PLAN_FORMAT!r}, got {plan.get('format')!r}; "
+            "plan the fleet again with this carbfleet (carbfleet plan or carbfleet build)"
+        )
     return plan
 
 
@@ -168,11 +182,17 @@ def _stamp(plan: dict) -> str:
 
 
 def _reference_text(ref: dict, d: Display = METRIC_EN) -> str:
-    return d._("%(elevation)s elevation, %(temperature)s, %(pressure)s station pressure, %(humidity)s humidity, "
-               "density altitude %(altitude)s, fuel %(fuel)s") % {
-        "elevation": d.elevation(ref["elevation_m"]), "temperature": d.temperature(ref["air_temperature_C"]),
-        "pressure": d.pressure(ref["station_pressure_hPa"]), "humidity": d.percent(ref["relative_humidity_pct"]),
-        "altitude": d.elevation(ref["density_altitude_m"]), "fuel": ref["fuel"]}
+    return d._(
+        "%(elevation)s elevation, %(temperature)s, %(pressure)s station pressure, %(humidity)s humidity, "
+        "density altitude %(altitude)s, fuel %(fuel)s"
+    ) % {
+        "elevation": d.elevation(ref["elevation_m"]),
+        "temperature": d.temperature(ref["air_temperature_C"]),
+        "pressure": d.pressure(ref["station_pressure_hPa"]),
+        "humidity": d.percent(ref["relative_humidity_pct"]),
+        "altitude": d.elevation(ref["density_altitude_m"]),
+        "fuel": ref["fuel"],
+    }
 
 
 def _footer(title: str) -> str:
@@ -180,8 +200,14 @@ def _footer(title: str) -> str:
     return f"carbfleet {__version__} · {title}"
 
 
-def _common(plan: dict, paper: str, title: str | None, page_numbers: bool = True, display: Display = METRIC_EN,
-            reference: dict | None = None) -> dict:
+def _common(
+    plan: dict,
+    paper: str,
+    title: str | None,
+    page_numbers: bool = True,
+    display: Display = METRIC_EN,
+    reference: dict | None = None,
+) -> dict:
     """The template context every page shares; ``title`` None: the footer comes from the sheet.
     ``reference``: the conditions ``ref_text`` describes (a bike's own; default the fleet's)."""
     from tuning import constants
@@ -190,10 +216,16 @@ def _common(plan: dict, paper: str, title: str | None, page_numbers: bool = True
     d = display
     (t_lo, t_hi), (p_lo, p_hi) = constants.SAE_J1349_AIR_TEMPERATURE_RANGE, constants.SAE_J1349_DRY_AIR_PRESSURE_RANGE
     return {
-        "d": d, "_": d._, "ngettext": d.n_, "lang": d.language, "plan": plan,
-        "css": page_css(paper, None if title is None else _footer(title), page_numbers), "stamp": _stamp(plan),
+        "d": d,
+        "_": d._,
+        "ngettext": d.n_,
+        "lang": d.language,
+        "plan": plan,
+        "css": page_css(paper, None if title is None else _footer(title), page_numbers),
+        "stamp": _stamp(plan),
         "version": __version__,
-        "cautions": d._(CAUTIONS), "ref_text": _reference_text(reference or plan["reference"], d),
+        "cautions": d._(CAUTIONS),
+        "ref_text": _reference_text(reference or plan["reference"], d),
         "site_elevation": d.elevation(plan["site"]["elevation_m"]),
         "j1349_t_range": f"{d.temperature(t_lo - constants.ZERO_CELSIUS, unit=False)}…{d.temperature(t_hi - constants.ZERO_CELSIUS)}",
         "j1349_p_range": f"{d.pressure(p_lo / 100.0, unit=False)}…{d.pressure(p_hi / 100.0)}",
@@ -211,12 +243,28 @@ def pages_allowed(density: str) -> int:
 #: keep every message.
 #: The last resort (many sessions, long notes, many warnings): the hand-filled form on a second
 #: page that repeats the bike id.
-LAYOUTS = (("normal", 0), ("compact", 0), ("tight", 0), ("tight", 1), ("tight", 2), ("tight", 3),
-           ("compact split", 0), ("tight split", 0), ("tight split", 3))
+LAYOUTS = (
+    ("normal", 0),
+    ("compact", 0),
+    ("tight", 0),
+    ("tight", 1),
+    ("tight", 2),
+    ("tight", 3),
+    ("compact split", 0),
+    ("tight split", 0),
+    ("tight split", 3),
+)
 
 
-def sheet_html(plan: dict, entries: list[dict], paper: str = "a4", density: str = "normal",
-               condense: int = 0, display: Display = METRIC_EN, sheet_id: str | None = None) -> str:
+def sheet_html(
+    plan: dict,
+    entries: list[dict],
+    paper: str = "a4",
+    density: str = "normal",
+    condense: int = 0,
+    display: Display = METRIC_EN,
+    sheet_id: str | None = None,
+) -> str:
     """The setup sheet of one bike (its plan entries, session order) as a self-contained HTML page.
 
     ``density`` (``normal``, ``compact``, ``tight``) shrinks type and chart so a crowded sheet
@@ -228,12 +276,17 @@ def sheet_html(plan: dict, entries: list[dict], paper: str = "a4", density: str 
     """
     index = _index(plan)
     bike = entries[0]["bike"]
-    rows = tables.sheet_rows(entries, index["records"].get(bike), index["work"].get(bike, ()), condense,
-                             display, plan["sessions"])
+    rows = tables.sheet_rows(
+        entries, index["records"].get(bike), index["work"].get(bike, ()), condense, display, plan["sessions"]
+    )
     # One page by design: no "page n of m" footer (it costs WeasyPrint a second layout pass).
     context = _common(plan, paper, None, page_numbers=False, display=display, reference=entries[0]["reference"])
-    context.update(s=rows, density=density,
-                   sheet_id=sheet_id or f"sheet-{safe_stem(bike)}", footer=_footer(f"{plan['event']} · {display._(SHEET_WORD)} {bike}"))
+    context.update(
+        s=rows,
+        density=density,
+        sheet_id=sheet_id or f"sheet-{safe_stem(bike)}",
+        footer=_footer(f"{plan['event']} · {display._(SHEET_WORD)} {bike}"),
+    )
     return environment().get_template("sheet.html.j2").render(**context)
 
 
@@ -252,8 +305,12 @@ def summary_html(plan: dict, paper: str = "a4", links: bool = True, display: Dis
     context = _common(plan, paper, f"{plan['event']} · {display._(SUMMARY_WORD)}", display=display)
     names = safe_file_names([e["bike"] for e in plan["entries"]])
     route = charts.route_chart(plan, display)
-    context.update(r=tables.summary_rows(plan, names, display), chart_svg=charts.to_svg(charts.weather_chart(plan, display)),
-                   route_svg=charts.to_svg(route) if route is not None else "", links=links)
+    context.update(
+        r=tables.summary_rows(plan, names, display),
+        chart_svg=charts.to_svg(charts.weather_chart(plan, display)),
+        route_svg=charts.to_svg(route) if route is not None else "",
+        links=links,
+    )
     return environment().get_template("summary.html.j2").render(**context)
 
 
@@ -287,8 +344,9 @@ def write_pdf(html: str, path: Path, base_url: Path) -> Path:
     return path
 
 
-def write_sheet(plan: dict, entries: list[dict], html_path: Path, pdf_path: Path, paper: str = "a4",
-                display: Display = METRIC_EN) -> int:
+def write_sheet(
+    plan: dict, entries: list[dict], html_path: Path, pdf_path: Path, paper: str = "a4", display: Display = METRIC_EN
+) -> int:
     """Write one bike's sheet as HTML and PDF, on one page if any layout allows; return pages."""
     job = SheetJob(entries, html_path, pdf_path, f"sheet-{safe_stem(entries[0]['bike'])}")
     return write_sheets(plan, [job], paper, display)[0]
@@ -304,8 +362,9 @@ class SheetJob:
     sheet_id: str
 
 
-def write_sheets(plan: dict, jobs: list[SheetJob], paper: str = "a4", display: Display = METRIC_EN,
-                 fitted: dict | None = None) -> list[int]:
+def write_sheets(
+    plan: dict, jobs: list[SheetJob], paper: str = "a4", display: Display = METRIC_EN, fitted: dict | None = None
+) -> list[int]:
     """Write several bikes' sheets as HTML and PDF, each on one page if any layout allows.
 
     The sheets are laid out together as ONE WeasyPrint document (their bodies one after
@@ -329,8 +388,7 @@ def write_sheets(plan: dict, jobs: list[SheetJob], paper: str = "a4", display: D
         now = [i for i in pending if first[i] <= step]
         if not now:
             continue
-        htmls = {i: sheet_html(plan, jobs[i].entries, paper, density, condense, display, jobs[i].sheet_id)
-                 for i in now}
+        htmls = {i: sheet_html(plan, jobs[i].entries, paper, density, condense, display, jobs[i].sheet_id) for i in now}
         document = layout(_one_document([htmls[i] for i in now]), jobs[now[0]].pdf_path.parent)
         by_id = _pages_by_id(document, [jobs[i].sheet_id for i in now])
         for i in now:
@@ -358,22 +416,26 @@ def sheet_shape(plan: dict, entries: list[dict]) -> tuple:
     bike = entries[0]["bike"]
     record = index["records"].get(bike) or {}
     return (
-        len(entries), len(entries[0]["notes"] or "") // 60,
+        len(entries),
+        len(entries[0]["notes"] or "") // 60,
         tuple(len(e["warnings"]) for e in entries),
         sum(len(w["message"]) for e in entries for w in e["warnings"]) // 120,
         len(record.get("notices", ())),
         sum(len(row["changes"]) for _order, row in index["work"].get(bike, ())),
         tuple(len(e["checks"]) for e in entries),
-        tuple(bool(e["settings"][key].get("steps") or e["settings"][key].get("change_turns"))
-              for e in entries for key in ("main_jet", "pilot_jet", "clip", "mixture_screw")),
+        tuple(
+            bool(e["settings"][key].get("steps") or e["settings"][key].get("change_turns"))
+            for e in entries
+            for key in ("main_jet", "pilot_jet", "clip", "mixture_screw")
+        ),
     )
 
 
 def _one_document(pages: list[str]) -> str:
     """Self-contained sheet pages as one HTML document: the first one's head, every body in order."""
     first = pages[0]
-    bodies = [page[page.index(">", page.index("<body")) + 1: page.rindex("</body>")] for page in pages]
-    return first[:first.index("<body")] + "<body>" + "".join(bodies) + "</body>\n</html>\n"
+    bodies = [page[page.index(">", page.index("<body")) + 1 : page.rindex("</body>")] for page in pages]
+    return first[: first.index("<body")] + "<body>" + "".join(bodies) + "</body>\n</html>\n"
 
 
 def _pages_by_id(document, ids: list[str]) -> dict[str, list]:
@@ -386,7 +448,7 @@ def _pages_by_id(document, ids: list[str]) -> dict[str, list]:
     if missing:
         raise BuildError(f"sheet {missing[0]!r} has no page in the laid-out document")
     starts = [first_page[i] for i in ids] + [len(document.pages)]
-    return {i: document.pages[starts[k]:starts[k + 1]] for k, i in enumerate(ids)}
+    return {i: document.pages[starts[k] : starts[k + 1]] for k, i in enumerate(ids)}
 
 
 _TITLE = re.compile(r"<title>(.*?)</title>", re.S)
@@ -424,13 +486,17 @@ class SheetBatch:
     def _repr_html_(self) -> str:
         body = "".join(
             f"<tr><td>{html_lib.escape(b)}</td><td>sheets/{html_lib.escape(f)}.html, .pdf</td><td>{w}</td></tr>"
-            for b, f, w in self.rows)
-        return (f"<p>{len(self.rows)} setup sheets written.</p><table><thead><tr><th>Bike</th>"
-                f"<th>Files</th><th>Warnings</th></tr></thead><tbody>{body}</tbody></table>")
+            for b, f, w in self.rows
+        )
+        return (
+            f"<p>{len(self.rows)} setup sheets written.</p><table><thead><tr><th>Bike</th>"
+            f"<th>Files</th><th>Warnings</th></tr></thead><tbody>{body}</tbody></table>"
+        )
 
 
-def render_setup_sheets(plan: dict, out_dir: str | Path, bikes=(), paper: str = "a4",
-                        units: str = "metric", language: str = "en") -> SheetBatch:
+def render_setup_sheets(
+    plan: dict, out_dir: str | Path, bikes=(), paper: str = "a4", units: str = "metric", language: str = "en"
+) -> SheetBatch:
     """Write ``sheets/<bike>.html`` and ``.pdf`` for ``bikes`` (all when empty) under ``out_dir``.
 
     ``units`` (``metric`` or ``us``) and ``language`` (``en`` or ``de``) are those of what the
@@ -452,18 +518,29 @@ def render_setup_sheets(plan: dict, out_dir: str | Path, bikes=(), paper: str = 
     fitted: dict = {}  # sheet shape -> the layout such sheets fitted in (see write_sheets)
     with gc_paused(collect_every=1) as group_done:
         for start in range(0, len(wanted), SHEETS_PER_DOCUMENT):
-            group = wanted[start:start + SHEETS_PER_DOCUMENT]
-            jobs = [SheetJob(grouped[b], out / "sheets" / f"{names[b]}.html", out / "sheets" / f"{names[b]}.pdf",
-                             f"sheet-{names[b]}") for b in group]
+            group = wanted[start : start + SHEETS_PER_DOCUMENT]
+            jobs = [
+                SheetJob(
+                    grouped[b],
+                    out / "sheets" / f"{names[b]}.html",
+                    out / "sheets" / f"{names[b]}.pdf",
+                    f"sheet-{names[b]}",
+                )
+                for b in group
+            ]
             try:
                 write_sheets(plan, jobs, paper, display, fitted)
             except UserError:
                 raise
             except Exception as exc:
-                raise BuildError(f"setup sheet of bike {_failed_bike(plan, group, paper, display)!r} failed: "
-                                 f"{type(exc).__name__}: {exc}") from exc
+                raise BuildError(
+                    f"setup sheet of bike {_failed_bike(plan, group, paper, display)!r} failed: "
+                    f"{type(exc).__name__}: {exc}"
+                ) from exc
             for bike in group:
-                batch.rows.append((bike, names[bike], tables.warning_count(grouped[bike], _index(plan)["records"].get(bike))))
+                batch.rows.append(
+                    (bike, names[bike], tables.warning_count(grouped[bike], _index(plan)["records"].get(bike)))
+                )
             group_done()
     return batch
 
@@ -495,8 +572,9 @@ class FleetReport:
         return self.body_html
 
 
-def render_fleet_report(plan: dict, out_dir: str | Path, paper: str = "a4", notebooks=(),
-                        units: str = "metric", language: str = "en") -> FleetReport:
+def render_fleet_report(
+    plan: dict, out_dir: str | Path, paper: str = "a4", notebooks=(), units: str = "metric", language: str = "en"
+) -> FleetReport:
     """Write ``fleet-summary.html``, ``fleet-summary.pdf`` and ``index.html`` under ``out_dir``.
 
     ``units`` (``metric`` or ``us``) and ``language`` (``en`` or ``de``): see :class:`tuning.display.Display`.
@@ -516,6 +594,6 @@ def render_fleet_report(plan: dict, out_dir: str | Path, paper: str = "a4", note
         raise
     except Exception as exc:
         raise BuildError(f"fleet summary failed: {type(exc).__name__}: {exc}") from exc
-    body = html[html.index("<body"):]
-    body = body[body.index(">") + 1: body.rindex("</body>")]
+    body = html[html.index("<body") :]
+    body = body[body.index(">") + 1 : body.rindex("</body>")]
     return FleetReport(body, [out / "fleet-summary.html", out / "fleet-summary.pdf", out / "index.html"])

@@ -15,8 +15,20 @@ CIRCUITS = (
     ("mixture_screw", N_("Mixture screw")),
 )
 _DAYS = (N_("Mon"), N_("Tue"), N_("Wed"), N_("Thu"), N_("Fri"), N_("Sat"), N_("Sun"))
-_MONTHS = (N_("Jan"), N_("Feb"), N_("Mar"), N_("Apr"), N_("May"), N_("Jun"), N_("Jul"), N_("Aug"), N_("Sep"),
-           N_("Oct"), N_("Nov"), N_("Dec"))
+_MONTHS = (
+    N_("Jan"),
+    N_("Feb"),
+    N_("Mar"),
+    N_("Apr"),
+    N_("May"),
+    N_("Jun"),
+    N_("Jul"),
+    N_("Aug"),
+    N_("Sep"),
+    N_("Oct"),
+    N_("Nov"),
+    N_("Dec"),
+)
 _QUARTERS = {0: "", 1: "¼", 2: "½", 3: "¾"}
 #: Turns within this of a quarter are that quarter [turns] (the document rounds turns to 2 decimals).
 _QUARTER_EXACT = 1e-6
@@ -75,8 +87,9 @@ def stock_kept(plan: dict) -> bool:
     Without one the plan gives ``in_stock`` as null for every jet of every entry and in the pick
     list; with one, every entry's ``in_stock`` is true or false.
     """
-    return any(e["settings"][key].get("in_stock") is not None
-               for e in plan["entries"] for key in ("main_jet", "pilot_jet"))
+    return any(
+        e["settings"][key].get("in_stock") is not None for e in plan["entries"] for key in ("main_jet", "pilot_jet")
+    )
 
 
 def _text(value) -> str:
@@ -213,8 +226,12 @@ def _checks(entries: list[dict], condense: int, d: Display = METRIC_EN) -> list[
         else:
             kinds[kind] = text
             out[text] = []
-    return [d._("%(check)s (also in %(sessions)s, with its own figures)") % {"check": text, "sessions": ", ".join(later)}
-            if later else text for text, later in out.items()]
+    return [
+        d._("%(check)s (also in %(sessions)s, with its own figures)") % {"check": text, "sessions": ", ".join(later)}
+        if later
+        else text
+        for text, later in out.items()
+    ]
 
 
 #: The boxes filled in by hand on a sheet, by their data names: the fleet types them back in
@@ -256,14 +273,20 @@ def change_headline(settings: dict, d: Display) -> list[str]:
     for key, word in (("main_jet", N_("main")), ("pilot_jet", N_("pilot"))):
         steps = settings[key].get("steps") or 0
         if steps:
-            template = (d.n_("%(part)s %(n)s size larger", "%(part)s %(n)s sizes larger", abs(steps)) if steps > 0
-                        else d.n_("%(part)s %(n)s size smaller", "%(part)s %(n)s sizes smaller", abs(steps)))
+            template = (
+                d.n_("%(part)s %(n)s size larger", "%(part)s %(n)s sizes larger", abs(steps))
+                if steps > 0
+                else d.n_("%(part)s %(n)s size smaller", "%(part)s %(n)s sizes smaller", abs(steps))
+            )
             parts.append(template % {"part": d._(word), "n": abs(steps)})
     clip = settings["clip"]
     if clip.get("steps"):
         n = abs(clip["steps"])
-        template = (d.n_("clip %(n)s groove richer", "clip %(n)s grooves richer", n) if clip.get("direction") == "richer"
-                    else d.n_("clip %(n)s groove leaner", "clip %(n)s grooves leaner", n))
+        template = (
+            d.n_("clip %(n)s groove richer", "clip %(n)s grooves richer", n)
+            if clip.get("direction") == "richer"
+            else d.n_("clip %(n)s groove leaner", "clip %(n)s grooves leaner", n)
+        )
         parts.append(template % {"n": n})
     screw = settings["mixture_screw"]
     turned = screw.get("change_turns") or 0
@@ -282,7 +305,11 @@ def verdicts(entry: dict, d: Display) -> list[dict]:
     lo, hi = curve["target_band_afr"]
     out = []
     for start, end, name, circuit in THROTTLE_RANGES:
-        afr = [a for t, a in zip(curve["throttle"], curve["recommended_afr"]) if start - _ROUND_OFF <= t <= end + _ROUND_OFF]
+        afr = [
+            a
+            for t, a in zip(curve["throttle"], curve["recommended_afr"])
+            if start - _ROUND_OFF <= t <= end + _ROUND_OFF
+        ]
         out.append(dict(_verdict(min(afr), max(afr), lo, hi, d), range=d._(name), circuit=d._(circuit)))
     proven = curve["current_afr"]
     out.append(dict(_verdict(min(proven), max(proven), lo, hi, d), range=d._("proven settings"), circuit=""))
@@ -303,6 +330,7 @@ def _verdict(richest: float, leanest: float, lo: float, hi: float, d: Display) -
 def _form_rows(entries: list[dict], work, d: Display) -> tuple[list[dict], list[dict]]:
     """The hand-filled form: per session the changes planned before it (a tick each), and the
     changes back to the proven settings after the event."""
+
     def ticks(row) -> list[dict]:
         return [{"text": say_item(c, d), "minutes": minutes(c["minutes"])} for c in row["changes"]] if row else []
 
@@ -311,8 +339,14 @@ def _form_rows(entries: list[dict], work, d: Display) -> tuple[list[dict], list[
     return rows, ticks(before.get(None))  # the transition after the last session comes before none
 
 
-def sheet_rows(entries: list[dict], record: dict | None = None, work=None, condense: int = 0,
-               display: Display = METRIC_EN, plan_sessions=()) -> dict:
+def sheet_rows(
+    entries: list[dict],
+    record: dict | None = None,
+    work=None,
+    condense: int = 0,
+    display: Display = METRIC_EN,
+    plan_sessions=(),
+) -> dict:
     """Everything one bike's setup sheet shows, formatted, from that bike's plan entries.
 
     ``record`` is the bike's item of the plan's ``bikes`` (its notices, its danger flag) and
@@ -329,18 +363,30 @@ def sheet_rows(entries: list[dict], record: dict | None = None, work=None, conde
     danger = [w for w in warning_rows if w["severity"] == "danger"]
     form, back = _form_rows(entries, work, d)
     return {
-        "bike": first["bike"], "model": first["model"], "notes": first["notes"] or "",
-        "strokes": first["strokes"], "premix_ratio": first["premix_ratio"],
-        "density_exponent": d.number(first["density_exponent"], 2), "reference": first["reference"],
+        "bike": first["bike"],
+        "model": first["model"],
+        "notes": first["notes"] or "",
+        "strokes": first["strokes"],
+        "premix_ratio": first["premix_ratio"],
+        "density_exponent": d.number(first["density_exponent"], 2),
+        "reference": first["reference"],
         "basis": basis_words(record, d),
-        "sessions": sessions, "circuits": _circuit_rows(entries, d),
+        "sessions": sessions,
+        "circuits": _circuit_rows(entries, d),
         "power_out_of_range": not all(x["power_in_range"] for x in sessions),
         "float_level": d.number(float_levels[0], 1, "mm") if float_levels[0] is not None else d._("not given"),
-        "rejet": _rejet_rows(entries, d), "checks": checks, "danger": danger, "notes_by_code": condense >= NOTES_BY_CODE_LEVEL,
+        "rejet": _rejet_rows(entries, d),
+        "checks": checks,
+        "danger": danger,
+        "notes_by_code": condense >= NOTES_BY_CODE_LEVEL,
         "warnings": [w for w in warning_rows if w["severity"] != "danger"],
-        "form": form, "back_to_proven": back, "fields": FORM_FIELDS,
+        "form": form,
+        "back_to_proven": back,
+        "fields": FORM_FIELDS,
         "band": first["mixture_curve"]["target_band_afr"],
-        "stock_kept": any(e["settings"][k].get("in_stock") is not None for e in entries for k in ("main_jet", "pilot_jet")),
+        "stock_kept": any(
+            e["settings"][k].get("in_stock") is not None for e in entries for k in ("main_jet", "pilot_jet")
+        ),
     }
 
 
@@ -352,22 +398,25 @@ def _session_rows(entries, plan_sessions, d) -> list[dict]:
         sm = e["summary"]
         common = by_name.get(e["session"], {})
         changes = change_headline(e["settings"], d)
-        sessions.append({
-            "name": e["session"], "window": window(e["start"], e["end"], d),
-            "air_words": air_words(sm["air_density_vs_reference_pct"], d),
-            "do": ", ".join(changes) if changes else d._("proven settings, nothing to change"),
-            "changed": bool(changes),
-            "air_temperature": d.temperature_span(sm["air_temperature_C_min"], sm["air_temperature_C_max"]),
-            "station_pressure": d.pressure(sm["station_pressure_hPa_mean"]),
-            "relative_humidity": d.percent(sm["relative_humidity_pct_mean"]),
-            "density_altitude": d.elevation_span(sm["density_altitude_m_min"], sm["density_altitude_m_max"]),
-            "air_vs_home": d.percent(sm["air_density_vs_reference_pct"], signed=True),
-            "factor": f"{d.number(sm['area_factor_mean'], 3)} ({d.number(sm['area_factor_min'], 3)}…{d.number(sm['area_factor_max'], 3)})",
-            "power": d.percent(common.get("power_vs_sae_j1349_pct")),
-            "power_in_range": common.get("sae_j1349_within_range", True),
-            "verdicts": verdicts(e, d),
-            "ridden": ridden_words(e, common.get("heights"), d),
-        })
+        sessions.append(
+            {
+                "name": e["session"],
+                "window": window(e["start"], e["end"], d),
+                "air_words": air_words(sm["air_density_vs_reference_pct"], d),
+                "do": ", ".join(changes) if changes else d._("proven settings, nothing to change"),
+                "changed": bool(changes),
+                "air_temperature": d.temperature_span(sm["air_temperature_C_min"], sm["air_temperature_C_max"]),
+                "station_pressure": d.pressure(sm["station_pressure_hPa_mean"]),
+                "relative_humidity": d.percent(sm["relative_humidity_pct_mean"]),
+                "density_altitude": d.elevation_span(sm["density_altitude_m_min"], sm["density_altitude_m_max"]),
+                "air_vs_home": d.percent(sm["air_density_vs_reference_pct"], signed=True),
+                "factor": f"{d.number(sm['area_factor_mean'], 3)} ({d.number(sm['area_factor_min'], 3)}…{d.number(sm['area_factor_max'], 3)})",
+                "power": d.percent(common.get("power_vs_sae_j1349_pct")),
+                "power_in_range": common.get("sae_j1349_within_range", True),
+                "verdicts": verdicts(e, d),
+                "ridden": ridden_words(e, common.get("heights"), d),
+            }
+        )
     return sessions
 
 
@@ -382,8 +431,12 @@ def _circuit_rows(entries, d) -> list[dict]:
             detail = d._("family %(family)s") % {"family": s0["family"]}
         elif key == "clip":
             title = d._("Needle clip groove")
-            detail = (d._("needle %(needle)s, %(n)s grooves, 1 = top") % {"needle": _text(s0.get("needle")), "n": s0["grooves"]}
-                      if s0.get("grooves") else d._("needle %(needle)s, grooves not on record") % {"needle": _text(s0.get("needle"))})
+            detail = (
+                d._("needle %(needle)s, %(n)s grooves, 1 = top")
+                % {"needle": _text(s0.get("needle")), "n": s0["grooves"]}
+                if s0.get("grooves")
+                else d._("needle %(needle)s, grooves not on record") % {"needle": _text(s0.get("needle"))}
+            )
         elif key == "mixture_screw":
             title = d._("Air screw, turns out") if s0["kind"] == "air" else d._("Fuel screw, turns out")
             low, high = (s0.get("usable_range") or [None, None])[:2]
@@ -394,11 +447,24 @@ def _circuit_rows(entries, d) -> list[dict]:
             source, to_order = _source_text(key, entries, i, d)
             value = _circuit_value(key, s, "recommended", unit=False)
             repeat = i > 0 and cells[-1]["recommended"] == value  # the words once, where it changes
-            cells.append({
-                "recommended": value, "change": "" if repeat else say_item(s, d),
-                "changed": _changed(key, s), "source": source, "to_order": to_order,
-            })
-        circuits.append({"key": key, "label": title, "detail": detail, "current": _circuit_value(key, s0, "current", unit=False), "cells": cells})
+            cells.append(
+                {
+                    "recommended": value,
+                    "change": "" if repeat else say_item(s, d),
+                    "changed": _changed(key, s),
+                    "source": source,
+                    "to_order": to_order,
+                }
+            )
+        circuits.append(
+            {
+                "key": key,
+                "label": title,
+                "detail": detail,
+                "current": _circuit_value(key, s0, "current", unit=False),
+                "cells": cells,
+            }
+        )
     return circuits
 
 
@@ -431,11 +497,25 @@ def _warning_rows(entries, record, condense, d) -> list[dict]:
     grouped = _grouped_warnings(entries, d)
     warning_rows = []
     for (severity, code, message), names in grouped.items():
-        warning_rows.append({"severity": severity, "code": code, "message": message, "session_list": names,
-                             "sessions": d._("all sessions") if names == all_sessions else ", ".join(names)})
+        warning_rows.append(
+            {
+                "severity": severity,
+                "code": code,
+                "message": message,
+                "session_list": names,
+                "sessions": d._("all sessions") if names == all_sessions else ", ".join(names),
+            }
+        )
     for w in (record or {}).get("notices", []):  # about the bike's records: once, whatever the session
-        warning_rows.append({"severity": w["severity"], "code": w["code"], "message": say_item(w, d),
-                             "session_list": [], "sessions": d._("the bike's records")})
+        warning_rows.append(
+            {
+                "severity": w["severity"],
+                "code": w["code"],
+                "message": say_item(w, d),
+                "session_list": [],
+                "sessions": d._("the bike's records"),
+            }
+        )
     warning_rows.sort(key=lambda w: severity_rank(w["severity"]))  # stable: danger, action, note
     warning_rows = condensed(warning_rows, CONDENSE_LEVELS[condense])
     if condense >= NOTES_BY_CODE_LEVEL:
@@ -459,7 +539,9 @@ def change_set(entries: list[dict]) -> tuple:
         for key, _label in CIRCUITS:
             s = e["settings"][key]
             if _changed(key, s):
-                work.append((e["session"], key, _circuit_value(key, s, "current"), _circuit_value(key, s, "recommended")))
+                work.append(
+                    (e["session"], key, _circuit_value(key, s, "current"), _circuit_value(key, s, "recommended"))
+                )
     return tuple(work)
 
 
@@ -473,8 +555,10 @@ def change_words(entries: list[dict], display: Display = METRIC_EN) -> list[str]
         for key, _label in CIRCUITS:
             s = e["settings"][key]
             if _changed(key, s):
-                parts.append(f"{d._(short[key])} {_circuit_value(key, s, 'current', display=d)} → "
-                             f"{_circuit_value(key, s, 'recommended', display=d)}")
+                parts.append(
+                    f"{d._(short[key])} {_circuit_value(key, s, 'current', display=d)} → "
+                    f"{_circuit_value(key, s, 'recommended', display=d)}"
+                )
         lines.append(f"{e['session']}: {', '.join(parts) if parts else d._('no change')}")
     return lines
 
@@ -491,48 +575,78 @@ def summary_rows(plan: dict, file_names: dict[str, str], display: Display = METR
     for bike, entries in by_bike.items():
         words = change_words(entries, d)
         record = records.get(bike)
-        bikes.append({"bike": bike, "model": entries[0]["model"], "changes": words,
-                      "warnings": warning_count(entries, record), "danger": bool(record and record["danger"]),
-                      "file": file_names[bike]})
+        bikes.append(
+            {
+                "bike": bike,
+                "model": entries[0]["model"],
+                "changes": words,
+                "warnings": warning_count(entries, record),
+                "danger": bool(record and record["danger"]),
+                "file": file_names[bike],
+            }
+        )
         key = (entries[0]["model"],) + change_set(entries)
         batches.setdefault(key, []).append(bike)
         batch_words.setdefault(key, words)
-    batch_rows = [{"model": key[0], "changes": batch_words[key], "bikes": members,
-                   "count": len(members)} for key, members in batches.items()]
+    batch_rows = [
+        {"model": key[0], "changes": batch_words[key], "bikes": members, "count": len(members)}
+        for key, members in batches.items()
+    ]
     batch_rows.sort(key=lambda r: -r["count"])  # stable: first-seen order among equal sizes
-    windows = [(dt.datetime.fromisoformat(x["start"]), dt.datetime.fromisoformat(x["end"]), x["name"])
-               for x in plan["sessions"]]
+    windows = [
+        (dt.datetime.fromisoformat(x["start"]), dt.datetime.fromisoformat(x["end"]), x["name"])
+        for x in plan["sessions"]
+    ]
 
     def session_of(time: str) -> str | None:
         moment = dt.datetime.fromisoformat(time)
         return next((name for start, end, name in windows if start <= moment <= end), None)
 
-    weather = [{
-        "session": session_of(w["time"]),
-        "time": f"{day(w['time'], d, year=False)} {clock(w['time'])}",
-        "air_temperature": d.temperature(w["air_temperature_C"], 1, unit=False),
-        "station_pressure": d.pressure(w["station_pressure_hPa"], unit=False, digits=2 if d.units == "us" else 1),
-        "relative_humidity": d.number(w["relative_humidity_pct"], 0),
-        "dew_point": d.temperature(w["dew_point_C"], 1, unit=False),
-        "density_altitude": d.elevation(w["density_altitude_m"], unit=False),
-        "area_factor": d.number(w["area_factor"], 3),
-        "power": d.number(100.0 / w["sae_j1349_cf"], 0) if w.get("sae_j1349_cf") else "–",
-        "icing_risk": f"{w['icing_risk']} ({d._(ICING_RISK_NAMES[w['icing_risk']])})",
-    } for w in plan["weather"] if session_of(w["time"])]
-    sessions = [{"name": s["name"], "window": window(s["start"], s["end"], d),
-                 "power": d.percent(s["power_vs_sae_j1349_pct"]), "power_in_range": s["sae_j1349_within_range"]}
-                for s in plan["sessions"]]
+    weather = [
+        {
+            "session": session_of(w["time"]),
+            "time": f"{day(w['time'], d, year=False)} {clock(w['time'])}",
+            "air_temperature": d.temperature(w["air_temperature_C"], 1, unit=False),
+            "station_pressure": d.pressure(w["station_pressure_hPa"], unit=False, digits=2 if d.units == "us" else 1),
+            "relative_humidity": d.number(w["relative_humidity_pct"], 0),
+            "dew_point": d.temperature(w["dew_point_C"], 1, unit=False),
+            "density_altitude": d.elevation(w["density_altitude_m"], unit=False),
+            "area_factor": d.number(w["area_factor"], 3),
+            "power": d.number(100.0 / w["sae_j1349_cf"], 0) if w.get("sae_j1349_cf") else "–",
+            "icing_risk": f"{w['icing_risk']} ({d._(ICING_RISK_NAMES[w['icing_risk']])})",
+        }
+        for w in plan["weather"]
+        if session_of(w["time"])
+    ]
+    sessions = [
+        {
+            "name": s["name"],
+            "window": window(s["start"], s["end"], d),
+            "power": d.percent(s["power_vs_sae_j1349_pct"]),
+            "power_in_range": s["sae_j1349_within_range"],
+        }
+        for s in plan["sessions"]
+    ]
     kept = stock_kept(plan)
     to_order = sum(p["to_order"] or 0 for p in plan["pick_list"])
-    pick_list = [dict(p, in_stock_text=_text(p["in_stock"]), to_order_text=_text(p["to_order"]))
-                 for p in plan["pick_list"]]
+    pick_list = [
+        dict(p, in_stock_text=_text(p["in_stock"]), to_order_text=_text(p["to_order"])) for p in plan["pick_list"]
+    ]
     pick_list.sort(key=lambda p: -(p["to_order"] or 0))  # to order first, else the plan's order
-    return {"bikes": bikes, "batches": batch_rows, "danger": danger_rows(plan, by_bike, file_names, d),
-            "warning_groups": warning_groups(plan, by_bike, d), "work_orders": work_order_rows(plan, file_names, d),
-            "weather": weather, "sessions": sessions, "pick_list": pick_list, "stock_kept": kept,
-            "heights": heights_rows(plan, d),
-            "to_order": to_order,
-            "stock_status": to_order_text(to_order, d) if kept else d._(NO_STOCK_LIST)}
+    return {
+        "bikes": bikes,
+        "batches": batch_rows,
+        "danger": danger_rows(plan, by_bike, file_names, d),
+        "warning_groups": warning_groups(plan, by_bike, d),
+        "work_orders": work_order_rows(plan, file_names, d),
+        "weather": weather,
+        "sessions": sessions,
+        "pick_list": pick_list,
+        "stock_kept": kept,
+        "heights": heights_rows(plan, d),
+        "to_order": to_order,
+        "stock_status": to_order_text(to_order, d) if kept else d._(NO_STOCK_LIST),
+    }
 
 
 def ridden_words(entry: dict, session_heights: dict | None, d: Display) -> str:
@@ -546,13 +660,20 @@ def ridden_words(entry: dict, session_heights: dict | None, d: Display) -> str:
     if d.elevation(low) == d.elevation(high):
         forecast = (session_heights or {}).get("weather_elevation_m")
         return d._("ridden at %(elevation)s, the forecast carried from %(forecast)s") % {
-            "elevation": d.elevation(low), "forecast": d.elevation(forecast)}
+            "elevation": d.elevation(low),
+            "forecast": d.elevation(forecast),
+        }
     rich = h.get("rich_at_highest_pct")
     mixture = (d._("%(pct)s rich") if rich is None or rich >= 0 else d._("%(pct)s lean")) % {
-        "pct": d.percent(None if rich is None else abs(rich))}
+        "pct": d.percent(None if rich is None else abs(rich))
+    }
     words = d._("ridden %(range)s; set for %(set_for)s; at %(high)s %(mixture)s, %(power)s power") % {
-        "range": d.elevation_span(low, high), "set_for": d.elevation(h["set_for_elevation_m"]),
-        "high": d.elevation(high), "mixture": mixture, "power": d.percent(h.get("power_at_highest_pct"))}
+        "range": d.elevation_span(low, high),
+        "set_for": d.elevation(h["set_for_elevation_m"]),
+        "high": d.elevation(high),
+        "mixture": mixture,
+        "power": d.percent(h.get("power_at_highest_pct")),
+    }
     route = (session_heights or {}).get("route")
     return words + (" " + d._("(route %(file)s)") % {"file": route} if route else "")
 
@@ -566,14 +687,16 @@ def heights_rows(plan: dict, d: Display) -> list[dict]:
         h = s.get("heights")
         if not h:
             continue
-        rows.append({
-            "session": s["name"],
-            "source": d._(source_words[h["source"]]) + (f" {h['route']}" if h.get("route") else ""),
-            "heights": d.elevation_span(h["elevation_m_min"], h["elevation_m_max"]),
-            "set_for": d.elevation(h["set_for_elevation_m"]),
-            "forecast": d.elevation(h["weather_elevation_m"]),
-            "lapse_rate": d.lapse_rate(h["lapse_rate_K_per_km"]),
-        })
+        rows.append(
+            {
+                "session": s["name"],
+                "source": d._(source_words[h["source"]]) + (f" {h['route']}" if h.get("route") else ""),
+                "heights": d.elevation_span(h["elevation_m_min"], h["elevation_m_max"]),
+                "set_for": d.elevation(h["set_for_elevation_m"]),
+                "forecast": d.elevation(h["weather_elevation_m"]),
+                "lapse_rate": d.lapse_rate(h["lapse_rate_K_per_km"]),
+            }
+        )
     return rows
 
 
@@ -603,9 +726,19 @@ def danger_rows(plan: dict, by_bike: dict, file_names: dict[str, str], d: Displa
                 codes[w["code"]] = codes.get(w["code"], 0) + 1
             others.append(f"{name}: " + ", ".join(c if n == 1 else f"{c} ×{n}" for c, n in codes.items()))
         names = [name for name, _ in per_session]
-        rows.append({"bike": record["bike"], "model": record["model"], "file": file_names.get(record["bike"], ""),
-                     "sessions": [d._("all sessions")] if len(entries) > 1 and names == [e["session"] for e in entries] else names, "first_session": first_session,
-                     "messages": [{"code": w["code"], "message": say_item(w, d)} for w in first], "others": others})
+        rows.append(
+            {
+                "bike": record["bike"],
+                "model": record["model"],
+                "file": file_names.get(record["bike"], ""),
+                "sessions": [d._("all sessions")]
+                if len(entries) > 1 and names == [e["session"] for e in entries]
+                else names,
+                "first_session": first_session,
+                "messages": [{"code": w["code"], "message": say_item(w, d)} for w in first],
+                "others": others,
+            }
+        )
     return rows
 
 
@@ -621,7 +754,9 @@ def warning_groups(plan: dict, by_bike: dict, display: Display = METRIC_EN) -> d
     count = {severity: 0 for severity in SEVERITIES}
     for e in plan["entries"]:
         for w in e["warnings"]:
-            found.setdefault((w["severity"], w["code"], say_item(w, display)), OrderedDict()).setdefault(e["bike"], []).append(e["session"])
+            found.setdefault((w["severity"], w["code"], say_item(w, display)), OrderedDict()).setdefault(
+                e["bike"], []
+            ).append(e["session"])
             count[w["severity"]] += 1
     for record in plan["bikes"]:
         for w in record["notices"]:
@@ -638,7 +773,9 @@ def warning_groups(plan: dict, by_bike: dict, display: Display = METRIC_EN) -> d
                 every = [e["session"] for e in by_bike.get(bike, [])]
                 where.append(bike if names is None or names == every else f"{bike} ({', '.join(names)})")
             rows.append({"code": code, "message": message, "where": where, "count": len(where)})
-        groups.append({"severity": severity, "title": display._(severity).capitalize(), "count": count[severity], "rows": rows})
+        groups.append(
+            {"severity": severity, "title": display._(severity).capitalize(), "count": count[severity], "rows": rows}
+        )
     codes = list(dict.fromkeys(r["code"] for g in groups for r in g["rows"]))
     return {"groups": groups, "legend": [{"code": c, "meaning": display._(CODES[c][1])} for c in codes if c in CODES]}
 
@@ -649,9 +786,22 @@ def work_order_rows(plan: dict, file_names: dict[str, str], d: Display = METRIC_
     danger = {b["bike"] for b in plan["bikes"] if b["danger"]}
     orders = []
     for order in plan["work_orders"]:
-        rows = [{"bike": row["bike"], "file": file_names.get(row["bike"], ""), "danger": row["bike"] in danger,
-                 "minutes": minutes(row["minutes"]), "changes": [say_item(c, d) for c in row["changes"]]}
-                for row in order["bikes"]]
-        orders.append({"label": _label(say_item(order, d)), "minutes": minutes(order["minutes"]),
-                       "count": len(rows), "bikes": rows})
+        rows = [
+            {
+                "bike": row["bike"],
+                "file": file_names.get(row["bike"], ""),
+                "danger": row["bike"] in danger,
+                "minutes": minutes(row["minutes"]),
+                "changes": [say_item(c, d) for c in row["changes"]],
+            }
+            for row in order["bikes"]
+        ]
+        orders.append(
+            {
+                "label": _label(say_item(order, d)),
+                "minutes": minutes(order["minutes"]),
+                "count": len(rows),
+                "bikes": rows,
+            }
+        )
     return orders
