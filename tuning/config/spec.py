@@ -359,7 +359,7 @@ def Either(forms: dict[str, Any], kind_of: Callable[[Any], str | None], expected
         Union[members],  # noqa: UP007 (a union of a tuple of types built at run time)
         Discriminator(
             kind_of,
-            custom_error_type=_FORM_ERROR,  # noqa: UP007
+            custom_error_type=_FORM_ERROR,
             custom_error_message=expected,
         ),
         _EitherSchema(schema_extra),
