@@ -2,7 +2,8 @@
 
 On the invented demo: the plan is made and recorded, a wideband log in which one four-stroke bike
 runs lean at full throttle is recorded, and the next plan is made from the history. Behaviour
-checks of the wiring (history -> readings -> calibration -> plan); the statistics are checked
+checks of the wiring (history -> readings -> calibration -> plan), on SQLite and on PostgreSQL (the
+server tests/conftest.py starts); the statistics are checked
 against statsmodels in tests/test_calibration.py and the plan's use of them in
 tests/test_plan_calibration.py.
 """
@@ -55,9 +56,9 @@ def _settings(plan: dict, keep) -> dict:
     return {(e["bike"], e["session"]): tuple(e["settings"][a][b] for a, b in keys) for e in plan["entries"] if keep(e)}
 
 
-def test_a_lean_bike_gets_a_richer_main_and_other_models_stay(capsys, tmp_path):
+def test_a_lean_bike_gets_a_richer_main_and_other_models_stay(capsys, tmp_path, history_place):
     fleet, event = uphill(tmp_path / "demo")
-    place = str(tmp_path / "h.sqlite")
+    place = history_place
     first = _plan(capsys, fleet, event, tmp_path / "p0", "--history", place)
     assert {b["basis"]["kind"] for b in first["bikes"]} == {"law"}
     log = tmp_path / "wideband.csv"
@@ -85,9 +86,9 @@ def test_a_lean_bike_gets_a_richer_main_and_other_models_stay(capsys, tmp_path):
     assert {b["basis"]["kind"] for b in law["bikes"]} == {"law"}
 
 
-def test_a_bad_log_teaches_nothing(capsys, tmp_path):
+def test_a_bad_log_teaches_nothing(capsys, tmp_path, history_place):
     fleet, event = uphill(tmp_path / "demo")
-    place = str(tmp_path / "h.sqlite")
+    place = history_place
     first = _plan(capsys, fleet, event, tmp_path / "p0", "--history", place)
     log = tmp_path / "wideband.csv"
     log.write_text(_lean_log(first) + f"{LEAN_BIKE},Sat morning,1.0,31.0\n", encoding="utf-8")  # no engine runs at 31:1
