@@ -893,10 +893,16 @@ def _work_orders(fleet, rows, main, idle, clip, allocation, sessions, bike_ids):
 
 
 def _change(part, old, new, move, screw_kind):
-    if part in ("main_jet", "pilot_jet"):
+    source = _source_dict(move.source, move.origin, move.waits) if move is not None and part in KINDS else None
+    return work_change(part, old, new, source, screw_kind)
+
+
+def work_change(part, old, new, source, screw_kind) -> dict:
+    """One change of a work order: ``part`` from ``old`` to ``new``, a jet from ``source`` (a
+    source dict with its words, or None), the screw of kind ``screw_kind``."""
+    if part in KINDS:
         old_v, new_v = jet_number(old), jet_number(new)
         direction = "richer" if new > old else "leaner"
-        source = _source_dict(move.source, move.origin, move.waits) if move is not None else None
         words = {"part": part, "from": str(old_v), "to": str(new_v), "direction": direction}
         text = (
             said("work/jet-from", {**words, "source": {k: source[k] for k in ("id", "params")}})

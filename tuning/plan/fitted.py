@@ -20,14 +20,14 @@ import copy
 
 import numpy as np
 
-from tuning.plan.document import _jet_words, _quarters, jet_number
+from tuning.plan.document import _jet_words, _quarters, jet_number, work_change
 from tuning.plan.notices import printed, said, warning
-from tuning.plan.policy import WORK_MINUTES
+from tuning.plan.pool import KINDS
 from tuning.plan.window import LEAN_GUARD
 
 __all__ = ["start_from_fitted"]
 
-_JETS = ("main_jet", "pilot_jet")
+_JETS = KINDS
 
 
 def start_from_fitted(plan: dict, fleet, fitted: dict) -> dict:
@@ -178,7 +178,7 @@ def _rebase_first_order(plan, bike_id, first, now, screw_kind) -> None:
         source = sources.get(part) or (s.get("source") if part in _JETS else None)
         if source is not None and source.get("kind") == "fitted":  # the proven size: where it is, nobody recorded
             source = None
-        changes.append(_change(part, old, new, source, screw_kind))
+        changes.append(work_change(part, old, new, source, screw_kind))
     order["bikes"] = [b for b in order["bikes"] if b["bike"] != bike_id]
     if changes:
         at = next((i for i, b in enumerate(plan["bikes"]) if b["bike"] == bike_id), len(order["bikes"]))
@@ -186,43 +186,3 @@ def _rebase_first_order(plan, bike_id, first, now, screw_kind) -> None:
         order["bikes"].append({"bike": bike_id, "minutes": sum(c["minutes"] for c in changes), "changes": changes})
         order["bikes"].sort(key=lambda b: ids.index(b["bike"]) if b["bike"] in ids else at)
     order["minutes"] = sum(b["minutes"] for b in order["bikes"])
-
-
-def _change(part, old, new, source, screw_kind) -> dict:
-    """One change of a work order (the words of :mod:`tuning.plan.document`'s work orders)."""
-    if part in _JETS:
-        old_v, new_v = jet_number(old), jet_number(new)
-        direction = "richer" if new > old else "leaner"
-        words = {"part": part, "from": str(old_v), "to": str(new_v), "direction": direction}
-        text = (
-            said("work/jet-from", {**words, "source": {k: source[k] for k in ("id", "params")}})
-            if source
-            else said("work/jet", words)
-        )
-    elif part == "clip":
-        old_v, new_v = int(old), int(new)
-        direction = "richer" if new > old else "leaner"
-        source, text = None, said("work/clip", {"from": old_v, "to": new_v, "direction": direction})
-    else:
-        old_v, new_v = round(float(old), 2), round(float(new), 2)
-        turned = new - old
-        direction = "richer" if (turned > 0) == (screw_kind == "fuel") else "leaner"
-        source = None
-        text = said(
-            "work/screw-out" if turned > 0 else "work/screw-in",
-            {
-                "screw": screw_kind,
-                "by_quarter_turns": _quarters(turned),
-                "to_turns": printed(new_v, "g"),
-                "direction": direction,
-            },
-        )
-    return {
-        "part": part,
-        "from": old_v,
-        "to": new_v,
-        "direction": direction,
-        "minutes": WORK_MINUTES[part],
-        "source": source,
-        **text,
-    }
