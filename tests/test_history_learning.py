@@ -96,3 +96,21 @@ def test_a_bad_log_teaches_nothing(capsys, tmp_path, history_place):
     err = capsys.readouterr().err.strip().splitlines()
     assert len(err) == 1 and err[0].startswith(f"carbfleet record: {log}:") and "wideband_afr" in err[0]
     assert _mains(_plan(capsys, fleet, event, tmp_path / "p1", "--history", place)) == _mains(first)
+
+
+def test_readings_of_a_bike_the_ridden_plan_lacks_are_left_out(capsys, tmp_path):
+    """A bike added to the fleet after the plan was made has readings the plan cannot predict: the
+    next plan leaves them out instead of failing."""
+    fleet, event = uphill(tmp_path / "demo")
+    place = str(tmp_path / "h.sqlite")
+    text = fleet.read_text(encoding="utf-8")
+    fleet.write_text(text.replace("  - {id: F01, model: trail-450-4s}\n", ""), encoding="utf-8")
+    first = _plan(capsys, fleet, event, tmp_path / "p0", "--history", place)  # made without F01
+    fleet.write_text(text, encoding="utf-8")  # F01 joins the fleet
+    log = tmp_path / "wideband.csv"
+    log.write_text("bike,session,throttle,wideband_afr\nF01,Sat morning,1.0,13.5\n", encoding="utf-8")
+    assert main(["record", str(fleet), str(event), str(log), "--history", place]) == 0
+    capsys.readouterr()
+    again = _plan(capsys, fleet, event, tmp_path / "p1", "--history", place)
+    assert {b["basis"]["kind"] for b in again["bikes"]} == {"law"}
+    assert _mains(again) == {**_mains(first), **{k: v for k, v in _mains(again).items() if k[0] == LEAN_BIKE}}

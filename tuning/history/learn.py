@@ -19,8 +19,9 @@ __all__ = ["calibration_of"]
 def calibration_of(history, fleet) -> Calibration | None:
     """The calibration of ``fleet`` from ``history``, or None when it holds no readings of it.
 
-    Rows of bikes no longer in the fleet are left out; so are the rows written after an event and
-    events whose plan was not recorded (nothing to compare the readings with).
+    Rows of bikes no longer in the fleet are left out; so are the rows written after an event, rows
+    of a bike or session the plan ridden does not hold (a bike added to the fleet since) and events
+    whose plan was not recorded (nothing to compare the readings with).
     """
     bikes = {b.id for b in fleet.bikes}
     rows = [r for r in history.outcomes(fleet_name=fleet.name) if r["bike"] in bikes and r["session"] != AFTER]
@@ -29,6 +30,6 @@ def calibration_of(history, fleet) -> Calibration | None:
         plan = history.plan_ridden(key, fleet.name)
         if plan is None:
             continue
-        sessions = {e["session"] for e in plan["entries"]}
-        readings += readings_from(plan, [dict(r, event=key) for r in group if r["session"] in sessions])
+        planned = {(e["bike"], e["session"]) for e in plan["entries"]}
+        readings += readings_from(plan, [dict(r, event=key) for r in group if (r["bike"], r["session"]) in planned])
     return estimate(readings, fleet) if readings else None
