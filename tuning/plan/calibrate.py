@@ -32,7 +32,20 @@ from tuning.calibration import CIRCUITS
 from tuning.plan.clip import MID_RANGE_OPENINGS, THROTTLE
 from tuning.plan.window import LEAN_GUARD, WindowLoss
 
-__all__ = ["CircuitRows", "circuit_rows", "law_leanness", "guarded"]
+__all__ = ["CircuitRows", "LAW_BASIS", "circuit_rows", "law_leanness", "guarded"]
+
+#: What the settings of a bike planned on the metering law alone rest on (no readings used).
+LAW_BASIS = {
+    "kind": "law",
+    "readings": 0,
+    "sessions": 0,
+    "events": 0,
+    "uncertainty_pct": None,
+    "density_exponent": None,
+    "density_exponent_sd": None,
+    "offsets_pct": None,
+    "law_kept": False,
+}
 
 
 @dataclass(frozen=True)
@@ -102,17 +115,7 @@ def _basis(est, sd) -> dict:
     """What a bike's settings rest on: ``kind`` (law, model, calibrated), counts, the uncertainty of
     its calibrated circuits at the event's air [%, one standard deviation], the exponent."""
     if est is None or est.kind == "law":
-        return {
-            "kind": "law",
-            "readings": 0,
-            "sessions": 0,
-            "events": 0,
-            "uncertainty_pct": None,
-            "density_exponent": None,
-            "density_exponent_sd": None,
-            "offsets_pct": None,
-            "law_kept": False,
-        }
+        return dict(LAW_BASIS)
     seen = dict(zip(CIRCUITS, est.circuits))
     return {
         "kind": est.kind,

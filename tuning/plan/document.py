@@ -15,6 +15,7 @@ import numpy as np
 
 from tuning import __version__, air, circuits, constants, metering
 from tuning.gcpause import gc_paused
+from tuning.plan.calibrate import LAW_BASIS
 from tuning.plan.clip import MODE_ASSUMED, MODE_NONE, THROTTLE
 from tuning.plan.hours import air_at, epoch
 from tuning.plan.notices import BIKE_CODES, printed, said, severity_rank, warning
@@ -456,18 +457,7 @@ def _basis_dict(basis) -> dict:
     """What a bike's settings rest on, with its words: the law, its model's calibration or its own."""
     if basis is None or basis["kind"] == "law":
         text_id = "basis/not-used" if basis is not None and basis.get("not_used") else "basis/law"
-        basis = {
-            "kind": "law",
-            "readings": 0,
-            "sessions": 0,
-            "events": 0,
-            "uncertainty_pct": None,
-            "density_exponent": None,
-            "density_exponent_sd": None,
-            "offsets_pct": None,
-            "law_kept": False,
-        }
-        return {**basis, **said(text_id)}
+        return {**LAW_BASIS, **said(text_id)}
     pct = basis["uncertainty_pct"]
     params = {
         "sessions": {"id": "count/sessions", "params": {"count": basis["sessions"]}},
